@@ -1,0 +1,3 @@
+"""Placeholder: this command family is not built yet."""
+
+COMMANDS: list = []

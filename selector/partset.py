@@ -1,0 +1,213 @@
+"""The parts table as a structure of numpy arrays, with the contract's defaults applied.
+
+This is the one hand-over between the catalog (SQL rows) and the physics (arrays): the
+catalog builds a :class:`PartSet` once from library rows; the element models, the
+solver and the search index into its arrays and never see a database.
+
+Defaults follow the physics contract (DESIGN §3): ``eg_ev`` 1.11, ``xti`` 3, ``rs_ohm``
+0, ``vf_tol_v`` 0, ``tnom_c`` 25, ``tj_max_c`` 150, ``θ = (tj_max_c − 25)/pd_w`` when
+``theta_ja_k_per_w`` is absent, ``i_min_a`` = ``izk_a`` for a zener and 0 for a forward
+element, ``if_max_a`` unlimited when absent. Fields that do not apply to a family are
+filled with benign values (never NaN) so that masked vectorised evaluation of both
+models raises no floating-point warning.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass, fields
+
+import numpy as np
+
+from selector.errors import UnknownPartError
+
+FORWARD_FAMILIES: tuple[str, ...] = ("signal", "rectifier", "schottky", "led")
+BREAKDOWN_FAMILIES: tuple[str, ...] = ("zener",)
+FAMILIES: tuple[str, ...] = FORWARD_FAMILIES + BREAKDOWN_FAMILIES
+
+#: Parts CSV columns of the interface contract (DESIGN §4), in contract order.
+PART_COLUMNS: tuple[str, ...] = (
+    "part", "family", "description", "package", "is_a", "n", "rs_ohm", "eg_ev", "xti",
+    "tnom_c", "vf_tol_v", "vz_v", "izt_a", "zzt_ohm", "izk_a", "zzk_ohm", "vz_tol_pct",
+    "tc_v_per_k", "pd_w", "tj_max_c", "theta_ja_k_per_w", "if_max_a", "i_min_a",
+)  # fmt: skip
+
+#: The numeric columns, all SI floats.
+NUMERIC_COLUMNS: tuple[str, ...] = PART_COLUMNS[4:]
+
+REQUIRED_FORWARD: tuple[str, ...] = ("is_a", "n", "pd_w")
+REQUIRED_BREAKDOWN: tuple[str, ...] = ("vz_v", "izt_a", "zzt_ohm", "izk_a", "zzk_ohm", "pd_w")
+
+CONTRACT_DEFAULTS: dict[str, float] = {
+    "eg_ev": 1.11,
+    "xti": 3.0,
+    "rs_ohm": 0.0,
+    "vf_tol_v": 0.0,
+    "tnom_c": 25.0,
+    "vz_tol_pct": 0.0,
+    "tc_v_per_k": 0.0,
+    "tj_max_c": 150.0,
+}
+
+#: Stand-in values for fields that do not apply to an element's family.
+_BENIGN_FORWARD = {"is_a": 1e-14, "n": 1.0}
+_BENIGN_BREAKDOWN = {"vz_v": 0.0, "izt_a": 1e-3, "zzt_ohm": 0.0, "izk_a": 1e-4, "zzk_ohm": 0.0}
+
+
+def zener_curve_coefficients(
+    zzt_ohm: np.ndarray, izt_a: np.ndarray, zzk_ohm: np.ndarray, izk_a: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """Coefficients of the breakdown element's dynamic resistance ``a/I + rz``.
+
+    Fitted through the two datasheet points (Izt, Zzt) and (Izk, Zzk) as the physics
+    contract (DESIGN §3) prescribes; ``rz`` is clipped at 0 with ``a = Zzt·Izt``.
+
+    Parameters
+    ----------
+    zzt_ohm : array [Ω]
+        Dynamic impedance at the test current.
+    izt_a : array [A]
+        Test current.
+    zzk_ohm : array [Ω]
+        Dynamic impedance at the knee current.
+    izk_a : array [A]
+        Knee current (``izk_a < izt_a``).
+
+    Returns
+    -------
+    a_v : array [V]
+        Coefficient of the ``a·ln(I/Izt)`` term.
+    rz_ohm : array [Ω]
+        Ohmic part of the dynamic resistance.
+    """
+    a_v = (zzk_ohm - zzt_ohm) / (1.0 / izk_a - 1.0 / izt_a)
+    rz_ohm = zzt_ohm - a_v / izt_a
+    clipped = rz_ohm < 0
+    a_v = np.where(clipped, zzt_ohm * izt_a, a_v)
+    rz_ohm = np.where(clipped, 0.0, rz_ohm)
+    return a_v, rz_ohm
+
+
+@dataclass(frozen=True)
+class PartSet:
+    """Library parts as parallel arrays, one entry per part, contract defaults applied.
+
+    Attributes
+    ----------
+    part, family, description, package : ndarray of str
+    is_zener : ndarray of bool
+        True for the breakdown family.
+    is_a : array [A]; n : array [1]; rs_ohm : array [Ω]; eg_ev : array [eV]; xti : array [1]
+    tnom_c : array [°C]; vf_tol_v : array [V]
+    vz_v : array [V]; izt_a : array [A]; zzt_ohm : array [Ω]; izk_a : array [A]; zzk_ohm : array [Ω]
+    vz_tol_pct : array [%]; tc_v_per_k : array [V/K]
+    pd_w : array [W]; tj_max_c : array [°C]; theta_ja_k_per_w : array [K/W]
+    if_max_a : array [A]
+        ``inf`` where the part gives no limit.
+    i_min_a : array [A]
+        Least stack current the part needs.
+    zener_a_v : array [V]; zener_rz_ohm : array [Ω]
+        Breakdown-curve coefficients (see :func:`zener_curve_coefficients`); 0 for forward parts.
+    """
+
+    part: np.ndarray
+    family: np.ndarray
+    description: np.ndarray
+    package: np.ndarray
+    is_zener: np.ndarray
+    is_a: np.ndarray
+    n: np.ndarray
+    rs_ohm: np.ndarray
+    eg_ev: np.ndarray
+    xti: np.ndarray
+    tnom_c: np.ndarray
+    vf_tol_v: np.ndarray
+    vz_v: np.ndarray
+    izt_a: np.ndarray
+    zzt_ohm: np.ndarray
+    izk_a: np.ndarray
+    zzk_ohm: np.ndarray
+    vz_tol_pct: np.ndarray
+    tc_v_per_k: np.ndarray
+    pd_w: np.ndarray
+    tj_max_c: np.ndarray
+    theta_ja_k_per_w: np.ndarray
+    if_max_a: np.ndarray
+    i_min_a: np.ndarray
+    zener_a_v: np.ndarray
+    zener_rz_ohm: np.ndarray
+
+    def __len__(self) -> int:
+        return int(self.part.shape[0])
+
+    @classmethod
+    def from_records(cls, records: Iterable[Mapping[str, object]]) -> PartSet:
+        """Build from mappings with the contract's column names; None or NaN = not given.
+
+        The records are assumed validated (the catalog validates on import).
+        """
+        rows = list(records)
+
+        def text(column: str) -> np.ndarray:
+            return np.array([str(row.get(column) or "") for row in rows], dtype=object)
+
+        def number(column: str) -> np.ndarray:
+            values = []
+            for row in rows:
+                value = row.get(column)
+                values.append(math.nan if value is None else float(value))
+                if values[-1] != values[-1]:
+                    values[-1] = math.nan
+            return np.array(values, dtype=float)
+
+        family = text("family")
+        is_zener = family == "zener"
+        raw = {column: number(column) for column in NUMERIC_COLUMNS}
+        filled: dict[str, np.ndarray] = {}
+        for column, values in raw.items():
+            default = CONTRACT_DEFAULTS.get(column)
+            filled[column] = np.where(np.isnan(values), default, values) if default is not None else values
+        for column, benign in _BENIGN_FORWARD.items():
+            filled[column] = np.where(is_zener | np.isnan(filled[column]), benign, filled[column])
+        for column, benign in _BENIGN_BREAKDOWN.items():
+            filled[column] = np.where(~is_zener | np.isnan(filled[column]), benign, filled[column])
+        filled["vz_tol_pct"] = np.where(is_zener, filled["vz_tol_pct"], 0.0)
+        filled["tc_v_per_k"] = np.where(is_zener, filled["tc_v_per_k"], 0.0)
+        filled["vf_tol_v"] = np.where(is_zener, 0.0, filled["vf_tol_v"])
+        filled["rs_ohm"] = np.where(is_zener, 0.0, filled["rs_ohm"])
+        theta = (filled["tj_max_c"] - 25.0) / filled["pd_w"]
+        filled["theta_ja_k_per_w"] = np.where(np.isnan(raw["theta_ja_k_per_w"]), theta, raw["theta_ja_k_per_w"])
+        filled["if_max_a"] = np.where(np.isnan(raw["if_max_a"]) | is_zener, np.inf, raw["if_max_a"])
+        default_i_min = np.where(is_zener, filled["izk_a"], 0.0)
+        filled["i_min_a"] = np.where(np.isnan(raw["i_min_a"]), default_i_min, raw["i_min_a"])
+        a_v, rz_ohm = zener_curve_coefficients(filled["zzt_ohm"], filled["izt_a"], filled["zzk_ohm"], filled["izk_a"])
+        return cls(
+            part=text("part"),
+            family=family,
+            description=text("description"),
+            package=text("package"),
+            is_zener=is_zener,
+            zener_a_v=np.where(is_zener, a_v, 0.0),
+            zener_rz_ohm=np.where(is_zener, rz_ohm, 0.0),
+            **filled,
+        )
+
+    def take(self, indices: Sequence[int] | np.ndarray) -> PartSet:
+        """A new PartSet holding the parts at ``indices``, in that order."""
+        index = np.asarray(indices, dtype=np.intp)
+        return PartSet(**{f.name: getattr(self, f.name)[index] for f in fields(self)})
+
+    def select(self, mask: np.ndarray) -> PartSet:
+        """A new PartSet holding the parts where ``mask`` is True."""
+        return self.take(np.flatnonzero(mask))
+
+    def index_of(self, names: Iterable[str]) -> np.ndarray:
+        """Positions of named parts; raises UnknownPartError naming the first unknown one."""
+        lookup = {name: i for i, name in enumerate(self.part)}
+        positions = []
+        for name in names:
+            if name not in lookup:
+                raise UnknownPartError(f"unknown part '{name}' (not in the library, or filtered out)")
+            positions.append(lookup[name])
+        return np.array(positions, dtype=np.intp)

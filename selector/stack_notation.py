@@ -1,0 +1,84 @@
+"""Stack notation (DESIGN §4): elements joined by ``+``, each ``[COUNT*]PART``.
+
+``2*QZ-1 + ZR-39`` is two QZ-1 and one ZR-39 in series. Spaces are ignored. Part ids may
+hold letters, digits and ``. _ - /``; they cannot hold ``+`` or ``*``.
+"""
+
+from __future__ import annotations
+
+import re
+from collections import Counter
+from collections.abc import Iterable
+
+from selector.errors import StackNotationError
+
+PART_ID_PATTERN = r"[A-Za-z0-9][A-Za-z0-9._/\-]{0,63}"
+_PART_ID = re.compile(rf"^{PART_ID_PATTERN}$")
+_TERM = re.compile(rf"^(?:(\d+)\*)?({PART_ID_PATTERN})$")
+
+#: More elements than this in one stack is certainly a typing slip.
+MAX_STACK_ELEMENTS = 64
+
+
+def is_valid_part_id(text: str) -> bool:
+    """Whether ``text`` can name a part in stack notation."""
+    return bool(_PART_ID.match(text))
+
+
+def parse_stack(text: str) -> list[tuple[int, str]]:
+    """Read a stack text into (count, part) terms, in the order written.
+
+    Parameters
+    ----------
+    text : str
+        For example ``"2*QZ-1 + ZR-39"``.
+
+    Returns
+    -------
+    list of (int, str)
+        Each term's count (≥ 1) and part id; a part written twice keeps both terms.
+
+    Raises
+    ------
+    StackNotationError
+        Naming the term that cannot be read.
+    """
+    compact = "".join(text.split())
+    if not compact:
+        raise StackNotationError("--stack: empty stack; write e.g. '2*D1 + Z5V1'")
+    terms = []
+    total = 0
+    for position, term in enumerate(compact.split("+"), start=1):
+        match = _TERM.match(term)
+        if not match:
+            shown = term or "(nothing)"
+            raise StackNotationError(
+                f"--stack: term {position} '{shown}' is not [COUNT*]PART, e.g. '2*D1'"
+            )
+        count = int(match.group(1) or 1)
+        if count < 1:
+            raise StackNotationError(f"--stack: term {position} '{term}' has a count below 1")
+        total += count
+        if total > MAX_STACK_ELEMENTS:
+            raise StackNotationError(f"--stack: more than {MAX_STACK_ELEMENTS} elements in one stack")
+        terms.append((count, match.group(2)))
+    return terms
+
+
+def expand_stack(terms: Iterable[tuple[int, str]]) -> list[str]:
+    """The stack's elements one by one, e.g. ``[(2, 'D1')]`` → ``['D1', 'D1']``."""
+    return [part for count, part in terms for _ in range(count)]
+
+
+def format_stack(elements: Iterable[str]) -> str:
+    """Canonical text of a stack: equal parts grouped, in first-seen order.
+
+    ``['Z5V1', 'D1', 'D1']`` → ``'Z5V1 + 2*D1'``.
+    """
+    counts = Counter()
+    order: list[str] = []
+    for part in elements:
+        if part not in counts:
+            order.append(part)
+        counts[part] += 1
+    return " + ".join(part if counts[part] == 1 else f"{counts[part]}*{part}" for part in order)
