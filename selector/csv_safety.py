@@ -1,0 +1,93 @@
+"""Spreadsheet-safe CSV cells: neutralising text a spreadsheet would run as a formula.
+
+Every CSV the tool writes (parts, approved lists, shortlists, history) passes its text
+cells through :func:`neutralise_cell`. A text cell that begins with ``=``, ``+``, ``-``,
+``@``, a tab or a carriage return gets a leading apostrophe, which spreadsheet programs
+show as text rather than evaluate. Numbers are never touched, so ``-0.0018`` stays a
+number. On import, :func:`restore_cell` removes exactly that apostrophe again, so an
+export → import round trip is lossless.
+
+References
+----------
+.. [1] OWASP, *CSV Injection* (community page), mitigation by prefixing a single quote
+       to cells that begin with the formula trigger characters.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+from collections.abc import Iterable, Mapping, Sequence
+from pathlib import Path
+from typing import TextIO
+
+FORMULA_TRIGGERS: tuple[str, ...] = ("=", "+", "-", "@", "\t", "\r")
+
+
+def neutralise_cell(value: object) -> object:
+    """Prefix an apostrophe to text a spreadsheet would evaluate; leave others alone."""
+    if isinstance(value, str) and value.startswith(FORMULA_TRIGGERS):
+        return "'" + value
+    return value
+
+
+def restore_cell(text: str) -> str:
+    """Undo :func:`neutralise_cell` on a text cell read back from a CSV."""
+    if text.startswith("'") and text[1:].startswith(FORMULA_TRIGGERS):
+        return text[1:]
+    return text
+
+
+def format_number(value: float) -> str:
+    """Shortest text that reads back to exactly the same float (``repr``); empty for NaN."""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return ""
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, int):
+        return str(value)
+    return repr(float(value))
+
+
+def _cell(value: object) -> str:
+    if value is None:
+        return ""
+    if isinstance(value, (bool, int, float)):
+        return format_number(value)
+    if hasattr(value, "item"):  # numpy scalar
+        return _cell(value.item())
+    return str(neutralise_cell(str(value)))
+
+
+def write_rows(
+    destination: str | Path | TextIO,
+    columns: Sequence[str],
+    rows: Iterable[Mapping[str, object]],
+) -> int:
+    """Write mappings as CSV with safe cells and exact floats; returns the row count.
+
+    Parameters
+    ----------
+    destination : path or text stream
+        A file path (written as UTF-8, replaced only once complete) or an open stream.
+    columns : sequence of str
+        Header, in order; keys missing from a row are written empty.
+    rows : iterable of mapping
+        The rows.
+    """
+    if isinstance(destination, (str, Path)):
+        path = Path(destination)
+        buffer = io.StringIO()
+        count = write_rows(buffer, columns, rows)
+        partial = path.with_name(path.name + ".partial")
+        partial.write_text(buffer.getvalue(), encoding="utf-8", newline="")
+        partial.replace(path)
+        return count
+    writer = csv.writer(destination, lineterminator="\n")
+    writer.writerow([neutralise_cell(column) for column in columns])
+    count = 0
+    for row in rows:
+        writer.writerow([_cell(row.get(column)) for column in columns])
+        count += 1
+    return count
