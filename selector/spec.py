@@ -1,12 +1,24 @@
 """The rail requirement: what the rail must hold, over which conditions.
 
 :class:`RailSpec` is the validated, SI-unit form every physics and search function takes.
-Loading from the spec TOML of DESIGN §4 and from command-line options lives here too.
+:func:`load_spec` builds it from the spec TOML of DESIGN §4 and from command-line
+overrides, and refuses anything malformed, contradictory or absurd with one
+:class:`~selector.errors.SpecError` line that names the file and key, or the option.
 """
 
 from __future__ import annotations
 
+import difflib
+import re
+import tomllib
+from collections.abc import Mapping
 from dataclasses import dataclass
+from pathlib import Path
+
+from selector import units
+from selector.errors import QuantityError, SpecError
+from selector.eseries import SERIES_STEPS, series_values
+from selector.partset import FAMILIES
 
 
 @dataclass(frozen=True)
@@ -30,7 +42,7 @@ class RailSpec:
     ambient_min_c, ambient_max_c : float [°C]
         Ambient temperature range.
     resistor_series : str
-        IEC 60063 series name, ``"E6"`` … ``"E192"``; default ``"E24"``.
+        IEC 60063 series name, ``"E3"`` … ``"E192"``; default ``"E24"``.
     resistor_tolerance : float [1]
         Fractional tolerance, 0.01 for 1 %.
     resistor_rating_w : float [W]
@@ -75,3 +87,585 @@ class RailSpec:
     resistor_fixed_ohm: float | None = None
     resistor_min_ohm: float = 1.0
     resistor_max_ohm: float = 10e6
+
+
+#: Every spec key as ``"section.key"`` → the command-line option that overrides it.
+OPTION_FOR_KEY: dict[str, str] = {
+    "rail.target": "--target",
+    "rail.tolerance": "--tolerance",
+    "supply.min": "--supply-min",
+    "supply.max": "--supply-max",
+    "supply.nominal": "--supply-nominal",
+    "load.min": "--load-min",
+    "load.max": "--load-max",
+    "load.kind": "--load-kind",
+    "ambient.min": "--ambient-min",
+    "ambient.max": "--ambient-max",
+    "resistor.series": "--series",
+    "resistor.tolerance": "--resistor-tolerance",
+    "resistor.rating": "--resistor-rating",
+    "resistor.fixed": "--resistor",
+    "resistor.min": "--resistor-min",
+    "resistor.max": "--resistor-max",
+    "search.max_parts": "--max-parts",
+    "search.families": "--families",
+    "search.list": "--list",
+    "search.statuses": "--statuses",
+    "search.min_current": "--min-current",
+    "search.min_margin": "--min-margin",
+}
+
+#: Keys without a default: the file or an option must give each.
+REQUIRED_KEYS: tuple[str, ...] = (
+    "rail.target",
+    "rail.tolerance",
+    "supply.min",
+    "supply.max",
+    "load.min",
+    "load.max",
+    "ambient.min",
+    "ambient.max",
+)
+
+#: Every status an approved-parts list may give a part.
+LIST_STATUSES: tuple[str, ...] = ("approved", "conditional", "evaluating", "no-new-design", "banned")
+#: Statuses a design may never use, whatever the spec asks.
+UNUSABLE_STATUSES: tuple[str, ...] = ("no-new-design", "banned")
+
+LOAD_KINDS: tuple[str, ...] = ("current", "resistance")
+MAX_SPEC_BYTES = 1_000_000
+MAX_PARTS_LIMIT = 12
+#: Ambient range the tool accepts [°C]: the usual military/automotive component span,
+#: common practice (no source).
+AMBIENT_LIMITS_C = (-55.0, 150.0)
+#: The resistor window of the physics contract (DESIGN §3) [Ω].
+RESISTOR_LIMITS_OHM = (1.0, 10e6)
+#: Resistor tolerance must be below this fraction.
+RESISTOR_TOLERANCE_LIMIT = 0.5
+#: IEC 62368-1:2018, Table 4: ES1 limit for DC voltage [V].
+ES1_DC_LIMIT_V = 60.0
+
+_SECTIONS: dict[str, tuple[str, ...]] = {}
+for _dotted in OPTION_FOR_KEY:
+    _section, _key = _dotted.split(".")
+    _SECTIONS.setdefault(_section, ())
+    _SECTIONS[_section] += (_key,)
+
+
+@dataclass(frozen=True)
+class _Entry:
+    """One spec value as written, with where it came from for messages."""
+
+    raw: object
+    place: str  # prefix of an error about this value: "rail.toml: [supply] min"
+    label: str  # how another message refers to it: "[supply] min" or "--supply-min"
+
+
+def _file_entry(file_label: str, section: str, key: str, raw: object) -> _Entry:
+    return _Entry(raw, f"{file_label}: [{section}] {key}", f"[{section}] {key}")
+
+
+def _option_entry(dotted: str, raw: object) -> _Entry:
+    option = OPTION_FOR_KEY[dotted]
+    return _Entry(raw, option, option)
+
+
+def _fail(entry: _Entry, message: str) -> SpecError:
+    return SpecError(f"{entry.place}: {message}")
+
+
+def _read_toml(path: str | Path) -> tuple[str, dict]:
+    """Read a spec file as a TOML table, refusing oversized, binary or malformed files."""
+    label = str(path)
+    try:
+        with open(path, "rb") as handle:
+            data = handle.read(MAX_SPEC_BYTES + 1)
+    except FileNotFoundError:
+        raise SpecError(f"{label}: no such file") from None
+    except IsADirectoryError:
+        raise SpecError(f"{label}: is a directory, not a spec file") from None
+    except PermissionError:
+        raise SpecError(f"{label}: permission denied") from None
+    except OSError as error:
+        raise SpecError(f"{label}: cannot read ({error.strerror or error})") from None
+    if len(data) > MAX_SPEC_BYTES:
+        raise SpecError(f"{label}: larger than 1 MB; a spec file is a few lines of TOML")
+    if b"\0" in data:
+        line = data[: data.index(b"\0")].count(b"\n") + 1
+        raise SpecError(f"{label}: line {line}: contains a NUL byte; a spec file is text")
+    try:
+        # utf-8-sig: a byte-order mark from a Windows editor is harmless.
+        text = data.decode("utf-8-sig")
+    except UnicodeDecodeError as error:
+        line = data[: error.start].count(b"\n") + 1
+        raise SpecError(f"{label}: line {line}: not UTF-8 text") from None
+    try:
+        return label, tomllib.loads(text)
+    except tomllib.TOMLDecodeError as error:
+        raise SpecError(f"{label}: invalid TOML: {error}") from None
+    except RecursionError:
+        raise SpecError(f"{label}: invalid TOML: values nested too deeply") from None
+
+
+def _unknown(name: str, known: tuple[str, ...] | list[str]) -> str:
+    guess = difflib.get_close_matches(name, known, n=1)
+    hint = f" (did you mean '{guess[0]}'?)" if guess else ""
+    return f"'{units.shown(name)}'{hint}; known: {', '.join(known)}"
+
+
+def _file_entries(label: str, table: dict) -> dict[str, _Entry]:
+    entries: dict[str, _Entry] = {}
+    sections = tuple(_SECTIONS)
+    for section, body in table.items():
+        if section not in _SECTIONS:
+            raise SpecError(f"{label}: unknown section {_unknown(section, sections)}")
+        if not isinstance(body, dict):
+            raise SpecError(f"{label}: '{section}' must be a [{section}] table of keys")
+        for key, raw in body.items():
+            if key not in _SECTIONS[section]:
+                raise SpecError(
+                    f"{label}: [{section}]: unknown key {_unknown(key, _SECTIONS[section])}"
+                )
+            entries[f"{section}.{key}"] = _file_entry(label, section, key, raw)
+    return entries
+
+
+def _option_entries(overrides: Mapping[str, object]) -> dict[str, _Entry]:
+    entries: dict[str, _Entry] = {}
+    for dotted, raw in overrides.items():
+        if dotted not in OPTION_FOR_KEY:
+            raise SpecError(f"unknown spec override {_unknown(dotted, list(OPTION_FOR_KEY))}")
+        if raw is not None:
+            entries[dotted] = _option_entry(dotted, raw)
+    return entries
+
+
+def _missing_message(file_label: str | None, missing: list[str]) -> str:
+    options = ", ".join(OPTION_FOR_KEY[d] for d in missing)
+    if file_label is None:
+        return f"missing {options} (or give them in a --spec FILE)"
+    keys = ", ".join("[{}] {}".format(*d.split(".")) for d in missing)
+    return f"{file_label}: missing {keys} (add to the file, or give {options})"
+
+
+# --- reading single values -------------------------------------------------------------
+
+
+def _check_scalar(entry: _Entry) -> None:
+    if isinstance(entry.raw, bool) or not isinstance(entry.raw, (str, int, float)):
+        kind = "true/false" if isinstance(entry.raw, bool) else type(entry.raw).__name__
+        kind = {"list": "a list", "dict": "a table"}.get(kind, kind)
+        raise _fail(entry, f"expected a number or a quantity text, got {kind}")
+
+
+def _split(entry: _Entry) -> tuple[float, units.Kind | None]:
+    """Value and written kind of an entry; a bare TOML number has no written kind."""
+    _check_scalar(entry)
+    try:
+        if isinstance(entry.raw, str):
+            return units.split_quantity(entry.raw)
+        return units.parse_quantity(entry.raw, units.DIMENSIONLESS), None
+    except QuantityError as error:
+        raise _fail(entry, str(error)) from None
+
+
+def _quantity(entry: _Entry, kind: units.Kind) -> float:
+    _check_scalar(entry)
+    try:
+        return units.parse_quantity(entry.raw, kind)
+    except QuantityError as error:
+        raise _fail(entry, str(error)) from None
+
+
+def _fraction(entry: _Entry, what: str) -> float:
+    """A fraction written as ``"20 %"`` or as a bare number (0.2)."""
+    value, kind = _split(entry)
+    if kind is units.PERCENT:
+        return value / 100
+    if kind is not None:
+        raise _fail(entry, f"'{_text(entry)}' is {kind.article} {kind.name}; {what} is expected")
+    return value
+
+
+def _text(entry: _Entry) -> str:
+    return units.shown(str(entry.raw).strip())
+
+
+def _word_list(entry: _Entry, known: tuple[str, ...], what: str) -> tuple[str, ...]:
+    raw = entry.raw
+    if isinstance(raw, str):
+        items = raw.split(",")
+    elif isinstance(raw, list) and all(isinstance(item, str) for item in raw):
+        items = raw
+    else:
+        raise _fail(entry, f"expected a list of {what} names or a comma-separated text")
+    words: list[str] = []
+    for item in items:
+        word = item.strip().lower()
+        if word == "":
+            continue
+        if word not in known:
+            raise _fail(entry, f"unknown {what} {_unknown(word, known)}")
+        if word not in words:
+            words.append(word)
+    if not words:
+        raise _fail(entry, f"no {what} given; leave the key out to allow every {what}")
+    return tuple(words)
+
+
+# --- cross checks ----------------------------------------------------------------------
+
+
+def _blame(first: _Entry, second: _Entry) -> tuple[_Entry, _Entry]:
+    """Which of two clashing values to name first: the one typed on the command line."""
+    if first.place.startswith("--") or not second.place.startswith("--"):
+        return first, second
+    return second, first
+
+
+def _check_order(low: _Entry, low_value: float, high: _Entry, high_value: float, show) -> None:
+    if low_value > high_value:
+        if high.place.startswith("--") and not low.place.startswith("--"):
+            raise _fail(high, f"{show(high_value)} is below {low.label} ({show(low_value)})")
+        raise _fail(low, f"{show(low_value)} is above {high.label} ({show(high_value)})")
+
+
+def _volts(value: float) -> str:
+    return units.format_quantity(value, "V")
+
+
+def _amps(value: float) -> str:
+    return units.format_quantity(value, "A")
+
+
+def _ohms(value: float) -> str:
+    return units.format_quantity(value, "\u03a9")
+
+
+def _celsius(value: float) -> str:
+    return f"{value:g} \u00b0C"
+
+
+# --- sections --------------------------------------------------------------------------
+
+
+def _rail(entries: dict[str, _Entry]) -> dict:
+    target_entry = entries["rail.target"]
+    target = _quantity(target_entry, units.VOLTAGE)
+    if target <= 0:
+        raise _fail(target_entry, f"{_volts(target)} must be above 0 V")
+    tolerance_entry = entries["rail.tolerance"]
+    value, kind = _split(tolerance_entry)
+    if kind is units.PERCENT:
+        tolerance = target * value / 100
+    elif kind is None or kind is units.VOLTAGE:
+        tolerance = value
+    else:
+        raise _fail(
+            tolerance_entry,
+            f"'{_text(tolerance_entry)}' is {kind.article} {kind.name}; "
+            "a voltage or a percentage is expected",
+        )
+    if tolerance <= 0:
+        raise _fail(tolerance_entry, "must be above 0 (e.g. '3 %' or '0.1 V')")
+    if tolerance >= target:
+        raise _fail(
+            tolerance_entry,
+            f"{_volts(tolerance)} is not below {target_entry.label} ({_volts(target)})",
+        )
+    return {"target_v": target, "tolerance_v": tolerance}
+
+
+def _supply(entries: dict[str, _Entry], target_v: float) -> dict:
+    low_entry, high_entry = entries["supply.min"], entries["supply.max"]
+    low = _quantity(low_entry, units.VOLTAGE)
+    high = _quantity(high_entry, units.VOLTAGE)
+    for entry, value in ((low_entry, low), (high_entry, high)):
+        if value <= 0:
+            raise _fail(entry, f"{_volts(value)} must be above 0 V")
+    _check_order(low_entry, low, high_entry, high, _volts)
+    nominal = (low + high) / 2
+    if "supply.nominal" in entries:
+        nominal_entry = entries["supply.nominal"]
+        nominal = _quantity(nominal_entry, units.VOLTAGE)
+        if not low <= nominal <= high:
+            raise _fail(
+                nominal_entry,
+                f"{_volts(nominal)} is outside the supply range {_volts(low)} … {_volts(high)}",
+            )
+    if target_v >= low:
+        target_entry = entries["rail.target"]
+        first, second = _blame(target_entry, low_entry)
+        raise _fail(
+            first,
+            f"the target {_volts(target_v)} is not below the least supply {_volts(low)} "
+            f"({second.label}): a series resistor can only drop voltage",
+        )
+    return {"supply_min_v": low, "supply_max_v": high, "supply_nominal_v": nominal}
+
+
+def _written_load_kind(entry: _Entry) -> tuple[float, str | None]:
+    value, kind = _split(entry)
+    if kind is None:
+        return value, None
+    if kind is units.CURRENT:
+        return value, "current"
+    if kind is units.RESISTANCE:
+        return value, "resistance"
+    raise _fail(
+        entry,
+        f"'{_text(entry)}' is {kind.article} {kind.name}; a current or a resistance is expected",
+    )
+
+
+def _load(entries: dict[str, _Entry]) -> dict:
+    low_entry, high_entry = entries["load.min"], entries["load.max"]
+    low, low_kind = _written_load_kind(low_entry)
+    high, high_kind = _written_load_kind(high_entry)
+    kind_entry = entries.get("load.kind")
+    if kind_entry is not None:
+        if not isinstance(kind_entry.raw, str) or kind_entry.raw.strip().lower() not in LOAD_KINDS:
+            raise _fail(kind_entry, f"'{_text(kind_entry)}' must be 'current' or 'resistance'")
+        kind = kind_entry.raw.strip().lower()
+        for entry, written in ((low_entry, low_kind), (high_entry, high_kind)):
+            if written not in (None, kind):
+                first, second = _blame(entry, kind_entry)
+                raise _fail(
+                    first,
+                    f"{entry.label} '{_text(entry)}' is a {written} but {kind_entry.label} "
+                    f"says {kind}",
+                )
+    else:
+        if low_kind and high_kind and low_kind != high_kind:
+            first, second = _blame(high_entry, low_entry)
+            written = {id(low_entry): low_kind, id(high_entry): high_kind}
+            raise _fail(
+                first,
+                f"'{_text(first)}' is a {written[id(first)]} but {second.label} is a "
+                f"{written[id(second)]}; write both in amperes or both in ohms",
+            )
+        # A bare number is amperes unless the other end says ohms.
+        kind = low_kind or high_kind or "current"
+    if kind == "current":
+        for entry, value in ((low_entry, low), (high_entry, high)):
+            if value < 0:
+                raise _fail(entry, f"{_amps(value)} must not be negative")
+        _check_order(low_entry, low, high_entry, high, _amps)
+    else:
+        for entry, value in ((low_entry, low), (high_entry, high)):
+            if value <= 0:
+                raise _fail(entry, f"a load resistance of {_ohms(value)} must be above 0 \u03a9")
+        _check_order(low_entry, low, high_entry, high, _ohms)
+    return {"load_kind": kind, "load_min": low, "load_max": high}
+
+
+_KELVIN = re.compile(r"^[+-]?[\d.eE+-]+\s*K$")
+
+
+def _temperature(entry: _Entry) -> float:
+    if isinstance(entry.raw, str) and _KELVIN.match(entry.raw.strip()):
+        # "K" would otherwise read as the kilo prefix.
+        raise _fail(entry, f"'{_text(entry)}': write the ambient in \u00b0C, not kelvin")
+    value = _quantity(entry, units.TEMPERATURE)
+    low, high = AMBIENT_LIMITS_C
+    if not low <= value <= high:
+        raise _fail(entry, f"{_celsius(value)} is outside {_celsius(low)} … {_celsius(high)}")
+    return value
+
+
+def _ambient(entries: dict[str, _Entry]) -> dict:
+    low_entry, high_entry = entries["ambient.min"], entries["ambient.max"]
+    low, high = _temperature(low_entry), _temperature(high_entry)
+    _check_order(low_entry, low, high_entry, high, _celsius)
+    return {"ambient_min_c": low, "ambient_max_c": high}
+
+
+def _resistance_in_window(entry: _Entry) -> float:
+    value = _quantity(entry, units.RESISTANCE)
+    low, high = RESISTOR_LIMITS_OHM
+    if value <= 0:
+        raise _fail(entry, f"{_ohms(value)} must be above 0 \u03a9")
+    if not low <= value <= high:
+        raise _fail(entry, f"{_ohms(value)} is outside {_ohms(low)} … {_ohms(high)}")
+    return value
+
+
+def _resistor(entries: dict[str, _Entry]) -> dict:
+    fields: dict = {}
+    series_entry = entries.get("resistor.series")
+    series = "E24"
+    if series_entry is not None:
+        if not isinstance(series_entry.raw, str):
+            raise _fail(series_entry, "expected a series name such as 'E24'")
+        series = series_entry.raw.strip().upper()
+        if series not in SERIES_STEPS:
+            raise _fail(series_entry, f"unknown series {_unknown(series, list(SERIES_STEPS))}")
+    fields["resistor_series"] = series
+
+    if "resistor.tolerance" in entries:
+        entry = entries["resistor.tolerance"]
+        tolerance = _fraction(entry, "a percentage")
+        if not 0 < tolerance < RESISTOR_TOLERANCE_LIMIT:
+            raise _fail(entry, f"{tolerance * 100:g} % must be above 0 % and below 50 %")
+        fields["resistor_tolerance"] = tolerance
+
+    if "resistor.rating" in entries:
+        entry = entries["resistor.rating"]
+        rating = _quantity(entry, units.POWER)
+        if rating <= 0:
+            raise _fail(entry, f"{units.format_quantity(rating, 'W')} must be above 0 W")
+        fields["resistor_rating_w"] = rating
+
+    low_entry, high_entry = entries.get("resistor.min"), entries.get("resistor.max")
+    low, high = RESISTOR_LIMITS_OHM
+    if low_entry is not None:
+        low = fields["resistor_min_ohm"] = _resistance_in_window(low_entry)
+    if high_entry is not None:
+        high = fields["resistor_max_ohm"] = _resistance_in_window(high_entry)
+    if low_entry is not None and high_entry is not None:
+        _check_order(low_entry, low, high_entry, high, _ohms)
+
+    fixed_entry = entries.get("resistor.fixed")
+    if fixed_entry is not None:
+        fixed = fields["resistor_fixed_ohm"] = _resistance_in_window(fixed_entry)
+        for bound_entry, inside in ((low_entry, fixed >= low), (high_entry, fixed <= high)):
+            if bound_entry is not None and not inside:
+                raise _fail(
+                    fixed_entry,
+                    f"{_ohms(fixed)} is outside the range {_ohms(low)} … {_ohms(high)} "
+                    f"({bound_entry.label})",
+                )
+    elif series_values(series, low, high).size == 0:
+        blame = high_entry or low_entry or series_entry
+        raise _fail(blame, f"no {series} value lies in {_ohms(low)} … {_ohms(high)}")
+    return fields
+
+
+def _max_parts(entry: _Entry) -> int:
+    raw = entry.raw
+    if isinstance(raw, str) and re.fullmatch(r"\s*\+?\d{1,6}\s*", raw):
+        count = int(raw)
+    elif isinstance(raw, int) and not isinstance(raw, bool):
+        count = raw
+    else:
+        raise _fail(entry, f"'{_text(entry)}' is not a whole number of parts")
+    if not 1 <= count <= MAX_PARTS_LIMIT:
+        raise _fail(entry, f"{count} must be from 1 to {MAX_PARTS_LIMIT}")
+    return count
+
+
+def _list_name(entry: _Entry) -> str:
+    if not isinstance(entry.raw, str) or entry.raw.strip() == "":
+        raise _fail(entry, "expected the name of an approved-parts list")
+    name = entry.raw.strip()
+    if len(name) > 100 or not name.isprintable():
+        raise _fail(entry, f"'{units.shown(name[:40])}' is not a usable list name")
+    return name
+
+
+def _search(entries: dict[str, _Entry]) -> dict:
+    fields: dict = {}
+    if "search.max_parts" in entries:
+        fields["max_parts"] = _max_parts(entries["search.max_parts"])
+    if "search.families" in entries:
+        fields["families"] = _word_list(entries["search.families"], FAMILIES, "family")
+    if "search.list" in entries:
+        fields["list_name"] = _list_name(entries["search.list"])
+    if "search.statuses" in entries:
+        entry = entries["search.statuses"]
+        statuses = _word_list(entry, LIST_STATUSES, "status")
+        refused = [s for s in statuses if s in UNUSABLE_STATUSES]
+        if refused:
+            usable = ", ".join(s for s in LIST_STATUSES if s not in UNUSABLE_STATUSES)
+            raise _fail(
+                entry, f"'{refused[0]}' parts may never be designed in; usable: {usable}"
+            )
+        if "list_name" not in fields:
+            raise _fail(
+                entry,
+                f"statuses apply to an approved-parts list; give {OPTION_FOR_KEY['search.list']}"
+                " or [search] list",
+            )
+        fields["statuses"] = statuses
+    if "search.min_current" in entries:
+        entry = entries["search.min_current"]
+        current = _quantity(entry, units.CURRENT)
+        if current < 0:
+            raise _fail(entry, f"{_amps(current)} must not be negative")
+        fields["min_current_a"] = current
+    if "search.min_margin" in entries:
+        entry = entries["search.min_margin"]
+        margin = _fraction(entry, "a percentage or a fraction")
+        if not 0 <= margin < 1:
+            raise _fail(entry, f"{margin * 100:g} % must be from 0 % up to below 100 %")
+        fields["min_margin"] = margin
+    return fields
+
+
+def load_spec(
+    path: str | Path | None = None, overrides: Mapping[str, object] | None = None
+) -> RailSpec:
+    """Read and validate a rail requirement from a spec TOML file and/or overrides.
+
+    Parameters
+    ----------
+    path : str or Path or None
+        Spec TOML file (DESIGN §4); None when every required key comes from overrides.
+    overrides : mapping of str to object, optional
+        ``"section.key"`` (e.g. ``"supply.min"``) → the text or number the user typed;
+        each replaces the file's value. ``None`` values are ignored.
+
+    Returns
+    -------
+    RailSpec
+        All quantities in SI units; a percent rail tolerance is converted to volts as
+        ``target · pct / 100``.
+
+    Raises
+    ------
+    SpecError
+        One line naming the file and key (``rail.toml: [supply] min: …``) or the option
+        (``--supply-min: …``).
+    """
+    entries: dict[str, _Entry] = {}
+    file_label = None
+    if path is not None:
+        file_label, table = _read_toml(path)
+        entries.update(_file_entries(file_label, table))
+    entries.update(_option_entries(overrides or {}))
+    missing = [dotted for dotted in REQUIRED_KEYS if dotted not in entries]
+    if missing:
+        raise SpecError(_missing_message(file_label, missing))
+    fields = _rail(entries)
+    fields.update(_supply(entries, fields["target_v"]))
+    fields.update(_load(entries))
+    fields.update(_ambient(entries))
+    fields.update(_resistor(entries))
+    fields.update(_search(entries))
+    return RailSpec(**fields)
+
+
+def spec_cautions(spec: RailSpec) -> list[str]:
+    """Safety cautions a spec calls for, one line each (empty when none).
+
+    A supply above 60 V DC exceeds the ES1 limit of IEC 62368-1:2018, Table 4.
+    """
+    cautions = []
+    if spec.supply_max_v > ES1_DC_LIMIT_V:
+        cautions.append(
+            f"the supply reaches {_volts(spec.supply_max_v)}, above the 60 V DC ES1 limit of "
+            "IEC 62368-1: follow local codes and licensed practice for hazardous voltages"
+        )
+    return cautions
+
+
+__all__ = [
+    "LIST_STATUSES",
+    "OPTION_FOR_KEY",
+    "REQUIRED_KEYS",
+    "RailSpec",
+    "UNUSABLE_STATUSES",
+    "load_spec",
+    "spec_cautions",
+]
+

@@ -18,7 +18,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass
-from decimal import Decimal
+from decimal import Decimal, DecimalException
 
 from selector.errors import QuantityError
 
@@ -90,6 +90,11 @@ def _unit_table() -> list[tuple[str, Kind]]:
 _UNITS = _unit_table()
 
 
+def shown(text: str) -> str:
+    """A user's text made safe for a one-line message: control characters escaped."""
+    return "".join(c if c.isprintable() else repr(c)[1:-1] for c in text)
+
+
 def _describe(kind: Kind) -> str:
     return f"{kind.article} {kind.name}"
 
@@ -137,10 +142,10 @@ def split_quantity(text: str) -> tuple[float, Kind | None]:
     if cleaned == "":
         raise QuantityError("empty value")
     if len(cleaned) > 64:
-        raise QuantityError(f"'{cleaned[:20]}…' is too long to be a quantity")
+        raise QuantityError(f"'{shown(cleaned[:20])}…' is too long to be a quantity")
     compact = cleaned.replace(" ", "")
     if compact.lower().lstrip("+-") in _SPECIAL_WORDS:
-        raise QuantityError(f"'{cleaned}' is not a finite number")
+        raise QuantityError(f"'{shown(cleaned)}' is not a finite number")
 
     rkm = _RKM.match(compact)
     if rkm and rkm.group(2) + rkm.group(4):
@@ -151,11 +156,11 @@ def split_quantity(text: str) -> tuple[float, Kind | None]:
 
     number = _NUMBER.match(compact)
     if not number:
-        raise QuantityError(f"'{cleaned}' is not a number")
+        raise QuantityError(f"'{shown(cleaned)}' is not a number")
     suffix = compact[number.end():]
     split = _split_suffix(suffix)
     if split is None:
-        raise QuantityError(f"'{cleaned}' has an unknown unit '{suffix}'")
+        raise QuantityError(f"'{shown(cleaned)}' has an unknown unit '{shown(suffix)}'")
     exponent, kind = split
     return _finite(_scaled(number.group(0), exponent), cleaned), kind
 
@@ -164,13 +169,14 @@ def _scaled(number_text: str, exponent: int) -> float:
     # Decimal scaling keeps "2.6f" exactly 2.6e-15 rather than 2.6 * 1e-15.
     try:
         return float(Decimal(number_text).scaleb(exponent))
-    except OverflowError:
+    except (OverflowError, DecimalException):
+        # An exponent past the decimal context (e.g. "1e9999999") is out of range too.
         return math.inf
 
 
 def _finite(value: float, text: str) -> float:
     if not math.isfinite(value):
-        raise QuantityError(f"'{text}' is out of range")
+        raise QuantityError(f"'{shown(text)}' is out of range")
     return value
 
 
@@ -196,13 +202,22 @@ def parse_quantity(text: str | float | int, expected: Kind) -> float:
     """
     if isinstance(text, bool):
         raise QuantityError(f"{text!r} is not a number")
-    if isinstance(text, (int, float)):
-        return _finite(float(text), repr(text))
+    if isinstance(text, int):
+        try:
+            return float(text)
+        except OverflowError:
+            raise QuantityError(f"an integer of {text.bit_length()} bits is out of range") from None
+    if isinstance(text, float):
+        if math.isnan(text) or math.isinf(text):
+            raise QuantityError(f"{text!r} is not a finite number")
+        return text
     value, kind = split_quantity(text)
     if kind is not None and kind is not expected:
         # An "R" suffix reads as ohms but "2R2" style is also accepted for plain numbers
         # only when the column is a resistance; anything else is the wrong kind.
-        raise QuantityError(f"'{text.strip()}' is {_describe(kind)}; {_describe(expected)} is expected")
+        raise QuantityError(
+            f"'{shown(text.strip())}' is {_describe(kind)}; {_describe(expected)} is expected"
+        )
     return value
 
 

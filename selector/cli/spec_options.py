@@ -1,0 +1,136 @@
+"""Command-line options for the rail requirement, shared by ``check`` and ``seek``.
+
+:func:`spec_options` adds ``--spec FILE`` and one text option per spec key (the names of
+:data:`selector.spec.OPTION_FOR_KEY`), builds the :class:`~selector.spec.RailSpec` with
+:func:`selector.spec.load_spec` and hands it to the command as ``spec``.
+:func:`spec_to_dict` and :func:`describe_spec` echo a spec for summaries and reports.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import functools
+from collections.abc import Callable
+
+import click
+
+from selector.spec import OPTION_FOR_KEY, RailSpec, load_spec, spec_cautions
+from selector.units import format_quantity
+
+#: Help text per spec key: unit and an example value.
+_HELP: dict[str, tuple[str, str]] = {
+    "rail.target": ("VOLTS", "Wanted rail voltage [V], e.g. '5 V'."),
+    "rail.tolerance": ("PCT|VOLTS", "Allowed worst-case deviation: '3 %' of the target or a voltage, e.g. '0.1 V'."),
+    "supply.min": ("VOLTS", "Least supply voltage [V], e.g. '11 V'."),
+    "supply.max": ("VOLTS", "Greatest supply voltage [V], e.g. '13 V'."),
+    "supply.nominal": ("VOLTS", "Nominal supply [V] for the nominal point (default: the midpoint), e.g. '12 V'."),
+    "load.min": ("AMPS|OHMS", "Least load: a current [A] such as '0' or '1 mA', or a resistance such as '10 kohm'."),
+    "load.max": ("AMPS|OHMS", "Greatest load: a current [A] such as '10 mA', or a resistance such as '4.7 kΩ'."),
+    "load.kind": ("KIND", "'current' or 'resistance': how bare load numbers read (default: current, or ohms when a load value says so)."),
+    "ambient.min": ("DEGC", "Least ambient temperature [°C], -55 … 150, e.g. '0' or '-40 °C'."),
+    "ambient.max": ("DEGC", "Greatest ambient temperature [°C], -55 … 150, e.g. '50'."),
+    "resistor.series": ("SERIES", "IEC 60063 series for the series resistor, E3 … E192 (default E24)."),
+    "resistor.tolerance": ("PCT", "Series-resistor tolerance, e.g. '1 %' or 0.01 (default 1 %)."),
+    "resistor.rating": ("WATTS", "Series-resistor power rating [W], e.g. '250 mW' (default 0.25 W)."),
+    "resistor.fixed": ("OHMS", "Use this series resistor [Ω] instead of choosing one, 1 Ω … 10 MΩ, e.g. '4k7' or '4.7 kohm'."),
+    "resistor.min": ("OHMS", "Least resistor the choice may use [Ω] (default 1 Ω), e.g. '100'."),
+    "resistor.max": ("OHMS", "Greatest resistor the choice may use [Ω] (default 10 MΩ), e.g. '100 kohm'."),
+    "search.max_parts": ("N", "Most elements in one stack, 1 … 12 (default 3)."),
+    "search.families": ("LIST", "Families the search may use, comma-separated, e.g. 'zener,signal' (default: all)."),
+    "search.list": ("NAME", "Approved-parts list the search must respect (default: the whole library)."),
+    "search.statuses": ("LIST", "Usable statuses on that list, e.g. 'approved,conditional' (the default)."),
+    "search.min_current": ("AMPS", "Least stack current at every corner [A], e.g. '1 mA' (default 0)."),
+    "search.min_margin": ("PCT", "Least dissipation margin at every corner, e.g. '20 %' or 0.2 (default 0)."),
+}
+
+SPEC_OPTIONS_EPILOG = (
+    "Every spec key has an option that overrides the --spec file, so a quick search needs "
+    "no file, e.g.: --target 5V --tolerance 3% --supply-min 11V --supply-max 13V "
+    "--load-min 0 --load-max 10mA --ambient-min 0 --ambient-max 50"
+)
+
+
+def _parameter_name(dotted: str) -> str:
+    # Prefixed so that spec options never collide with a command's own parameters.
+    return "spec_" + dotted.replace(".", "_")
+
+
+def spec_options(command: Callable) -> Callable:
+    """Decorate a click command callback with ``--spec`` and every spec option.
+
+    The command receives the validated :class:`RailSpec` as the keyword argument
+    ``spec``; a bad value raises :class:`selector.errors.SpecError` naming the file and
+    key or the option, which the ``railwright`` group reports as one ``Error:`` line.
+    """
+
+    @functools.wraps(command)
+    def with_spec(*args, **kwargs):
+        spec_path = kwargs.pop("spec_path")
+        overrides = {dotted: kwargs.pop(_parameter_name(dotted)) for dotted in OPTION_FOR_KEY}
+        kwargs["spec"] = load_spec(spec_path, overrides)
+        return command(*args, **kwargs)
+
+    for dotted in reversed(OPTION_FOR_KEY):
+        metavar, help_text = _HELP[dotted]
+        with_spec = click.option(
+            OPTION_FOR_KEY[dotted],
+            _parameter_name(dotted),
+            metavar=metavar,
+            default=None,
+            help=help_text,
+        )(with_spec)
+    return click.option(
+        "--spec",
+        "spec_path",
+        metavar="FILE",
+        default=None,
+        help="Rail spec TOML ([rail], [supply], [load], [ambient], [resistor], [search]); "
+        "options below override its values. Example: --spec rail.toml",
+    )(with_spec)
+
+
+def spec_to_dict(spec: RailSpec) -> dict:
+    """A plain, JSON-able echo of a spec: field names of :class:`RailSpec`, SI units."""
+    return {
+        name: list(value) if isinstance(value, tuple) else value
+        for name, value in dataclasses.asdict(spec).items()
+    }
+
+
+def _percent(fraction: float) -> str:
+    return f"{fraction * 100:.4g} %"
+
+
+def describe_spec(spec: RailSpec) -> list[str]:
+    """Human lines describing a spec, in engineering notation, cautions last."""
+    volts = functools.partial(format_quantity, symbol="V")
+    ohms = functools.partial(format_quantity, symbol="\u03a9")
+    if spec.load_kind == "current":
+        load = f"{format_quantity(spec.load_min, 'A')} … {format_quantity(spec.load_max, 'A')}"
+    else:
+        load = f"{ohms(spec.load_min)} … {ohms(spec.load_max)} (resistive)"
+    if spec.resistor_fixed_ohm is not None:
+        resistor = f"fixed {ohms(spec.resistor_fixed_ohm)}"
+    else:
+        resistor = f"{spec.resistor_series} from {ohms(spec.resistor_min_ohm)} to {ohms(spec.resistor_max_ohm)}"
+    families = ", ".join(spec.families) if spec.families else "all families"
+    if spec.list_name is None:
+        parts_from = "the whole library"
+    else:
+        statuses = ", ".join(spec.statuses or ("approved", "conditional"))
+        parts_from = f"list '{spec.list_name}' ({statuses})"
+    lines = [
+        f"Rail: {volts(spec.target_v)} ± {volts(spec.tolerance_v)} "
+        f"({_percent(spec.tolerance_v / spec.target_v)})",
+        f"Supply: {volts(spec.supply_min_v)} … {volts(spec.supply_max_v)} "
+        f"(nominal {volts(spec.supply_nominal_v)})",
+        f"Load: {load}",
+        f"Ambient: {spec.ambient_min_c:g} °C … {spec.ambient_max_c:g} °C",
+        f"Series resistor: {resistor}, ±{_percent(spec.resistor_tolerance)}, "
+        f"{format_quantity(spec.resistor_rating_w, 'W')} rating",
+        f"Stacks: up to {spec.max_parts} parts of {families} from {parts_from}; "
+        f"least current {format_quantity(spec.min_current_a, 'A')}, "
+        f"least margin {_percent(spec.min_margin)}",
+    ]
+    lines.extend(f"Caution: {caution}" for caution in spec_cautions(spec))
+    return lines
