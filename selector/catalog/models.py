@@ -1,0 +1,113 @@
+"""SQLAlchemy 2.x typed ORM models of the parts library: parts and the import log.
+
+The database schema is made only by the Alembic migrations in ``migrations/``; these
+models describe the same schema for queries, and a test asserts the two never drift
+(Alembic's autogenerate comparison must find nothing).
+
+Every numeric column is an SI float (V, A, Ω, W, °C, V/K, K/W, eV, percent points);
+NULL means "not given", and the physics contract's defaults (DESIGN §3) are applied only
+when a :class:`selector.partset.PartSet` is built.
+"""
+
+from __future__ import annotations
+
+from datetime import UTC, datetime
+
+from sqlalchemy import CheckConstraint, DateTime, Float, Integer, MetaData, String, Text
+from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
+
+from selector.partset import FAMILIES, NUMERIC_COLUMNS
+
+#: Constraint names are fixed so that SQLite batch migrations can find them again.
+NAMING_CONVENTION = {
+    "ix": "ix_%(column_0_label)s",
+    "uq": "uq_%(table_name)s_%(column_0_name)s",
+    "ck": "ck_%(table_name)s_%(constraint_name)s",
+    "fk": "fk_%(table_name)s_%(column_0_name)s_%(referred_table_name)s",
+    "pk": "pk_%(table_name)s",
+}
+
+#: Longest part id (matches ``selector.stack_notation.PART_ID_PATTERN``).
+PART_ID_LENGTH = 64
+PACKAGE_LENGTH = 64
+DESCRIPTION_LENGTH = 500
+SOURCE_LENGTH = 500
+
+#: SQL text of the family CHECK constraint, shared with the initial migration.
+FAMILY_CHECK_SQL = "family IN (" + ", ".join(f"'{family}'" for family in FAMILIES) + ")"
+
+
+def utc_now() -> datetime:
+    """The current time, timezone-aware in UTC."""
+    return datetime.now(UTC)
+
+
+class Base(DeclarativeBase):
+    """Declarative base with the library's constraint naming convention."""
+
+    metadata = MetaData(naming_convention=NAMING_CONVENTION)
+
+
+class Part(Base):
+    """One parameter set: a forward element or a zener, by the shop's own part id."""
+
+    __tablename__ = "parts"
+    __table_args__ = (CheckConstraint(FAMILY_CHECK_SQL, name="family_known"),)
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    part: Mapped[str] = mapped_column(String(PART_ID_LENGTH), unique=True)
+    family: Mapped[str] = mapped_column(String(16))
+    description: Mapped[str] = mapped_column(String(DESCRIPTION_LENGTH), default="")
+    package: Mapped[str] = mapped_column(String(PACKAGE_LENGTH), default="")
+    is_a: Mapped[float | None] = mapped_column(Float)
+    n: Mapped[float | None] = mapped_column(Float)
+    rs_ohm: Mapped[float | None] = mapped_column(Float)
+    eg_ev: Mapped[float | None] = mapped_column(Float)
+    xti: Mapped[float | None] = mapped_column(Float)
+    tnom_c: Mapped[float | None] = mapped_column(Float)
+    vf_tol_v: Mapped[float | None] = mapped_column(Float)
+    vz_v: Mapped[float | None] = mapped_column(Float)
+    izt_a: Mapped[float | None] = mapped_column(Float)
+    zzt_ohm: Mapped[float | None] = mapped_column(Float)
+    izk_a: Mapped[float | None] = mapped_column(Float)
+    zzk_ohm: Mapped[float | None] = mapped_column(Float)
+    vz_tol_pct: Mapped[float | None] = mapped_column(Float)
+    tc_v_per_k: Mapped[float | None] = mapped_column(Float)
+    pd_w: Mapped[float | None] = mapped_column(Float)
+    tj_max_c: Mapped[float | None] = mapped_column(Float)
+    theta_ja_k_per_w: Mapped[float | None] = mapped_column(Float)
+    if_max_a: Mapped[float | None] = mapped_column(Float)
+    i_min_a: Mapped[float | None] = mapped_column(Float)
+    source: Mapped[str] = mapped_column(String(SOURCE_LENGTH), default="")
+    #: Model-card parameters the physics does not use, kept as ``NAME=value`` text.
+    model_extra: Mapped[str | None] = mapped_column(Text)
+    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True), default=utc_now)
+    updated_at: Mapped[datetime] = mapped_column(
+        DateTime(timezone=True), default=utc_now, onupdate=utc_now
+    )
+
+    def record(self) -> dict[str, object]:
+        """The part as a mapping of the parts-CSV columns plus ``source``."""
+        return {column: getattr(self, column) for column in RECORD_COLUMNS}
+
+
+class ImportLog(Base):
+    """One import into the library: when, who, which file, and what it did."""
+
+    __tablename__ = "import_log"
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    imported_at: Mapped[datetime] = mapped_column(DateTime(timezone=True), default=utc_now)
+    imported_by: Mapped[str] = mapped_column(String(128))
+    #: What was imported: ``parts csv``, ``model cards``, ``datasheet fit``, ``demo sets``.
+    kind: Mapped[str] = mapped_column(String(32))
+    file_name: Mapped[str] = mapped_column(String(1000))
+    file_sha256: Mapped[str] = mapped_column(String(64))
+    rows_added: Mapped[int] = mapped_column(Integer)
+    rows_changed: Mapped[int] = mapped_column(Integer)
+    rows_unchanged: Mapped[int] = mapped_column(Integer)
+
+
+#: Text columns of a part record, and every column a record carries.
+TEXT_COLUMNS: tuple[str, ...] = ("part", "family", "description", "package")
+RECORD_COLUMNS: tuple[str, ...] = TEXT_COLUMNS + NUMERIC_COLUMNS + ("source", "model_extra")

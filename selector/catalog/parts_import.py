@@ -1,0 +1,438 @@
+"""Reading and validating parts CSV files, and planning what an import would change.
+
+A parts CSV (DESIGN §4) has one part per row and the contract columns in any order;
+``source`` and ``model_extra`` are also read, anything else is warned about and ignored.
+Every numeric cell is a plain number in the column's unit or a quantity with prefix and
+unit, read by :mod:`selector.units`; an empty cell means "not given".
+
+Validation looks at every cell of every row and reports **all** problems, one per line,
+as ``FILE:LINE: column: message``, in a single :class:`~selector.errors.InputDataError`;
+nothing is written unless the whole file is valid.
+"""
+
+from __future__ import annotations
+
+import csv
+import hashlib
+import io
+import math
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from selector import units
+from selector.catalog.models import (
+    DESCRIPTION_LENGTH,
+    PACKAGE_LENGTH,
+    RECORD_COLUMNS,
+    SOURCE_LENGTH,
+)
+from selector.csv_safety import format_number, restore_cell
+from selector.errors import InputDataError
+from selector.partset import (
+    BREAKDOWN_FAMILIES,
+    FAMILIES,
+    NUMERIC_COLUMNS,
+    REQUIRED_BREAKDOWN,
+    REQUIRED_FORWARD,
+)
+from selector.stack_notation import is_valid_part_id
+
+#: A parts file larger than this is refused before it is read [bytes].
+MAX_FILE_BYTES = 64 * 1024 * 1024
+#: More rows than this in one file is refused.
+MAX_ROWS = 1_000_000
+
+
+@dataclass(frozen=True)
+class Rule:
+    """What one numeric column holds: its kind of quantity and its allowed range.
+
+    ``low``/``high`` are bounds in base SI units; ``low_open``/``high_open`` say whether
+    the bound itself is excluded.
+    """
+
+    kind: units.Kind
+    low: float
+    high: float
+    low_open: bool = False
+    high_open: bool = False
+
+    def problem(self, value: float) -> str | None:
+        """Why ``value`` is out of range, or None when it is fine."""
+        too_low = value <= self.low if self.low_open else value < self.low
+        too_high = value >= self.high if self.high_open else value > self.high
+        if not (too_low or too_high):
+            return None
+        shown = _shown(value, self.kind)
+        if too_low and self.low == 0:
+            return f"must be positive, not {shown}" if self.low_open else f"must not be negative, not {shown}"
+        low, high = _shown(self.low, self.kind), _shown(self.high, self.kind)
+        if too_low:
+            return f"must be {'above' if self.low_open else 'at least'} {low}, not {shown}"
+        return f"must be {'below' if self.high_open else 'at most'} {high}, not {shown}"
+
+
+def _shown(value: float, kind: units.Kind) -> str:
+    if kind.prefixable and kind.symbol:
+        return units.format_quantity(value, kind.symbol)
+    return f"{format_number(value)} {kind.symbol}".strip()
+
+
+#: Allowed ranges. Physical limits from the issue (currents positive, 1 ≤ n ≤ 4,
+#: tj_max above 25 °C); the outer bounds only refuse values no real part has.
+RULES: dict[str, Rule] = {
+    "is_a": Rule(units.CURRENT, 0.0, 1.0, low_open=True, high_open=True),
+    "n": Rule(units.DIMENSIONLESS, 1.0, 4.0),
+    "rs_ohm": Rule(units.RESISTANCE, 0.0, 1e4),
+    "eg_ev": Rule(units.ENERGY_EV, 0.0, 10.0, low_open=True),
+    "xti": Rule(units.DIMENSIONLESS, -50.0, 50.0),
+    "tnom_c": Rule(units.TEMPERATURE, -60.0, 200.0),
+    "vf_tol_v": Rule(units.VOLTAGE, 0.0, 1.0),
+    "vz_v": Rule(units.VOLTAGE, 0.0, 1000.0, low_open=True),
+    "izt_a": Rule(units.CURRENT, 0.0, 100.0, low_open=True),
+    "zzt_ohm": Rule(units.RESISTANCE, 0.0, 1e6, low_open=True),
+    "izk_a": Rule(units.CURRENT, 0.0, 100.0, low_open=True),
+    "zzk_ohm": Rule(units.RESISTANCE, 0.0, 1e8, low_open=True),
+    "vz_tol_pct": Rule(units.PERCENT, 0.0, 50.0),
+    "tc_v_per_k": Rule(units.VOLTAGE_TEMPCO, -1.0, 1.0),
+    "pd_w": Rule(units.POWER, 0.0, 1e4, low_open=True),
+    "tj_max_c": Rule(units.TEMPERATURE, 25.0, 400.0, low_open=True),
+    "theta_ja_k_per_w": Rule(units.THERMAL_RESISTANCE, 0.0, 1e5, low_open=True),
+    "if_max_a": Rule(units.CURRENT, 0.0, 1e4, low_open=True),
+    "i_min_a": Rule(units.CURRENT, 0.0, 100.0),
+}
+assert tuple(RULES) == NUMERIC_COLUMNS
+
+#: Longest accepted text of each free-text column [characters].
+TEXT_LIMITS: dict[str, int] = {
+    "description": DESCRIPTION_LENGTH,
+    "package": PACKAGE_LENGTH,
+    "source": SOURCE_LENGTH,
+    "model_extra": 4000,
+}
+
+#: Every column an import reads; others are warned about.
+KNOWN_COLUMNS: tuple[str, ...] = RECORD_COLUMNS
+
+
+@dataclass(frozen=True)
+class RawRow:
+    """One row as read, before validation: its line in the file and its cells.
+
+    Cells are text (from a CSV) or numbers in base SI units (from a model card).
+    """
+
+    line: int
+    cells: Mapping[str, object]
+
+
+@dataclass(frozen=True)
+class PartsFile:
+    """A validated parts file: its records, warnings and identity for the import log."""
+
+    label: str
+    sha256: str
+    records: list[dict[str, object]]
+    warnings: list[str] = field(default_factory=list)
+
+
+def file_digest(data: bytes) -> str:
+    """Hex SHA-256 of a file's bytes, for the import log."""
+    return hashlib.sha256(data).hexdigest()
+
+
+def read_input_bytes(path: str | Path) -> bytes:
+    """A file's bytes, refusing missing, unreadable or oversized files with one line."""
+    path = Path(path)
+    try:
+        size = path.stat().st_size
+        if path.is_dir():
+            raise InputDataError(f"{path}: is a folder, not a file")
+        if size > MAX_FILE_BYTES:
+            raise InputDataError(f"{path}: {size} bytes is too large (limit {MAX_FILE_BYTES})")
+        return path.read_bytes()
+    except FileNotFoundError:
+        raise InputDataError(f"{path}: no such file") from None
+    except OSError as error:
+        raise InputDataError(f"{path}: cannot read ({error.strerror or error})") from None
+
+
+def decode_text(data: bytes, label: str) -> str:
+    """UTF-8 text of a file (a leading byte-order mark is dropped)."""
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError as error:
+        raise InputDataError(
+            f"{label}: not UTF-8 text (byte {error.start}); save the file as UTF-8 CSV"
+        ) from None
+
+
+def read_csv_rows(text: str, label: str) -> tuple[list[str], list[RawRow], list[str]]:
+    """Split CSV text into its header and rows, with warnings for unknown columns.
+
+    A header with semicolons and no commas is read as semicolon-separated, as some
+    spreadsheet programs export it.
+
+    Returns
+    -------
+    columns : list of str
+        Normalised (stripped, lower-case) header names.
+    rows : list of RawRow
+        Non-blank rows with their line numbers.
+    warnings : list of str
+    """
+    first_line = text.split("\n", 1)[0]
+    delimiter = ";" if ";" in first_line and "," not in first_line else ","
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, strict=True)
+    errors: list[str] = []
+    try:
+        header = next(reader, None)
+        if header is None or not any(cell.strip() for cell in header):
+            raise InputDataError(f"{label}:1: no header row; the first row must name the columns")
+        columns = [cell.strip().lower() for cell in header]
+        warnings = []
+        for position, name in enumerate(columns):
+            if name in columns[:position]:
+                errors.append(f"{label}:1: {name}: column appears twice")
+            elif name and name not in KNOWN_COLUMNS:
+                warnings.append(f"{label}:1: {name}: not a parts column; ignored")
+        for required in ("part", "family"):
+            if required not in columns:
+                errors.append(f"{label}:1: {required}: column missing")
+        rows = []
+        for cells in reader:
+            if not any(cell.strip() for cell in cells):
+                continue
+            line = reader.line_num
+            if len(rows) >= MAX_ROWS:
+                raise InputDataError(f"{label}:{line}: more than {MAX_ROWS} rows")
+            if len(cells) > len(columns) and any(cell.strip() for cell in cells[len(columns):]):
+                errors.append(f"{label}:{line}: row has {len(cells)} cells, the header names {len(columns)}")
+                continue
+            rows.append(RawRow(line, {name: cell for name, cell in zip(columns, cells, strict=False) if name}))
+    except csv.Error as error:
+        raise InputDataError(f"{label}:{reader.line_num}: not readable as CSV ({error})") from None
+    if errors:
+        raise InputDataError("\n".join(errors))
+    return columns, rows, warnings
+
+
+def _text_problem(text: str) -> str | None:
+    if any(ord(character) < 32 for character in text):
+        return "holds a control character"
+    return None
+
+
+def validate_rows(rows: Sequence[RawRow], label: str) -> list[dict[str, object]]:
+    """Check every cell of every row; return the records, or raise with every problem.
+
+    Parameters
+    ----------
+    rows : sequence of RawRow
+        Cells by column name; a missing column is the same as an empty cell.
+    label : str
+        The file name shown in messages.
+
+    Returns
+    -------
+    list of dict
+        One record per row with every column of :data:`KNOWN_COLUMNS`: numbers in base
+        SI units or None, family in lower case, text stripped.
+
+    Raises
+    ------
+    InputDataError
+        One line per problem, ``FILE:LINE: column: message``.
+    """
+    errors: list[str] = []
+    records = []
+    first_line_of: dict[str, int] = {}
+    for row in rows:
+        record, row_errors = _validate_row(row, first_line_of)
+        errors.extend(f"{label}:{row.line}: {message}" for message in row_errors)
+        records.append(record)
+    if errors:
+        raise InputDataError("\n".join(errors))
+    return records
+
+
+def _cell_text(value: object) -> str:
+    if value is None:
+        return ""
+    if isinstance(value, float) and math.isnan(value):
+        return ""
+    return restore_cell(str(value)).strip() if isinstance(value, str) else str(value)
+
+
+def _validate_row(row: RawRow, first_line_of: dict[str, int]) -> tuple[dict[str, object], list[str]]:
+    errors: list[str] = []
+    cells = row.cells
+    record: dict[str, object] = {}
+
+    part = _cell_text(cells.get("part"))
+    if not part:
+        errors.append("part: missing")
+    elif not is_valid_part_id(part):
+        errors.append(
+            f"part: '{part[:70]}' is not a part id (1–64 letters, digits or . _ - /, "
+            "starting with a letter or digit)"
+        )
+    elif part in first_line_of:
+        errors.append(f"part: '{part}' appears twice (first on line {first_line_of[part]})")
+    else:
+        first_line_of[part] = row.line
+    record["part"] = part
+
+    family = _cell_text(cells.get("family")).lower()
+    if not family:
+        errors.append("family: missing")
+    elif family not in FAMILIES:
+        errors.append(f"family: unknown family '{family[:40]}'; expected one of {', '.join(FAMILIES)}")
+    record["family"] = family
+
+    for column, limit in TEXT_LIMITS.items():
+        text = _cell_text(cells.get(column))
+        problem = _text_problem(text) or (f"longer than {limit} characters" if len(text) > limit else None)
+        if problem:
+            errors.append(f"{column}: {problem}")
+        record[column] = text
+    record["model_extra"] = record["model_extra"] or None
+
+    for column, rule in RULES.items():
+        raw = cells.get(column)
+        text = _cell_text(raw) if isinstance(raw, str) or raw is None else raw
+        if text == "":
+            record[column] = None
+            continue
+        try:
+            value = units.parse_quantity(text, rule.kind)
+        except units.QuantityError as error:
+            errors.append(f"{column}: {error}")
+            record[column] = None
+            continue
+        problem = rule.problem(value)
+        if problem:
+            errors.append(f"{column}: {problem}")
+        record[column] = value
+
+    if family in FAMILIES:
+        required = REQUIRED_BREAKDOWN if family in BREAKDOWN_FAMILIES else REQUIRED_FORWARD
+        for column in required:
+            if record[column] is None and not any(message.startswith(f"{column}:") for message in errors):
+                errors.append(f"{column}: required for family {family}")
+    errors.extend(_cross_problems(record))
+    return record, errors
+
+
+def _cross_problems(record: Mapping[str, object]) -> list[str]:
+    """Checks that involve two columns: the knee lies below the test point."""
+    problems = []
+    izt, izk = record.get("izt_a"), record.get("izk_a")
+    if izt is not None and izk is not None and not izk < izt:
+        problems.append(
+            f"izk_a: knee current {_shown(izk, units.CURRENT)} must be below "
+            f"izt_a {_shown(izt, units.CURRENT)}"
+        )
+    zzt, zzk = record.get("zzt_ohm"), record.get("zzk_ohm")
+    if zzt is not None and zzk is not None and not zzk >= zzt:
+        problems.append(
+            f"zzk_ohm: knee impedance {_shown(zzk, units.RESISTANCE)} must be at least "
+            f"zzt_ohm {_shown(zzt, units.RESISTANCE)}"
+        )
+    return problems
+
+
+def load_parts_csv(path: str | Path) -> PartsFile:
+    """Read and validate a parts CSV file.
+
+    Raises
+    ------
+    InputDataError
+        For an unreadable file (one line) or invalid content (one line per problem).
+    """
+    label = str(path)
+    data = read_input_bytes(path)
+    _, rows, warnings = read_csv_rows(decode_text(data, label), label)
+    return PartsFile(label, file_digest(data), validate_rows(rows, label), warnings)
+
+
+@dataclass(frozen=True)
+class FieldChange:
+    """One column of a part that an import changes."""
+
+    column: str
+    old: object
+    new: object
+
+    def describe(self) -> str:
+        """``column: old → new`` with exact numbers, ``(empty)`` for not given."""
+        return f"{self.column}: {_plain(self.old)} \u2192 {_plain(self.new)}"
+
+
+def _plain(value: object) -> str:
+    if value is None or value == "":
+        return "(empty)"
+    if isinstance(value, float):
+        return format_number(value)
+    return repr(value) if isinstance(value, str) and value.strip() != value else str(value)
+
+
+@dataclass
+class ImportPlan:
+    """What an import does: parts added, parts changed (with their changes), unchanged."""
+
+    added: list[dict[str, object]] = field(default_factory=list)
+    changed: list[tuple[dict[str, object], list[FieldChange]]] = field(default_factory=list)
+    unchanged: list[str] = field(default_factory=list)
+
+    def summary(self) -> str:
+        """One line: how many parts are added, changed and unchanged."""
+        return f"{len(self.added)} added, {len(self.changed)} changed, {len(self.unchanged)} unchanged"
+
+    def lines(self) -> list[str]:
+        """Every part's fate, one line each; unchanged parts on one line."""
+        out = [f"add {record['part']} ({record['family']})" for record in self.added]
+        for record, changes in self.changed:
+            out.append(f"change {record['part']}: " + "; ".join(change.describe() for change in changes))
+        if self.unchanged:
+            out.append("unchanged: " + ", ".join(self.unchanged))
+        return out
+
+
+def _same(old: object, new: object) -> bool:
+    if old is None or new is None:
+        return old is None and new is None
+    if isinstance(old, float) or isinstance(new, float):
+        return float(old) == float(new)
+    return old == new
+
+
+def plan_changes(
+    existing: Mapping[str, Mapping[str, object]], incoming: Iterable[Mapping[str, object]]
+) -> ImportPlan:
+    """Compare incoming records with the library's, part by part.
+
+    Parameters
+    ----------
+    existing : mapping of part id → record
+        The library's current records.
+    incoming : iterable of records
+        Validated records (see :func:`validate_rows`).
+    """
+    plan = ImportPlan()
+    for record in incoming:
+        current = existing.get(record["part"])
+        if current is None:
+            plan.added.append(dict(record))
+            continue
+        changes = [
+            FieldChange(column, current.get(column), record.get(column))
+            for column in RECORD_COLUMNS
+            if not _same(current.get(column), record.get(column))
+        ]
+        if changes:
+            plan.changed.append((dict(record), changes))
+        else:
+            plan.unchanged.append(str(record["part"]))
+    return plan

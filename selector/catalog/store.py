@@ -1,0 +1,453 @@
+"""The parts library store: where it lives, opening it, migrating it, reading and writing.
+
+A library is an SQLite file (default) or a database URL such as PostgreSQL for a shared
+team library. Its schema is made only by the Alembic migrations; opening a library at an
+older schema revision upgrades it to head and says so through ``notify``. SQLite runs
+with foreign keys on, write-ahead logging and a busy timeout, and every write is one
+transaction, so a failed import leaves the library as it was.
+"""
+
+from __future__ import annotations
+
+import getpass
+from collections.abc import Callable, Iterable, Iterator, Sequence
+from contextlib import contextmanager
+from dataclasses import dataclass
+from pathlib import Path
+
+import platformdirs
+from alembic import command
+from alembic.config import Config
+from alembic.runtime.migration import MigrationContext
+from alembic.script import ScriptDirectory
+from sqlalchemy import Engine, create_engine, delete, event, insert, inspect, select, update
+from sqlalchemy.engine import URL, make_url
+from sqlalchemy.exc import ArgumentError, IntegrityError, SQLAlchemyError
+from sqlalchemy.orm import Session
+from sqlalchemy.pool import StaticPool
+
+from selector.catalog.models import RECORD_COLUMNS, ImportLog, Part, utc_now
+from selector.catalog.parts_import import ImportPlan, PartsFile, load_parts_csv, plan_changes
+from selector.catalog.resources import demo_csv_path, migrations_folder
+from selector.errors import LibraryError, OptionError, UnknownPartError
+from selector.partset import FAMILIES, PartSet
+
+#: File name of the default library inside the per-user data directory.
+DEFAULT_LIBRARY_FILE = "library.sqlite"
+#: How long SQLite waits for another writer before giving up [ms].
+BUSY_TIMEOUT_MS = 30_000
+
+_SQLITE_MAGIC = b"SQLite format 3\x00"
+
+Notify = Callable[[str], None]
+
+
+def default_library_path() -> Path:
+    """The per-user library file (platformdirs' user data directory for railwright)."""
+    return platformdirs.user_data_path("railwright", appauthor=False) / DEFAULT_LIBRARY_FILE
+
+
+@dataclass(frozen=True)
+class LibraryLocation:
+    """Where a library lives: its URL, its file (SQLite) and whether it is the default."""
+
+    url: URL
+    path: Path | None
+    is_default: bool
+
+    def text(self) -> str:
+        """The file path, or the URL with any password shown as ``***``."""
+        if self.path is not None:
+            return str(self.path)
+        return self.url.render_as_string(hide_password=True)
+
+
+def resolve_location(db_option: str | None) -> LibraryLocation:
+    """Read the ``--db`` value: None (default), a file path, or an SQLAlchemy URL."""
+    if db_option is None:
+        path = default_library_path()
+        return LibraryLocation(URL.create("sqlite", database=str(path)), path, True)
+    text = db_option.strip()
+    if not text:
+        raise OptionError("--db: empty; give a library file path or a database URL")
+    if "://" in text:
+        try:
+            url = make_url(text)
+        except ArgumentError:
+            raise OptionError(f"--db: '{_masked(text)}' is not a database URL") from None
+        if url.get_backend_name() == "sqlite" and url.database not in (None, "", ":memory:"):
+            path = Path(url.database).expanduser().resolve()
+            return LibraryLocation(url.set(database=str(path)), path, False)
+        return LibraryLocation(url, None, False)
+    path = Path(text).expanduser().resolve()
+    return LibraryLocation(URL.create("sqlite", database=str(path)), path, False)
+
+
+def _masked(text: str) -> str:
+    try:
+        return make_url(text).render_as_string(hide_password=True)
+    except ArgumentError:
+        return text.split("@")[-1] if "@" in text else text
+
+
+def _configure_sqlite(engine: Engine) -> None:
+    """Foreign keys, WAL and a busy timeout on every connection; real transactions.
+
+    The driver's own implicit transactions are switched off so that SQLAlchemy's BEGIN
+    also covers schema changes (pysqlite otherwise commits before DDL).
+    """
+
+    @event.listens_for(engine, "connect")
+    def _on_connect(dbapi_connection, _record) -> None:
+        dbapi_connection.isolation_level = None
+        cursor = dbapi_connection.cursor()
+        cursor.execute("PRAGMA foreign_keys=ON")
+        cursor.execute(f"PRAGMA busy_timeout={BUSY_TIMEOUT_MS}")
+        cursor.execute("PRAGMA journal_mode=WAL")
+        cursor.close()
+
+    @event.listens_for(engine, "begin")
+    def _on_begin(connection) -> None:
+        connection.exec_driver_sql("BEGIN")
+
+
+def _make_engine(location: LibraryLocation) -> Engine:
+    try:
+        if location.url.get_backend_name() == "sqlite":
+            in_memory = location.path is None
+            engine = create_engine(
+                location.url,
+                poolclass=StaticPool if in_memory else None,
+                connect_args={"timeout": BUSY_TIMEOUT_MS / 1000, "check_same_thread": not in_memory},
+            )
+            _configure_sqlite(engine)
+            return engine
+        return create_engine(location.url, pool_pre_ping=True)
+    except (ArgumentError, ImportError, SQLAlchemyError) as error:
+        raise LibraryError(f"{location.text()}: cannot use this database ({_first_line(error)})") from None
+
+
+def _first_line(error: BaseException) -> str:
+    text = str(getattr(error, "orig", None) or error)
+    return text.strip().splitlines()[0] if text.strip() else type(error).__name__
+
+
+def alembic_config(connection=None) -> Config:
+    """An Alembic configuration for the packaged migrations, bound to ``connection``."""
+    config = Config()
+    config.set_main_option("script_location", str(migrations_folder()))
+    if connection is not None:
+        config.attributes["connection"] = connection
+    return config
+
+
+def head_revision() -> str:
+    """The newest schema revision this installation knows."""
+    return ScriptDirectory.from_config(alembic_config()).get_current_head()
+
+
+def _check_sqlite_file(path: Path) -> bool:
+    """Whether ``path`` is a new library; refuse a folder or a file that is not SQLite."""
+    if path.is_dir():
+        raise LibraryError(f"{path}: is a folder, not a library file")
+    if not path.exists() or path.stat().st_size == 0:
+        return True
+    try:
+        with path.open("rb") as handle:
+            magic = handle.read(len(_SQLITE_MAGIC))
+    except OSError as error:
+        raise LibraryError(f"{path}: cannot read ({error.strerror or error})") from None
+    if magic != _SQLITE_MAGIC:
+        raise LibraryError(f"{path}: not a railwright library (not an SQLite database file)")
+    return False
+
+
+class Library:
+    """An open parts library. Create with :func:`open_library`."""
+
+    def __init__(self, engine: Engine, location: LibraryLocation) -> None:
+        self.engine = engine
+        self.location = location
+
+    def location_text(self) -> str:
+        """Where the library lives: the file path, or the URL with its password masked."""
+        return self.location.text()
+
+    def schema_revision(self) -> str:
+        """The schema revision the library is at (e.g. ``"0001"``); empty if none."""
+        with self._connect() as connection:
+            return MigrationContext.configure(connection).get_current_revision() or ""
+
+    @contextmanager
+    def _connect(self):
+        try:
+            with self.engine.connect() as connection:
+                yield connection
+        except SQLAlchemyError as error:
+            raise LibraryError(f"{self.location_text()}: {_first_line(error)}") from None
+
+    @contextmanager
+    def session(self) -> Iterator[Session]:
+        """A session inside one transaction: committed on success, rolled back on error.
+
+        Database failures surface as :class:`LibraryError` naming the library.
+        """
+        try:
+            with Session(self.engine, expire_on_commit=False) as session, session.begin():
+                yield session
+        except IntegrityError as error:
+            raise LibraryError(f"{self.location_text()}: refused by the database ({_first_line(error)})") from None
+        except SQLAlchemyError as error:
+            raise LibraryError(f"{self.location_text()}: {_first_line(error)}") from None
+
+    def close(self) -> None:
+        """Release the library's connections."""
+        self.engine.dispose()
+
+    # Reading ---------------------------------------------------------------------------
+
+    def part_records(self, families: Sequence[str] | None = None) -> list[dict[str, object]]:
+        """Every part as a record (parts-CSV columns plus ``source``), sorted by part id.
+
+        Raises
+        ------
+        OptionError
+            When a family is not one of :data:`selector.partset.FAMILIES`.
+        """
+        query = select(Part)
+        if families is not None:
+            unknown = [family for family in families if family not in FAMILIES]
+            if unknown:
+                raise OptionError(
+                    f"--family: unknown family '{unknown[0]}'; expected one of {', '.join(FAMILIES)}"
+                )
+            query = query.where(Part.family.in_(list(families)))
+        with self.session() as session:
+            records = [part.record() for part in session.scalars(query)]
+        # Sorted here, not in SQL, so the order is the same on every database's collation.
+        return sorted(records, key=lambda record: record["part"])
+
+    def load_partset(self, families: Sequence[str] | None = None) -> PartSet:
+        """The library's parts (optionally of some families) as arrays, sorted by part id."""
+        return PartSet.from_records(self.part_records(families))
+
+    def part_record(self, part: str) -> dict[str, object]:
+        """One part's record; :class:`UnknownPartError` when it is not in the library."""
+        with self.session() as session:
+            found = session.scalar(select(Part).where(Part.part == part))
+            if found is None:
+                raise UnknownPartError(f"unknown part '{part}' (not in the library {self.location_text()})")
+            return found.record()
+
+    def import_history(self) -> list[dict[str, object]]:
+        """The import log, oldest first."""
+        with self.session() as session:
+            entries = session.scalars(select(ImportLog).order_by(ImportLog.id))
+            return [
+                {column: getattr(entry, column) for column in ImportLog.__table__.columns.keys()}
+                for entry in entries
+            ]
+
+    # Writing ---------------------------------------------------------------------------
+
+    def import_records(
+        self,
+        records: Iterable[dict[str, object]],
+        *,
+        kind: str,
+        file_name: str,
+        file_sha256: str,
+        dry_run: bool = False,
+    ) -> ImportPlan:
+        """Add new parts and update changed ones in one transaction, and log the import.
+
+        Parameters
+        ----------
+        records : iterable of dict
+            Validated records (see :func:`selector.catalog.parts_import.validate_rows`).
+        kind : str
+            What is imported, for the log: ``parts csv``, ``model cards``, ``datasheet fit``.
+        file_name, file_sha256 : str
+            The imported file and the SHA-256 of its bytes, for the log.
+        dry_run : bool
+            Plan only; write nothing (not even the log).
+
+        Returns
+        -------
+        ImportPlan
+            What was (or, with ``dry_run``, would be) added, changed and left unchanged.
+        """
+        records = list(records)
+        with self.session() as session:
+            wanted = [record["part"] for record in records]
+            existing = {
+                part.part: part
+                for chunk in _chunks(wanted, 500)
+                for part in session.scalars(select(Part).where(Part.part.in_(chunk)))
+            }
+            plan = plan_changes({name: part.record() for name, part in existing.items()}, records)
+            if dry_run:
+                return plan
+            now = utc_now()
+            if plan.added:
+                session.execute(
+                    insert(Part),
+                    [_writable(record) | {"created_at": now, "updated_at": now} for record in plan.added],
+                )
+            if plan.changed:
+                session.execute(
+                    update(Part),
+                    [
+                        _writable(record) | {"id": existing[record["part"]].id, "updated_at": now}
+                        for record, _ in plan.changed
+                    ],
+                )
+            session.add(
+                ImportLog(
+                    imported_at=now,
+                    imported_by=_user_name(),
+                    kind=kind,
+                    file_name=file_name[:1000],
+                    file_sha256=file_sha256,
+                    rows_added=len(plan.added),
+                    rows_changed=len(plan.changed),
+                    rows_unchanged=len(plan.unchanged),
+                )
+            )
+        return plan
+
+    def import_parts_file(self, parts_file: PartsFile, *, kind: str = "parts csv", dry_run: bool = False) -> ImportPlan:
+        """Import a validated :class:`PartsFile` (see :meth:`import_records`)."""
+        return self.import_records(
+            parts_file.records,
+            kind=kind,
+            file_name=parts_file.label,
+            file_sha256=parts_file.sha256,
+            dry_run=dry_run,
+        )
+
+    def import_demo_sets(self) -> ImportPlan:
+        """Add (or refresh) the bundled invented demo sets."""
+        demo = load_parts_csv(demo_csv_path())
+        return self.import_parts_file(
+            PartsFile(demo_csv_path().name, demo.sha256, demo.records, demo.warnings), kind="demo sets"
+        )
+
+    def remove_part(self, part: str) -> None:
+        """Delete one part; :class:`UnknownPartError` when it is not in the library."""
+        with self.session() as session:
+            result = session.execute(delete(Part).where(Part.part == part))
+            if result.rowcount == 0:
+                raise UnknownPartError(f"unknown part '{part}' (not in the library {self.location_text()})")
+
+
+def _chunks(items: Sequence[str], size: int) -> Iterator[Sequence[str]]:
+    for start in range(0, len(items), size):
+        yield items[start : start + size]
+
+
+def _writable(record: dict[str, object]) -> dict[str, object]:
+    return {column: record.get(column) for column in RECORD_COLUMNS}
+
+
+def _user_name() -> str:
+    try:
+        return getpass.getuser()[:128]
+    except (KeyError, OSError):
+        return "unknown"
+
+
+def open_library(
+    db_option: str | None,
+    *,
+    notify: Notify | None = None,
+    create_with_demo: bool | None = None,
+) -> Library:
+    """Open (and when needed create or upgrade) the library named by ``--db``.
+
+    Parameters
+    ----------
+    db_option : str or None
+        A file path or SQLAlchemy URL; None for the default per-user library.
+    notify : callable taking one str, optional
+        Told, in one line, when the library is created or upgraded.
+    create_with_demo : bool, optional
+        Whether a library created now gets the demo sets. Default (None): the default
+        library does, a library at an explicit location starts empty (DESIGN §4).
+
+    Raises
+    ------
+    LibraryError
+        When the location is not a railwright library, cannot be created, or has a
+        schema newer than this installation knows.
+    """
+    notify = notify or (lambda _line: None)
+    location = resolve_location(db_option)
+    if location.path is not None:
+        creating = _check_sqlite_file(location.path)
+        if creating:
+            _prepare_folder(location)
+    engine = _make_engine(location)
+    library = Library(engine, location)
+    try:
+        created = _migrate(library, notify)
+        if created:
+            seed = location.is_default if create_with_demo is None else create_with_demo
+            if seed:
+                plan = library.import_demo_sets()
+                notify(
+                    f"created the library {location.text()} with the invented demo sets "
+                    f"({len(plan.added)} parts)"
+                )
+            else:
+                notify(f"created an empty library {location.text()}")
+    except BaseException:
+        library.close()
+        raise
+    return library
+
+
+def _prepare_folder(location: LibraryLocation) -> None:
+    folder = location.path.parent
+    if folder.is_dir():
+        return
+    if not location.is_default:
+        raise LibraryError(f"{location.path}: cannot create the library; folder {folder} does not exist")
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+    except OSError as error:
+        raise LibraryError(f"{folder}: cannot create the library folder ({error.strerror or error})") from None
+
+
+def _migrate(library: Library, notify: Notify) -> bool:
+    """Bring the schema to head; True when the library was created just now."""
+    text = library.location_text()
+    script = ScriptDirectory.from_config(alembic_config())
+    head = script.get_current_head()
+    try:
+        with library.engine.begin() as connection:
+            current = MigrationContext.configure(connection).get_current_revision()
+            if current is None and inspect(connection).get_table_names():
+                raise LibraryError(f"{text}: holds a database, but not a railwright library")
+            if current is not None:
+                try:
+                    script.get_revision(current)
+                except Exception:
+                    raise LibraryError(
+                        f"{text}: written by a newer railwright (schema revision {current}); "
+                        "upgrade railwright to open it"
+                    ) from None
+            if current != head:
+                command.upgrade(alembic_config(connection), "head")
+    except LibraryError:
+        raise
+    except SQLAlchemyError as error:
+        message = _first_line(error)
+        if "not a database" in message or "malformed" in message:
+            raise LibraryError(f"{text}: not a railwright library ({message})") from None
+        raise LibraryError(f"{text}: cannot open the library ({message})") from None
+    if current is None:
+        return True
+    if current != head:
+        notify(f"upgraded the library {text} from schema revision {current} to {head}")
+    return False
