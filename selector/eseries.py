@@ -2,7 +2,7 @@
 
 References
 ----------
-.. [1] IEC 60063:2015, *Preferred number series for resistors and capacitors*, Tables 1–2.
+.. [1] IEC 60063:2015, *Preferred number series for resistors and capacitors*, value tables.
        E3–E24 carry two significant figures and are defined by their table, which departs
        from rounded 10**(i/24) at 2.7, 3.0, 3.3, 3.6, 3.9, 4.3, 4.7 and 8.2. E48–E192
        carry three significant figures, equal to 10**(i/N) rounded, except the E192

@@ -396,10 +396,12 @@ def _supply(entries: dict[str, _Entry], target_v: float) -> dict:
     if target_v >= low:
         target_entry = entries["rail.target"]
         first, second = _blame(target_entry, low_entry)
+        if first is target_entry:
+            clash = f"the target {_volts(target_v)} is not below the least supply {_volts(low)}"
+        else:
+            clash = f"the least supply {_volts(low)} is not above the target {_volts(target_v)}"
         raise _fail(
-            first,
-            f"the target {_volts(target_v)} is not below the least supply {_volts(low)} "
-            f"({second.label}): a series resistor can only drop voltage",
+            first, f"{clash} ({second.label}): a series resistor can only drop voltage"
         )
     return {"supply_min_v": low, "supply_max_v": high, "supply_nominal_v": nominal}
 
