@@ -431,12 +431,12 @@ def _load(entries: dict[str, _Entry]) -> dict:
         kind = kind_entry.raw.strip().lower()
         for entry, written in ((low_entry, low_kind), (high_entry, high_kind)):
             if written not in (None, kind):
-                first, second = _blame(entry, kind_entry)
-                raise _fail(
-                    first,
-                    f"{entry.label} '{_text(entry)}' is a {written} but {kind_entry.label} "
-                    f"says {kind}",
-                )
+                first, _ = _blame(entry, kind_entry)
+                if first is entry:
+                    clash = f"'{_text(entry)}' is a {written} but {kind_entry.label} says {kind}"
+                else:
+                    clash = f"'{kind}' contradicts {entry.label} '{_text(entry)}', a {written}"
+                raise _fail(first, clash)
     else:
         if low_kind and high_kind and low_kind != high_kind:
             first, second = _blame(high_entry, low_entry)

@@ -193,7 +193,7 @@ def test_load_mixing_amperes_and_ohms_is_refused(in_tmp):
 def test_load_kind_contradicting_a_unit_is_refused(in_tmp):
     text = replaced('min = 0\nmax = "10 mA"', 'kind = "resistance"\nmin = 100\nmax = "10 mA"')
     assert error_of(text) == (
-        "rail.toml: [load] max: [load] max '10 mA' is a current but [load] kind says resistance"
+        "rail.toml: [load] max: '10 mA' is a current but [load] kind says resistance"
     )
 
 
@@ -444,7 +444,7 @@ def test_override_errors_name_the_option(in_tmp):
         "a series resistor can only drop voltage"
     )
     assert error_of_path(path, {"load.kind": "resistance"}) == (
-        "--load-kind: [load] max '10 mA' is a current but --load-kind says resistance"
+        "--load-kind: 'resistance' contradicts [load] max '10 mA', a current"
     )
     assert error_of_path(path, {"search.statuses": "banned"}) == (
         "--statuses: 'banned' parts may never be designed in; usable: approved, conditional, evaluating"
