@@ -28,7 +28,7 @@ from selector.catalog.models import (
     SOURCE_LENGTH,
 )
 from selector.csv_safety import format_number, restore_cell
-from selector.errors import InputDataError
+from selector.errors import InputDataError, OptionError
 from selector.partset import (
     BREAKDOWN_FAMILIES,
     FAMILIES,
@@ -168,7 +168,9 @@ def decode_text(data: bytes, label: str) -> str:
         ) from None
 
 
-def read_csv_rows(text: str, label: str) -> tuple[list[str], list[RawRow], list[str]]:
+def read_csv_rows(
+    text: str, label: str, required: Sequence[str] = ("part", "family")
+) -> tuple[list[str], list[RawRow], list[str]]:
     """Split CSV text into its header and rows, with warnings for unknown columns.
 
     A header with semicolons and no commas is read as semicolon-separated, as some
@@ -197,9 +199,9 @@ def read_csv_rows(text: str, label: str) -> tuple[list[str], list[RawRow], list[
                 errors.append(f"{label}:1: {name}: column appears twice")
             elif name and name not in KNOWN_COLUMNS:
                 warnings.append(f"{label}:1: {name}: not a parts column; ignored")
-        for required in ("part", "family"):
-            if required not in columns:
-                errors.append(f"{label}:1: {required}: column missing")
+        for name in required:
+            if name not in columns:
+                errors.append(f"{label}:1: {name}: column missing")
         rows = []
         for cells in reader:
             if not any(cell.strip() for cell in cells):
@@ -436,3 +438,23 @@ def plan_changes(
         else:
             plan.unchanged.append(str(record["part"]))
     return plan
+
+
+def parse_column_settings(settings: Sequence[str], option: str = "--set") -> dict[str, str]:
+    """Read ``COLUMN=VALUE`` option values into a mapping (values still text).
+
+    Raises
+    ------
+    OptionError
+        Naming the option and the setting that cannot be read.
+    """
+    values: dict[str, str] = {}
+    for setting in settings:
+        column, equals, value = setting.partition("=")
+        column = column.strip().lower()
+        if not equals or not column:
+            raise OptionError(f"{option}: '{setting[:60]}' is not COLUMN=VALUE, e.g. pd_w=500m")
+        if column not in KNOWN_COLUMNS or column == "part":
+            raise OptionError(f"{option}: '{column[:40]}' is not a parts column")
+        values[column] = value.strip()
+    return values

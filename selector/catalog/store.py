@@ -168,6 +168,8 @@ class Library:
     def __init__(self, engine: Engine, location: LibraryLocation) -> None:
         self.engine = engine
         self.location = location
+        #: True when :func:`open_library` made this library just now.
+        self.created = False
 
     def location_text(self) -> str:
         """Where the library lives: the file path, or the URL with its password masked."""
@@ -390,8 +392,8 @@ def open_library(
     engine = _make_engine(location)
     library = Library(engine, location)
     try:
-        created = _migrate(library, notify)
-        if created:
+        library.created = _migrate(library, notify)
+        if library.created:
             seed = location.is_default if create_with_demo is None else create_with_demo
             if seed:
                 plan = library.import_demo_sets()
