@@ -145,11 +145,11 @@ RESISTOR_TOLERANCE_LIMIT = 0.5
 #: IEC 62368-1:2018, Table 4: ES1 limit for DC voltage [V].
 ES1_DC_LIMIT_V = 60.0
 
-_SECTIONS: dict[str, tuple[str, ...]] = {}
-for _dotted in OPTION_FOR_KEY:
-    _section, _key = _dotted.split(".")
-    _SECTIONS.setdefault(_section, ())
-    _SECTIONS[_section] += (_key,)
+#: Section → its keys, in the order of :data:`OPTION_FOR_KEY`.
+_SECTIONS: dict[str, tuple[str, ...]] = {
+    section: tuple(d.split(".")[1] for d in OPTION_FOR_KEY if d.split(".")[0] == section)
+    for section in dict.fromkeys(d.split(".")[0] for d in OPTION_FOR_KEY)
+}
 
 
 @dataclass(frozen=True)
@@ -277,13 +277,21 @@ def _quantity(entry: _Entry, kind: units.Kind) -> float:
         raise _fail(entry, str(error)) from None
 
 
-def _fraction(entry: _Entry, what: str) -> float:
-    """A fraction written as ``"20 %"`` or as a bare number (0.2)."""
+def _fraction(entry: _Entry, what: str, low: float, high: float, inclusive_low: bool) -> float:
+    """A fraction written as ``"20 %"`` or as a bare number (0.2), checked against a range."""
     value, kind = _split(entry)
     if kind is units.PERCENT:
-        return value / 100
-    if kind is not None:
+        value /= 100
+    elif kind is not None:
         raise _fail(entry, f"'{_text(entry)}' is {kind.article} {kind.name}; {what} is expected")
+    above_low = value >= low if inclusive_low else value > low
+    if not (above_low and value < high):
+        lowest = "from" if inclusive_low else "above"
+        message = f"{value * 100:g} % must be {lowest} {low * 100:g} % and below {high * 100:g} %"
+        if kind is None and value >= 1:
+            # "5" meant as 5 % is the likely slip: a bare number is a fraction.
+            message += f" (a bare number is a fraction; write '{_text(entry)} %' for percent)"
+        raise _fail(entry, message)
     return value
 
 
@@ -325,7 +333,7 @@ def _blame(first: _Entry, second: _Entry) -> tuple[_Entry, _Entry]:
 
 def _check_order(low: _Entry, low_value: float, high: _Entry, high_value: float, show) -> None:
     if low_value > high_value:
-        if high.place.startswith("--") and not low.place.startswith("--"):
+        if _blame(low, high)[0] is high:
             raise _fail(high, f"{show(high_value)} is below {low.label} ({show(low_value)})")
         raise _fail(low, f"{show(low_value)} is above {high.label} ({show(high_value)})")
 
@@ -367,7 +375,7 @@ def _rail(entries: dict[str, _Entry]) -> dict:
             "a voltage or a percentage is expected",
         )
     if tolerance <= 0:
-        raise _fail(tolerance_entry, "must be above 0 (e.g. '3 %' or '0.1 V')")
+        raise _fail(tolerance_entry, f"{_volts(tolerance)} must be above 0 V (e.g. '3 %' or '0.1 V')")
     if tolerance >= target:
         raise _fail(
             tolerance_entry,
@@ -439,12 +447,14 @@ def _load(entries: dict[str, _Entry]) -> dict:
                 raise _fail(first, clash)
     else:
         if low_kind and high_kind and low_kind != high_kind:
-            first, second = _blame(high_entry, low_entry)
-            written = {id(low_entry): low_kind, id(high_entry): high_kind}
+            pair = ((high_entry, high_kind), (low_entry, low_kind))
+            if _blame(high_entry, low_entry)[0] is low_entry:
+                pair = pair[::-1]
+            (first, first_kind), (second, second_kind) = pair
             raise _fail(
                 first,
-                f"'{_text(first)}' is a {written[id(first)]} but {second.label} is a "
-                f"{written[id(second)]}; write both in amperes or both in ohms",
+                f"'{_text(first)}' is a {first_kind} but {second.label} is a {second_kind}; "
+                "write both in amperes or both in ohms",
             )
         # A bare number is amperes unless the other end says ohms.
         kind = low_kind or high_kind or "current"
@@ -506,10 +516,9 @@ def _resistor(entries: dict[str, _Entry]) -> dict:
 
     if "resistor.tolerance" in entries:
         entry = entries["resistor.tolerance"]
-        tolerance = _fraction(entry, "a percentage")
-        if not 0 < tolerance < RESISTOR_TOLERANCE_LIMIT:
-            raise _fail(entry, f"{tolerance * 100:g} % must be above 0 % and below 50 %")
-        fields["resistor_tolerance"] = tolerance
+        fields["resistor_tolerance"] = _fraction(
+            entry, "a percentage", 0.0, RESISTOR_TOLERANCE_LIMIT, inclusive_low=False
+        )
 
     if "resistor.rating" in entries:
         entry = entries["resistor.rating"]
@@ -597,10 +606,9 @@ def _search(entries: dict[str, _Entry]) -> dict:
         fields["min_current_a"] = current
     if "search.min_margin" in entries:
         entry = entries["search.min_margin"]
-        margin = _fraction(entry, "a percentage or a fraction")
-        if not 0 <= margin < 1:
-            raise _fail(entry, f"{margin * 100:g} % must be from 0 % up to below 100 %")
-        fields["min_margin"] = margin
+        fields["min_margin"] = _fraction(
+            entry, "a percentage or a fraction", 0.0, 1.0, inclusive_low=True
+        )
     return fields
 
 

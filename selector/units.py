@@ -9,8 +9,9 @@ refused, naming both kinds.
 References
 ----------
 .. [1] BIPM, *The International System of Units (SI)*, 9th ed., 2019, Table 7 (SI prefixes).
-.. [2] IEC 60062:2016, *Marking codes for resistors and capacitors*, clause 5 (RKM code:
-       the multiplier letter stands in place of the decimal point, ``R`` meaning 1).
+.. [2] IEC 60062:2016, *Marking codes for resistors and capacitors*, clause 5 (clause
+       number from memory): the letter and digit ("RKM") code, where the multiplier letter
+       stands in place of the decimal point and ``R`` means 1.
 """
 
 from __future__ import annotations
@@ -213,8 +214,7 @@ def parse_quantity(text: str | float | int, expected: Kind) -> float:
         return text
     value, kind = split_quantity(text)
     if kind is not None and kind is not expected:
-        # An "R" suffix reads as ohms but "2R2" style is also accepted for plain numbers
-        # only when the column is a resistance; anything else is the wrong kind.
+        # The RKM "2R2" and the "R" suffix name ohms, so they too are refused elsewhere.
         raise QuantityError(
             f"'{shown(text.strip())}' is {_describe(kind)}; {_describe(expected)} is expected"
         )

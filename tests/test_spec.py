@@ -268,9 +268,9 @@ def test_missing_keys_without_a_file_name_the_options():
          "[rail] target: the target 12 V is not below the least supply 11 V ([supply] min): "
          "a series resistor can only drop voltage"),
         ('tolerance = "3 %"', 'tolerance = "0 %"',
-         "[rail] tolerance: must be above 0 (e.g. '3 %' or '0.1 V')"),
+         "[rail] tolerance: 0 V must be above 0 V (e.g. '3 %' or '0.1 V')"),
         ('tolerance = "3 %"', 'tolerance = "-1 %"',
-         "[rail] tolerance: must be above 0 (e.g. '3 %' or '0.1 V')"),
+         "[rail] tolerance: -50 mV must be above 0 V (e.g. '3 %' or '0.1 V')"),
         ('tolerance = "3 %"', 'tolerance = "5 V"',
          "[rail] tolerance: 5 V is not below [rail] target (5 V)"),
         ('tolerance = "3 %"', 'tolerance = "100 %"',
@@ -310,7 +310,9 @@ def test_rail_supply_load_ambient_checks(in_tmp, old, new, message):
         ("series = 24", "[resistor] series: expected a series name such as 'E24'"),
         ('tolerance = "0 %"', "[resistor] tolerance: 0 % must be above 0 % and below 50 %"),
         ('tolerance = "50 %"', "[resistor] tolerance: 50 % must be above 0 % and below 50 %"),
-        ("tolerance = 1", "[resistor] tolerance: 100 % must be above 0 % and below 50 %"),
+        ("tolerance = 1",
+         "[resistor] tolerance: 100 % must be above 0 % and below 50 % "
+         "(a bare number is a fraction; write '1 %' for percent)"),
         ('tolerance = "1 V"', "[resistor] tolerance: '1 V' is a voltage; a percentage is expected"),
         ('rating = "0 W"', "[resistor] rating: 0 W must be above 0 W"),
         ('rating = "5 mA"', "[resistor] rating: '5 mA' is a current; a power is expected"),
@@ -353,8 +355,11 @@ def test_resistor_checks(in_tmp, body, message):
         ('list = "a\\u0007b"', "[search] list: 'a\\x07b' is not a usable list name"),
         ('min_current = "-1 mA"', "[search] min_current: -1 mA must not be negative"),
         ('min_current = "1 mV"', "[search] min_current: '1 mV' is a voltage; a current is expected"),
-        ('min_margin = "100 %"', "[search] min_margin: 100 % must be from 0 % up to below 100 %"),
-        ("min_margin = -0.1", "[search] min_margin: -10 % must be from 0 % up to below 100 %"),
+        ('min_margin = "100 %"', "[search] min_margin: 100 % must be from 0 % and below 100 %"),
+        ("min_margin = 20",
+         "[search] min_margin: 2000 % must be from 0 % and below 100 % "
+         "(a bare number is a fraction; write '20 %' for percent)"),
+        ("min_margin = -0.1", "[search] min_margin: -10 % must be from 0 % and below 100 %"),
         ('min_margin = "2 W"', "[search] min_margin: '2 W' is a power; a percentage or a fraction is expected"),
     ],
 )

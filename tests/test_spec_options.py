@@ -116,7 +116,7 @@ def test_file_value_equals_the_same_value_by_option(runner):
          "Error: --series: unknown series 'E7'; known: E3, E6, E12, E24, E48, E96, E192\n"),
         (["--max-parts", "40"], "Error: --max-parts: 40 must be from 1 to 12\n"),
         (["--resistor", "0.1"], "Error: --resistor: 100 mΩ is outside 1 Ω … 10 MΩ\n"),
-        (["--min-margin", "150%"], "Error: --min-margin: 150 % must be from 0 % up to below 100 %\n"),
+        (["--min-margin", "150%"], "Error: --min-margin: 150 % must be from 0 % and below 100 %\n"),
         (["--load-kind", "resistance"],
          "Error: --load-max: '10mA' is a current but --load-kind says resistance\n"),
         (["--list", "bench", "--statuses", "banned"],
