@@ -17,6 +17,7 @@ References
 from __future__ import annotations
 
 import math
+import numbers
 import re
 from dataclasses import dataclass
 from decimal import Decimal, DecimalException
@@ -203,15 +204,18 @@ def parse_quantity(text: str | float | int, expected: Kind) -> float:
     """
     if isinstance(text, bool):
         raise QuantityError(f"{text!r} is not a number")
-    if isinstance(text, int):
+    # numbers.* so that numpy scalars from a DataFrame cell are numbers too.
+    if isinstance(text, numbers.Integral):
         try:
-            return float(text)
+            return float(int(text))
         except OverflowError:
-            raise QuantityError(f"an integer of {text.bit_length()} bits is out of range") from None
-    if isinstance(text, float):
-        if math.isnan(text) or math.isinf(text):
-            raise QuantityError(f"{text!r} is not a finite number")
-        return text
+            bits = int(text).bit_length()
+            raise QuantityError(f"an integer of {bits} bits is out of range") from None
+    if isinstance(text, numbers.Real):
+        value = float(text)
+        if not math.isfinite(value):
+            raise QuantityError(f"{value!r} is not a finite number")
+        return value
     value, kind = split_quantity(text)
     if kind is not None and kind is not expected:
         # The RKM "2R2" and the "R" suffix name ohms, so they too are refused elsewhere.

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
 import pytest
 from hypothesis import given
 from hypothesis import strategies as st
@@ -189,6 +190,13 @@ def test_repr_of_a_float_parses_back_exactly(value):
 @given(value=_FINITE)
 def test_numeric_input_passes_through_unchanged(value):
     assert parse_quantity(value, CURRENT) == value
+
+
+def test_numpy_scalars_are_numbers():
+    assert parse_quantity(np.int64(3), VOLTAGE) == 3.0
+    assert parse_quantity(np.float32(0.5), VOLTAGE) == 0.5
+    with pytest.raises(QuantityError, match="nan is not a finite number"):
+        parse_quantity(np.float64("nan"), VOLTAGE)
 
 
 def test_shown_leaves_printable_text_alone():
