@@ -1,0 +1,193 @@
+"""Candidate stacks: every multiset of up to ``max_parts`` usable library parts, as arrays.
+
+A stack is a multiset of parts (the order of elements in series does not change the
+circuit), written as a row of part indices in non-decreasing order and padded with −1.
+Enumeration yields the rows in chunks so that even millions of candidates never sit in
+memory at once, and never loops in Python per candidate.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from selector.errors import SearchError
+from selector.partset import FAMILIES, PartSet
+
+#: Candidate counts above this need ``force``: the search would take minutes or more.
+CANDIDATE_LIMIT = 50_000_000
+#: Rows per enumerated chunk (about 12 MB of indices at three parts per stack).
+DEFAULT_CHUNK_ROWS = 1 << 19
+
+
+def multiset_count(part_count: int, size: int) -> int:
+    """Number of multisets of ``size`` elements drawn from ``part_count`` kinds, C(n+k−1, k)."""
+    if part_count <= 0:
+        return 0
+    return math.comb(part_count + size - 1, size)
+
+
+def candidate_count(part_count: int, max_parts: int) -> int:
+    """Stacks of 1 … ``max_parts`` elements from ``part_count`` parts, repetition allowed."""
+    return sum(multiset_count(part_count, size) for size in range(1, max_parts + 1))
+
+
+def check_search_size(part_count: int, max_parts: int, *, force: bool = False) -> int:
+    """The candidate count, refusing an absurd search up front unless ``force``.
+
+    Raises
+    ------
+    SearchError
+        When the count exceeds :data:`CANDIDATE_LIMIT` and ``force`` is false; the message
+        gives the estimate and how to proceed.
+    """
+    count = candidate_count(part_count, max_parts)
+    if count > CANDIDATE_LIMIT and not force:
+        raise SearchError(
+            f"max_parts {max_parts} over {part_count} parts makes {count:.3g} candidate stacks "
+            f"(limit {CANDIDATE_LIMIT:.0e}); lower --max-parts, narrow --families, or pass --force"
+        )
+    return count
+
+
+def _nondecreasing_tuples(part_count: int, size: int) -> np.ndarray:
+    """All non-decreasing index tuples of ``size`` from ``range(part_count)``, sorted.
+
+    Built by prefixing each first index to the suffix of the (size−1)-table whose first
+    entry is not smaller; numpy concatenation per first index, not per tuple.
+    """
+    if size == 0:
+        return np.zeros((1, 0), dtype=np.int32)
+    tail = _nondecreasing_tuples(part_count, size - 1)
+    if size == 1:
+        return np.arange(part_count, dtype=np.int32)[:, None]
+    first_column = tail[:, 0]
+    blocks = []
+    for first in range(part_count):
+        suffix = tail[np.searchsorted(first_column, first) :]
+        blocks.append(np.concatenate([np.full((len(suffix), 1), first, np.int32), suffix], axis=1))
+    return np.concatenate(blocks, axis=0)
+
+
+def iterate_multisets(
+    part_count: int, max_parts: int, *, chunk_rows: int = DEFAULT_CHUNK_ROWS
+) -> Iterator[np.ndarray]:
+    """Every multiset of 1 … ``max_parts`` indices, in chunks of padded rows.
+
+    Parameters
+    ----------
+    part_count : int
+        Number of usable parts; indices run 0 … part_count − 1.
+    max_parts : int
+        Most elements in a stack.
+    chunk_rows : int
+        Upper bound on rows per chunk (a chunk of one size class may be smaller).
+
+    Yields
+    ------
+    ndarray of int32, shape (rows, max_parts)
+        Non-decreasing indices, padded with −1; smaller stacks come first.
+    """
+    for size in range(1, max_parts + 1):
+        if size == 1:
+            rows = np.arange(part_count, dtype=np.int32)[:, None]
+            yield _pad(rows, max_parts)
+            continue
+        tail = _nondecreasing_tuples(part_count, size - 1)
+        first_column = tail[:, 0]
+        starts = np.searchsorted(first_column, np.arange(part_count))
+        pending: list[np.ndarray] = []
+        pending_rows = 0
+        for first in range(part_count):
+            suffix = tail[starts[first] :]
+            block = np.empty((len(suffix), size), dtype=np.int32)
+            block[:, 0] = first
+            block[:, 1:] = suffix
+            pending.append(block)
+            pending_rows += len(block)
+            if pending_rows >= chunk_rows:
+                yield _pad(np.concatenate(pending, axis=0), max_parts)
+                pending, pending_rows = [], 0
+        if pending:
+            yield _pad(np.concatenate(pending, axis=0), max_parts)
+
+
+def _pad(rows: np.ndarray, width: int) -> np.ndarray:
+    if rows.shape[1] == width:
+        return rows
+    padded = np.full((rows.shape[0], width), -1, dtype=np.int32)
+    padded[:, : rows.shape[1]] = rows
+    return padded
+
+
+@dataclass(frozen=True)
+class UsableParts:
+    """The parts a search may use, and why each one is there.
+
+    Attributes
+    ----------
+    parts : PartSet
+        The usable parts only; stack indices refer to this set.
+    library_index : ndarray of int
+        Position of each usable part in the library's PartSet.
+    condition : ndarray of str
+        Per usable part, any condition attached to its use (e.g. from an approved list);
+        empty when none.
+    """
+
+    parts: PartSet
+    library_index: np.ndarray
+    condition: np.ndarray
+
+
+def usable_parts(
+    library: PartSet,
+    families: Sequence[str] | None = None,
+    usable_mask: np.ndarray | None = None,
+    condition_text: Sequence[str] | None = None,
+) -> UsableParts:
+    """Filter the library to the parts a search may use.
+
+    Parameters
+    ----------
+    library : PartSet
+        Every part in the library.
+    families : sequence of str, optional
+        Allowed families; None allows all.
+    usable_mask : array of bool, optional
+        Per library part, whether it may be used (e.g. on the approved list); None: all.
+    condition_text : sequence of str, optional
+        Per library part, a condition of use shown beside shortlist rows.
+
+    Raises
+    ------
+    SearchError
+        For an unknown family, an empty library, or a library left empty by the filter.
+    """
+    if len(library) == 0:
+        raise SearchError("the library holds no parts; add some with 'railwright parts import FILE.csv'")
+    keep = np.ones(len(library), dtype=bool)
+    if families is not None:
+        unknown = [family for family in families if family not in FAMILIES]
+        if unknown:
+            raise SearchError(f"unknown family '{unknown[0]}'; known: {', '.join(FAMILIES)}")
+        keep &= np.isin(library.family.astype(str), list(families))
+        if not keep.any():
+            raise SearchError(f"no part of the library is in the families {', '.join(families)}")
+    if usable_mask is not None:
+        mask = np.asarray(usable_mask, dtype=bool)
+        if mask.shape != (len(library),):
+            raise ValueError("usable_mask must hold one flag per library part")
+        keep &= mask
+        if not keep.any():
+            raise SearchError("no usable part is left after the approved-list filter")
+    index = np.flatnonzero(keep)
+    conditions = (
+        np.array([str(text or "") for text in condition_text], dtype=object)[index]
+        if condition_text is not None
+        else np.full(index.size, "", dtype=object)
+    )
+    return UsableParts(parts=library.take(index), library_index=index, condition=conditions)

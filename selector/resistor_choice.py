@@ -1,0 +1,171 @@
+"""Series-resistor choice of the physics contract, vectorised over many stacks.
+
+DESIGN §3: unless the user fixes R, it is the value of the spec's IEC 60063 series
+between 1 Ω and 10 MΩ (narrowed by the spec's resistor range), among feasible ones, with
+the least ``error_v``; ties within 1 nV go to the larger R.
+
+Only values inside each stack's provable resistor range
+(:func:`selector.stack_bounds.bound_stacks`, point 7) can be feasible, so only those are
+solved — every one of them, so the choice needs no assumption about the shape of
+``error_v(R)``. A stack with no feasible value gets the least-error design among those
+solved (the values nearest its range when the range is empty), so callers can report
+why it fails.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+
+from selector.corners import evaluate_designs
+from selector.errors import SearchError
+from selector.eseries import series_values
+from selector.partset import PartSet
+from selector.spec import RailSpec
+from selector.stack_bounds import StackBounds, bound_stacks, part_bound_tables
+from selector.units import format_quantity
+
+#: Ties in error closer than this go to the larger resistor (DESIGN §3) [V].
+TIE_WINDOW_V = 1e-9
+#: Contract limits of the resistor choice [Ω].
+CONTRACT_RESISTOR_RANGE_OHM = (1.0, 10e6)
+#: Designs per call of the corner evaluation (each is 32 operating points).
+DESIGNS_PER_CALL = 4096
+
+
+def candidate_resistors(spec: RailSpec) -> np.ndarray:
+    """The series values the choice may use, ascending [Ω] (one value if R is fixed)."""
+    if spec.resistor_fixed_ohm is not None:
+        return np.array([float(spec.resistor_fixed_ohm)])
+    low = max(CONTRACT_RESISTOR_RANGE_OHM[0], spec.resistor_min_ohm)
+    high = min(CONTRACT_RESISTOR_RANGE_OHM[1], spec.resistor_max_ohm)
+    values = series_values(spec.resistor_series, low, high)
+    if values.size == 0:
+        raise SearchError(
+            f"no {spec.resistor_series} value lies between {format_quantity(low, 'Ω')} and {format_quantity(high, 'Ω')}"
+        )
+    return values
+
+
+def resistor_slots(bounds: StackBounds, values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """First and last index into ``values`` inside each stack's provable range.
+
+    ``first > last`` where no value can be feasible.
+    """
+    first = np.searchsorted(values, bounds.resistor_low_ohm * (1 - 1e-12), side="left")
+    last = np.searchsorted(values, bounds.resistor_high_ohm * (1 + 1e-12), side="right") - 1
+    last = np.where(bounds.window_empty, first - 1, last)
+    return first, last
+
+
+def take_designs(evaluation, rows: np.ndarray):
+    """The evaluation restricted to some designs (every per-design array indexed)."""
+    count = len(evaluation.feasible)
+    taken = {}
+    for field in dataclasses.fields(evaluation):
+        value = getattr(evaluation, field.name)
+        if isinstance(value, np.ndarray) and value.ndim >= 1 and value.shape[0] == count:
+            value = value[rows]
+        taken[field.name] = value
+    return type(evaluation)(**taken)
+
+
+def concatenate_designs(evaluations: list):
+    """One evaluation holding the designs of several, in order."""
+    first = evaluations[0]
+    count = len(first.feasible)
+    joined = {}
+    for field in dataclasses.fields(first):
+        value = getattr(first, field.name)
+        if isinstance(value, np.ndarray) and value.ndim >= 1 and value.shape[0] == count:
+            value = np.concatenate([getattr(e, field.name) for e in evaluations], axis=0)
+        joined[field.name] = value
+    return type(first)(**joined)
+
+
+def evaluate_in_calls(parts: PartSet, stacks: np.ndarray, resistor_ohm: np.ndarray, spec: RailSpec):
+    """:func:`selector.corners.evaluate_designs` over many designs, a bounded batch at a time."""
+    pieces = [
+        evaluate_designs(parts, stacks[start : start + DESIGNS_PER_CALL], resistor_ohm[start : start + DESIGNS_PER_CALL], spec)
+        for start in range(0, len(stacks), DESIGNS_PER_CALL)
+    ]
+    return pieces[0] if len(pieces) == 1 else concatenate_designs(pieces)
+
+
+def design_slots(first: np.ndarray, last: np.ndarray, value_count: int) -> tuple[np.ndarray, np.ndarray]:
+    """The (stack, series index) designs to solve: every index of each stack's range.
+
+    A stack whose range is empty still gets designs to report: the two values nearest the
+    ends of its range (one when they coincide).
+    """
+    empty = first > last
+    top = value_count - 1
+    widths = np.where(empty, 0, last - first + 1)
+    ranged = np.repeat(np.arange(first.size), widths)
+    offsets = np.arange(ranged.size) - np.repeat(np.cumsum(widths) - widths, widths)
+    ranged_slot = first[ranged] + offsets
+    lonely = np.flatnonzero(empty)
+    ends = np.stack([np.clip(first[lonely], 0, top), np.clip(last[lonely], 0, top)], axis=1)
+    ends[:, 1] = np.where(ends[:, 1] == ends[:, 0], -1, ends[:, 1])
+    keep = ends.ravel() >= 0
+    stack_of_design = np.concatenate([ranged, np.repeat(lonely, 2)[keep]])
+    slot = np.concatenate([ranged_slot, ends.ravel()[keep]])
+    order = np.argsort(stack_of_design, kind="stable")
+    return stack_of_design[order], slot[order]
+
+
+def pick_per_stack(stack_of_design: np.ndarray, resistor_ohm: np.ndarray, feasible: np.ndarray, error_v: np.ndarray, stack_count: int) -> np.ndarray:
+    """Index of the chosen design of each stack among solved (stack, resistor) designs.
+
+    Feasible designs first; among them the least error, and of those within
+    :data:`TIE_WINDOW_V` of it the largest resistor. A stack with no feasible design gets
+    its least-error design (ties again to the larger resistor).
+    """
+    has_feasible = np.zeros(stack_count, dtype=bool)
+    np.logical_or.at(has_feasible, stack_of_design, feasible)
+    eligible = feasible | ~has_feasible[stack_of_design]
+    best_error = np.full(stack_count, np.inf)
+    np.minimum.at(best_error, stack_of_design[eligible], error_v[eligible])
+    tied = eligible & (error_v <= best_error[stack_of_design] + TIE_WINDOW_V)
+    order = np.lexsort((-resistor_ohm, ~tied, stack_of_design))
+    first_of_stack = np.ones(order.size, dtype=bool)
+    first_of_stack[1:] = stack_of_design[order[1:]] != stack_of_design[order[:-1]]
+    chosen = np.full(stack_count, -1, dtype=np.intp)
+    chosen[stack_of_design[order[first_of_stack]]] = order[first_of_stack]
+    return chosen
+
+
+def choose_resistors(parts: PartSet, stacks: np.ndarray, spec: RailSpec, *, bounds: StackBounds | None = None):
+    """Choose each stack's series resistor per DESIGN §3 and evaluate the result.
+
+    Parameters
+    ----------
+    parts : PartSet
+    stacks : int array (n, max_len)
+        Part indices, padded with −1.
+    spec : RailSpec
+        Series, resistor range or fixed value, and everything the corners need.
+    bounds : StackBounds, optional
+        Bounds already computed for these stacks (the search passes them).
+
+    Returns
+    -------
+    resistor_ohm : array (n,) [Ω]
+        The chosen value (for an infeasible stack: the value of the design returned).
+    evaluation : DesignEvaluation
+        The chosen designs' evaluation, one per stack, in order.
+    """
+    stacks = np.atleast_2d(np.asarray(stacks, dtype=np.intp))
+    count = stacks.shape[0]
+    values = candidate_resistors(spec)
+    if spec.resistor_fixed_ohm is not None:
+        resistor = np.full(count, values[0])
+        return resistor, evaluate_in_calls(parts, stacks, resistor, spec)
+    if bounds is None:
+        bounds = bound_stacks(part_bound_tables(parts, spec), stacks, spec)
+    stack_of_design, slot = design_slots(*resistor_slots(bounds, values), values.size)
+    resistor_of_design = values[slot]
+    evaluation = evaluate_in_calls(parts, stacks[stack_of_design], resistor_of_design, spec)
+    chosen = pick_per_stack(stack_of_design, resistor_of_design, evaluation.feasible, evaluation.error_v, count)
+    return resistor_of_design[chosen], take_designs(evaluation, chosen)

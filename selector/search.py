@@ -1,0 +1,312 @@
+"""Exhaustive search of a parts library for stacks that hold a rail (issue 4).
+
+Every multiset of up to ``max_parts`` usable parts is a candidate
+(:mod:`selector.candidates`). Each is bounded by gathers and sums
+(:mod:`selector.stack_bounds`) and dropped only where the bounds prove that no series
+resistor makes it feasible, or — once the shortlist is full — that its rank key cannot
+beat the shortlist's last entry (:func:`selector.ranking.beats_threshold`). Every other
+candidate is solved exactly at all 32 corners with its resistor chosen per DESIGN §3
+(:mod:`selector.resistor_choice`). Survivors are solved in order of their lower-bound
+key, so the shortlist fills with good designs early and the threshold tightens fast.
+"""
+
+from __future__ import annotations
+
+import multiprocessing
+import os
+import time
+from collections import Counter
+from collections.abc import Callable, Sequence
+from concurrent.futures import ProcessPoolExecutor
+from dataclasses import asdict, dataclass, field
+
+import numpy as np
+
+from selector.candidates import check_search_size, iterate_multisets, usable_parts
+from selector.partset import PartSet
+from selector.ranking import (
+    DEFAULT_RESOLUTION_V,
+    beats_threshold,
+    key_columns,
+    quantised_error,
+    rank_order,
+    sort_designs,
+)
+from selector.resistor_choice import (
+    candidate_resistors,
+    choose_resistors,
+    concatenate_designs,
+    design_slots,
+    resistor_slots,
+    take_designs,
+)
+from selector.spec import RailSpec
+from selector.stack_bounds import bound_stacks, part_bound_tables
+
+#: Stacks solved per batch; the pruning threshold is updated between batches.
+BATCH_STACKS = 3000
+#: Below this many survivors a process pool costs more than it saves.
+PARALLEL_THRESHOLD = 4 * BATCH_STACKS
+
+REASON_WINDOW = "no current is both enough and within a part's power or current limit"
+REASON_RESISTOR = "no series-resistor value can give every corner enough current within limits"
+REASON_RANK = "cannot rank above the shortlist (error bound)"
+
+
+@dataclass
+class SearchSummary:
+    """What a search did: counts by outcome, the spec, the time taken.
+
+    Attributes
+    ----------
+    considered : int
+        Candidate stacks enumerated.
+    pruned : dict of str to int
+        Stacks dropped by a proven bound, per reason.
+    solved : int
+        Stacks solved exactly (each at every series value in its resistor range).
+    designs_solved : int
+        (stack, resistor) designs solved at all corners.
+    infeasible : dict of str to int
+        Solved stacks with no feasible resistor, per reason of their closest design.
+    feasible, meeting : int
+        Solved stacks with a feasible design, and those that meet the spec.
+    spec : RailSpec
+    elapsed_s : float [s]
+    part_count : int
+        Usable parts searched.
+    """
+
+    considered: int = 0
+    pruned: dict[str, int] = field(default_factory=dict)
+    solved: int = 0
+    designs_solved: int = 0
+    infeasible: dict[str, int] = field(default_factory=dict)
+    feasible: int = 0
+    meeting: int = 0
+    spec: RailSpec | None = None
+    elapsed_s: float = 0.0
+    part_count: int = 0
+
+    @property
+    def main_rejection(self) -> str | None:
+        """The reason that rejected the most candidates (pruned or solved), if any."""
+        tally = Counter(self.pruned) + Counter(self.infeasible)
+        tally.pop(REASON_RANK, None)
+        return tally.most_common(1)[0][0] if tally else None
+
+    def as_dict(self) -> dict:
+        """A JSON-able form (the spec as field → value in SI units)."""
+        spec = {k: list(v) if isinstance(v, tuple) else v for k, v in asdict(self.spec).items()} if self.spec else None
+        return {
+            "considered": self.considered,
+            "pruned": dict(self.pruned),
+            "solved": self.solved,
+            "designs_solved": self.designs_solved,
+            "infeasible": dict(self.infeasible),
+            "feasible": self.feasible,
+            "meeting": self.meeting,
+            "part_count": self.part_count,
+            "main_rejection": self.main_rejection,
+            "elapsed_s": self.elapsed_s,
+            "spec": spec,
+        }
+
+
+@dataclass
+class Shortlist:
+    """The best feasible designs so far, at most ``top``, in rank order."""
+
+    top: int
+    order: tuple[str, ...]
+    resolution_v: float
+    stacks: np.ndarray
+    resistor_ohm: np.ndarray
+    evaluation: object | None = None
+
+    def merge(self, stacks, resistor_ohm, evaluation) -> None:
+        """Add feasible designs and keep the best ``top``."""
+        if self.evaluation is not None:
+            evaluation = concatenate_designs([self.evaluation, evaluation])
+            stacks = np.concatenate([self.stacks, stacks])
+            resistor_ohm = np.concatenate([self.resistor_ohm, resistor_ohm])
+        ties = [stacks[:, column] for column in range(stacks.shape[1])] + [resistor_ohm]
+        order = sort_designs(
+            evaluation.meets, evaluation.error_v, evaluation.margin, (stacks >= 0).sum(axis=1),
+            ties, order=self.order, resolution_v=self.resolution_v,
+        )[: self.top]
+        self.stacks, self.resistor_ohm = stacks[order], resistor_ohm[order]
+        self.evaluation = take_designs(evaluation, order)
+
+    @property
+    def full(self) -> bool:
+        return self.evaluation is not None and len(self.resistor_ohm) >= self.top
+
+    def threshold(self) -> list[float]:
+        """The rank key of the last entry (meets flag first)."""
+        e = self.evaluation
+        keys = key_columns(e.meets[-1:], e.error_v[-1:], e.margin[-1:], (self.stacks[-1:] >= 0).sum(axis=1), self.order, self.resolution_v)
+        return [float(k[0]) for k in keys]
+
+
+def lower_bound_keys(error_lower_v, parts, spec: RailSpec, order, resolution_v) -> list[np.ndarray]:
+    """Lower bounds of each rank-key component for stacks (see :mod:`selector.ranking`).
+
+    ``meets`` cannot hold where the error bound exceeds the tolerance; the error key is
+    monotone in the error; margin is at most 1, so its key (−margin) is at least −1; the
+    part count is exact.
+    """
+    by_name = {
+        "error": quantised_error(error_lower_v, resolution_v),
+        "margin": np.full(error_lower_v.shape, -1.0),
+        "parts": parts.astype(float),
+    }
+    return [(error_lower_v > spec.tolerance_v).astype(float)] + [by_name[name] for name in order]
+
+
+def stack_texts(parts: PartSet, stacks: np.ndarray) -> np.ndarray:
+    """Canonical stack notation of each row, e.g. ``'Z4V7 + 2*D1'``."""
+    from selector.stack_notation import format_stack
+
+    names = parts.part
+    return np.array([format_stack(names[row[row >= 0]]) for row in stacks], dtype=object)
+
+
+def _solve_batch(parts: PartSet, spec: RailSpec, stacks: np.ndarray, tables):
+    """Choose and evaluate the resistor of each stack; also the number of designs solved."""
+    bounds = bound_stacks(tables, stacks, spec)
+    resistor, evaluation = choose_resistors(parts, stacks, spec, bounds=bounds)
+    if spec.resistor_fixed_ohm is not None:
+        return resistor, evaluation, len(stacks)
+    values = candidate_resistors(spec)
+    designs = design_slots(*resistor_slots(bounds, values), values.size)[0].size
+    return resistor, evaluation, designs
+
+
+def _reason_texts(evaluation) -> np.ndarray:
+    reason = np.asarray(evaluation.reason)
+    names = getattr(evaluation, "reason_names", None) or getattr(evaluation, "names", None)
+    if reason.dtype.kind in "iu" and names is not None:
+        return np.asarray(names, dtype=object)[reason]
+    return reason.astype(object)
+
+
+def survey_candidates(parts: PartSet, spec: RailSpec, tables, summary: SearchSummary):
+    """Enumerate and bound every candidate; returns the survivors and their bounds."""
+    values = candidate_resistors(spec)
+    kept_stacks, kept_error = [], []
+    pruned = Counter()
+    for chunk in iterate_multisets(len(parts), spec.max_parts):
+        summary.considered += chunk.shape[0]
+        bounds = bound_stacks(tables, chunk, spec)
+        first, last = resistor_slots(bounds, values)
+        window = bounds.window_empty
+        no_resistor = ~window & (first > last) & (spec.resistor_fixed_ohm is None)
+        pruned[REASON_WINDOW] += int(window.sum())
+        pruned[REASON_RESISTOR] += int(no_resistor.sum())
+        keep = ~(window | no_resistor)
+        kept_stacks.append(chunk[keep])
+        kept_error.append(bounds.error_lower_v[keep])
+    summary.pruned.update({k: v for k, v in pruned.items() if v})
+    return np.concatenate(kept_stacks), np.concatenate(kept_error)
+
+
+def search_library(
+    library_parts: PartSet,
+    spec: RailSpec,
+    *,
+    top: int = 10,
+    rank_by: Sequence[str] | str | None = None,
+    resolution_v: float = DEFAULT_RESOLUTION_V,
+    usable_mask: np.ndarray | None = None,
+    conditions: Sequence[str] | None = None,
+    force: bool = False,
+    workers: int | None = None,
+    progress: Callable[[int, int], None] | None = None,
+):
+    """Search every candidate stack; returns ``(shortlist, usable, summary)``.
+
+    Parameters
+    ----------
+    library_parts : PartSet
+        The whole library.
+    spec : RailSpec
+    top : int
+        Shortlist length.
+    rank_by : str or sequence of str, optional
+        Key order after ``meets`` (:func:`selector.ranking.rank_order`).
+    resolution_v : float [V]
+        Error quantum of the ranking.
+    usable_mask, conditions : optional
+        Per library part, whether it may be used and the condition shown with it.
+    force : bool
+        Search even when the candidate count is above the sane limit.
+    workers : int, optional
+        Processes for exact solving (default: the machine's cores, at most 2… cores).
+    progress : callable(done, total), optional
+        Called as survivors are solved.
+    """
+    from selector.errors import OptionError
+
+    started = time.perf_counter()
+    if top < 1:
+        raise OptionError(f"--top: must be at least 1, not {top}")
+    order = rank_order(rank_by)
+    quantised_error(np.zeros(1), resolution_v)
+    usable = usable_parts(library_parts, spec.families, usable_mask, conditions)
+    parts = usable.parts
+    summary = SearchSummary(spec=spec, part_count=len(parts))
+    check_search_size(len(parts), spec.max_parts, force=force)
+    tables = part_bound_tables(parts, spec)
+    stacks, error_lower = survey_candidates(parts, spec, tables, summary)
+    part_counts = (stacks >= 0).sum(axis=1)
+    lower_keys = lower_bound_keys(error_lower, part_counts, spec, order, resolution_v)
+    sequence = np.lexsort(lower_keys[::-1])
+    stacks, lower_keys = stacks[sequence], [k[sequence] for k in lower_keys]
+
+    shortlist = Shortlist(top, order, resolution_v, stacks[:0], np.zeros(0))
+    infeasible = Counter()
+    batches = [slice(s, min(s + BATCH_STACKS, len(stacks))) for s in range(0, len(stacks), BATCH_STACKS)]
+    worker_count = workers if workers is not None else min(os.cpu_count() or 1, 2)
+    pool = None
+    if worker_count > 1 and len(stacks) >= PARALLEL_THRESHOLD:
+        pool = ProcessPoolExecutor(worker_count, mp_context=multiprocessing.get_context("fork"))
+    rank_pruned = 0
+    try:
+        position = 0
+        while position < len(batches):
+            group = batches[position : position + (worker_count if pool else 1)]
+            position += len(group)
+            selected = []
+            for piece in group:
+                keep = np.ones(piece.stop - piece.start, dtype=bool)
+                if shortlist.full:
+                    keep = ~beats_threshold([k[piece] for k in lower_keys], shortlist.threshold())
+                rank_pruned += int((~keep).sum())
+                if keep.any():
+                    selected.append(stacks[piece][keep])
+            if pool is not None and len(selected) > 1:
+                count = len(selected)
+                results = list(pool.map(_solve_batch, [parts] * count, [spec] * count, selected, [tables] * count))
+            else:
+                results = [_solve_batch(parts, spec, s, tables) for s in selected]
+            for batch_stacks, (resistor, evaluation, designs) in zip(selected, results, strict=True):
+                summary.solved += len(batch_stacks)
+                summary.designs_solved += designs
+                feasible = np.asarray(evaluation.feasible, dtype=bool)
+                infeasible.update(_reason_texts(evaluation)[~feasible].tolist())
+                summary.feasible += int(feasible.sum())
+                summary.meeting += int(np.asarray(evaluation.meets)[feasible].sum())
+                if feasible.any():
+                    rows = np.flatnonzero(feasible)
+                    shortlist.merge(batch_stacks[rows], resistor[rows], take_designs(evaluation, rows))
+            if progress is not None:
+                progress(batches[position - 1].stop, len(stacks))
+    finally:
+        if pool is not None:
+            pool.shutdown()
+    if rank_pruned:
+        summary.pruned[REASON_RANK] = rank_pruned
+    summary.infeasible = dict(infeasible)
+    summary.elapsed_s = time.perf_counter() - started
+    return shortlist, usable, summary

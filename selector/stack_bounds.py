@@ -1,0 +1,403 @@
+"""Provable bounds on a stack's rail voltage, current window and series resistor.
+
+The search prunes a candidate stack only when these bounds prove that no series-resistor
+value can make it feasible, or that its worst-case error cannot beat the shortlist so
+far. Every bound holds for every *feasible* design (DESIGN §3), so pruning never loses a
+feasible design. Infeasible designs are never shortlisted, so they need no bound.
+
+Why the bounds hold
+-------------------
+1. *Junction range.* At a feasible design every element's margin is at least
+   ``min_margin`` ``m``, so its power is ``P ≤ (1 − m)·P_max(Ta)`` and its junction
+   ``Tj = Ta + θ·P`` is at most ``Ta + θ·(1 − m)·P_max(Ta)``. Below, ``Tj ≥ Ta + θ·V·I``
+   with a forward element's ``V ≥ −vf_tol`` (its log and ohmic terms are ≥ 0), so at a
+   current ``I`` the junction is at least ``Ta − θ·vf_tol·I``. A zener whose bound
+   comes out negative (no physical breakdown there) gets no bound at all.
+2. *Current window.* Feasibility needs ``I ≥ floor = max(min_current, every element's
+   i_min_a)`` at every corner. Above, ``I ≤ if_max_a`` and ``I·V ≤ (1 − m)·P_max``; with
+   ``V ≥ V_low(I)`` (the least voltage at that current over the junction range, which is
+   non-decreasing in ``I``) the product ``I·V_low(I)`` is non-decreasing, so once it
+   exceeds the allowed power at some ``I*`` every larger current is infeasible:
+   ``I < I*``. The stack's window is the floor of its largest element floor and the cap
+   of its smallest element cap.
+3. *Voltage at fixed temperature versus current.* A forward element's
+   ``∂V/∂I = n·Vt/(I + Is) + rs > 0`` (``rs ≥ 0``). A zener's ``∂V/∂I = a/I + rz`` with
+   ``rz ≥ 0``: increasing when ``a ≥ 0``; convex (``∂²V/∂I² = −a/I² > 0``) when ``a < 0``,
+   with its least value at ``I = −a/rz``. Either way the extremes over a current interval
+   are at the ends, or at ``−a/rz`` for the least value of a convex curve.
+4. *Voltage at fixed current versus temperature.* A zener is linear in ``Tj``: the ends
+   of the range. A forward element's ``V − I·rs − s·vf_tol = A(T)·B(T)`` with
+   ``A = n·Vt(T)`` increasing and ``B = ln(1 + I/Is(T))`` decreasing (``ln Is`` has the
+   slope ``(xti·Vt + eg)/(n·Vt·T) > 0`` when ``xti·Vt + eg > 0``). On each of
+   ``K`` slices ``[t₀, t₁]`` of the range, ``A(t₀)·B(t₁) ≤ A·B ≤ A(t₁)·B(t₀)``; where in
+   addition ``A(t₁)·B(t₀) ≤ f(t₁)·(xti·Vt + eg)`` (``f = I/(I + Is)``, decreasing) the
+   slope ``∂V/∂T = (n·Vt·B − f·(xti·Vt + eg))/T`` is ≤ 0 throughout and the ends are exact.
+5. *Sums.* Elements share one current; each element's voltage lies in its own bounds over
+   the stack's current window, so the stack voltage lies in the sum of the bounds. This
+   holds per ambient and tolerance sign, so each of the four (ambient, sign) classes of
+   corners has its own rail interval ``[ΣL, ΣU]``.
+6. *Error.* Some corner of class ``c`` has ``Vout ≥ ΣL_c`` and some corner of class ``c'``
+   has ``Vout ≤ ΣU_c'``, so ``error_v ≥ max(ΣL_c − target, target − ΣU_c',
+   (ΣL_c − ΣU_c')/2)`` over every pair of classes.
+7. *Resistor.* At the supply minimum, the most load and ``R·(1 + tol)`` the current
+   ``(Vin − Vout)/R_c − I_L`` must reach the floor, so ``R ≤ (Vin_min − ΣL)/((1 + tol)·
+   (floor + I_L,most))``. At the supply maximum, least load and ``R·(1 − tol)`` it must
+   stay below the cap, and the resistor's own dissipation ``(Vin − Vout)²/R_c`` below
+   ``(1 − m)·rating``, which give lower limits on ``R``.
+
+A small slack (:data:`VOLTAGE_SLACK_V`) widens every voltage bound so that the solver's
+own convergence tolerance can never make a bound cut a design it should keep.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from selector.devices import (
+    element_voltage_slopes,
+    forward_log_saturation_current,
+    thermal_voltage_v,
+)
+from selector.partset import PartSet
+from selector.spec import RailSpec
+
+#: Widening of every voltage bound [V]: far above the solver's residual, far below a mV.
+VOLTAGE_SLACK_V = 1e-7
+#: Temperature slices for the forward element's bound (point 4 of the module docstring).
+TEMPERATURE_SLICES = 24
+#: Smallest current used in place of zero [A]; the solver rejects currents below 1 fA.
+CURRENT_FLOOR_A = 1e-300
+#: The (ambient, tolerance sign) classes of corners, in this order.
+CLASS_SIGNS = (-1.0, 1.0, -1.0, 1.0)
+
+
+def class_ambients(spec: RailSpec) -> tuple[float, float, float, float]:
+    """Ambient [°C] of each corner class, matching :data:`CLASS_SIGNS`."""
+    return (spec.ambient_min_c, spec.ambient_min_c, spec.ambient_max_c, spec.ambient_max_c)
+
+
+def load_current_ranges(spec: RailSpec, vout_low_v, vout_high_v):
+    """Bounds on the load current at the least-load and the most-load corners [A].
+
+    Returns ``(least_high, most_low)``: an upper bound on the load current at the corner
+    with the least load, and a lower bound at the corner with the most load, for rail
+    voltages within ``[vout_low_v, vout_high_v]`` (``I_L = Vout/R_L`` for a resistor).
+    """
+    if spec.load_kind == "resistance":
+        least_high = np.maximum(vout_high_v, 0.0) / spec.load_max
+        most_low = np.maximum(vout_low_v, 0.0) / spec.load_min
+        return least_high, most_low
+    return np.full(np.shape(vout_low_v), spec.load_min), np.full(np.shape(vout_low_v), spec.load_max)
+
+
+def voltage_range_fixed_current(
+    parts: PartSet,
+    part_index: np.ndarray,
+    current_a: np.ndarray,
+    ambient_c: np.ndarray,
+    junction_high_c: np.ndarray,
+    tolerance_sign: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Sound bounds on an element's voltage at a fixed current over its junction range.
+
+    Points 1 and 4 of the module docstring: the junction runs from
+    ``Ta − θ·vf_tol·I`` to ``junction_high_c``. Voltages come from
+    :func:`selector.devices.element_voltage_slopes`; this function only brackets them.
+
+    Parameters
+    ----------
+    parts : PartSet
+    part_index : int array (m,)
+    current_a : array (m,) [A]
+    ambient_c : array (m,) [°C]
+    junction_high_c : array (m,) [°C]
+        Top of the junction range.
+    tolerance_sign : array (m,) [1]
+
+    Returns
+    -------
+    low_v, high_v : array (m,) [V]
+        ``low ≤ V(I, T) ≤ high`` for every ``T`` in the range (before slack); ±inf where
+        no bound holds.
+    """
+    part_index, current, ambient, t_high, sign = np.broadcast_arrays(
+        np.asarray(part_index, dtype=np.intp), current_a, ambient_c, junction_high_c, tolerance_sign
+    )
+    t_low = ambient - parts.theta_ja_k_per_w[part_index] * parts.vf_tol_v[part_index] * current
+    t_high = np.maximum(t_high, t_low)
+    v_low, _, _ = element_voltage_slopes(parts, part_index, current, t_low, sign)
+    v_high, _, _ = element_voltage_slopes(parts, part_index, current, t_high, sign)
+    low = np.minimum(v_low, v_high)
+    high = np.maximum(v_low, v_high)
+    forward = ~parts.is_zener[part_index]
+    if forward.any():
+        f_low, f_high = _forward_temperature_range(
+            parts, part_index[forward], current[forward], t_low[forward], t_high[forward], sign[forward]
+        )
+        low[forward], high[forward] = f_low, f_high
+    zener = parts.is_zener[part_index]
+    low = np.where(zener & (low < 0), -np.inf, low)
+    high = np.where(zener & (high < 0), np.inf, high)
+    return low, high
+
+
+def _forward_temperature_range(parts, index, current, t_low, t_high, sign):
+    slices = TEMPERATURE_SLICES
+    fraction = np.linspace(0.0, 1.0, slices + 1)
+    temperature = t_low[:, None] + (t_high - t_low)[:, None] * fraction[None, :]
+    shape = temperature.shape
+    index_grid = np.broadcast_to(index[:, None], shape)
+    current_grid = np.broadcast_to(current[:, None], shape)
+    core_v, _, _ = element_voltage_slopes(parts, index_grid, current_grid, temperature, 0.0)
+    rs = parts.rs_ohm[index][:, None]
+    core_v = core_v - current_grid * rs
+    n = parts.n[index][:, None]
+    a_factor = n * thermal_voltage_v(temperature)
+    b_factor = core_v / a_factor
+    eg = parts.eg_ev[index][:, None]
+    xti = parts.xti[index][:, None]
+    log_is = forward_log_saturation_current(
+        temperature, parts.is_a[index][:, None], n, eg, xti, parts.tnom_c[index][:, None]
+    )
+    conducting = 1.0 / (1.0 + np.exp(np.clip(log_is - np.log(current_grid), -700.0, 700.0)))
+    vt = thermal_voltage_v(temperature)
+    gap_term = xti * vt + eg
+    # Point 4: B decreasing needs xti·Vt + eg > 0 across the range; else no bound.
+    ordered = np.all(gap_term > 0, axis=1)
+    lower_slice = a_factor[:, :-1] * b_factor[:, 1:]
+    upper_slice = a_factor[:, 1:] * b_factor[:, :-1]
+    falling = upper_slice <= conducting[:, 1:] * np.minimum(gap_term[:, :-1], gap_term[:, 1:])
+    lower_slice = np.where(falling, core_v[:, 1:], lower_slice)
+    upper_slice = np.where(falling, core_v[:, :-1], upper_slice)
+    offset = current * parts.rs_ohm[index] + sign * parts.vf_tol_v[index]
+    low = np.where(ordered, lower_slice.min(axis=1), -np.inf) + offset
+    high = np.where(ordered, upper_slice.max(axis=1), np.inf) + offset
+    return low, high
+
+
+@dataclass(frozen=True)
+class PartBoundTables:
+    """Per-part voltage bounds, tabulated for every possible stack current window.
+
+    Attributes
+    ----------
+    floors_a : array (F,) [A]
+        Every distinct current floor a stack can have, ascending.
+    floor_index : int array (n_parts + 1,)
+        Each part's own floor in ``floors_a`` (last entry: padding, the spec's floor).
+    caps_a : array (4, G) [A]
+        Per corner class, every distinct current cap, ascending (``inf`` allowed).
+    cap_index : int array (4, n_parts + 1)
+        Each part's own cap in ``caps_a`` (padding: the largest).
+    lower_v : array (4, n_parts + 1, F) [V]
+        Least voltage of the part at currents from ``floors_a[f]`` up to its cap.
+    upper_v : array (4, n_parts + 1, G) [V]
+        Greatest voltage at currents from its floor up to ``caps_a[c, g]``.
+    """
+
+    floors_a: np.ndarray
+    floor_index: np.ndarray
+    caps_a: np.ndarray
+    cap_index: np.ndarray
+    lower_v: np.ndarray
+    upper_v: np.ndarray
+
+
+def _junction_ranges(parts: PartSet, spec: RailSpec) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Per class and part: ambient, top junction temperature [°C] and allowed power [W]."""
+    ambient = np.array(class_ambients(spec))[:, None]
+    theta = parts.theta_ja_k_per_w[None, :]
+    p_max = np.minimum(parts.pd_w[None, :], (parts.tj_max_c[None, :] - ambient) / theta)
+    allowed = np.maximum((1.0 - spec.min_margin) * p_max, 0.0)
+    return np.broadcast_to(ambient, allowed.shape), ambient + theta * allowed, allowed
+
+
+def _class_grid(parts: PartSet, count: int):
+    part = np.broadcast_to(np.arange(len(parts))[None, :], (4, len(parts)))
+    sign = np.broadcast_to(np.array(CLASS_SIGNS)[:, None], (4, len(parts)))
+    return part, sign
+
+
+def _least_voltage(parts, part, current, t_low, t_high, sign, cap):
+    """Least voltage over currents from ``current`` to ``cap`` (point 3)."""
+    low, _ = voltage_range_fixed_current(parts, part, current, t_low, t_high, sign)
+    a_v = parts.zener_a_v[part]
+    rz = parts.zener_rz_ohm[part]
+    convex = parts.is_zener[part] & (a_v < 0) & (rz > 0)
+    if convex.any():
+        turning = np.clip(-a_v / np.where(convex, rz, 1.0), current, np.maximum(cap, current))
+        low_turn, _ = voltage_range_fixed_current(parts, part, turning, t_low, t_high, sign)
+        low = np.where(convex, np.minimum(low, low_turn), low)
+    return low
+
+
+def _dissipation_caps(parts, part, floor, t_low, t_high, sign, allowed):
+    """Point 2: a current above which ``I·V_low(I)`` exceeds the allowed power [A]."""
+    low = np.log(floor)
+    high = np.full(floor.shape, np.log(1e3))
+    for _ in range(60):
+        middle = 0.5 * (low + high)
+        current = np.exp(middle)
+        too_hot = current * _least_voltage(parts, part, current, t_low, t_high, sign, current) > allowed
+        high = np.where(too_hot, middle, high)
+        low = np.where(too_hot, low, middle)
+    cap = np.exp(high)
+    at_top = cap * _least_voltage(parts, part, cap, t_low, t_high, sign, cap) <= allowed
+    return np.where(at_top, np.inf, cap)
+
+
+def part_bound_tables(parts: PartSet, spec: RailSpec) -> PartBoundTables:
+    """Tabulate every part's voltage bounds for every possible stack current window.
+
+    A stack's floor is one of the parts' floors and its cap one of their caps, so
+    tabulating per part over those finitely many values lets the search bound millions of
+    stacks by gathers and sums alone (module docstring, points 1–5).
+    """
+    count = len(parts)
+    part_floor = np.maximum(np.maximum(spec.min_current_a, parts.i_min_a), CURRENT_FLOOR_A)
+    floors = np.unique(np.append(part_floor, max(spec.min_current_a, CURRENT_FLOOR_A)))
+    floor_index = np.append(np.searchsorted(floors, part_floor), 0)
+
+    part, sign = _class_grid(parts, count)
+    ambient, t_top, allowed = _junction_ranges(parts, spec)
+    floor_grid = np.broadcast_to(part_floor[None, :], (4, count))
+    cap = _dissipation_caps(parts, part, floor_grid, ambient, t_top, sign, allowed)
+    cap = np.minimum(cap, parts.if_max_a[None, :])
+    cap = np.where(allowed > 0, cap, 0.0)
+
+    lower = np.zeros((4, count + 1, floors.size))
+    upper = np.zeros((4, count + 1, count))
+    caps = np.sort(cap, axis=1)
+    cap_index = np.zeros((4, count + 1), dtype=np.intp)
+    for corner_class in range(4):
+        cap_index[corner_class, :count] = np.searchsorted(caps[corner_class], cap[corner_class])
+        cap_index[corner_class, count] = count - 1
+    shape_f = (4, count, floors.size)
+    current_f = np.broadcast_to(np.maximum(floors[None, None, :], part_floor[None, :, None]), shape_f)
+    broad = {
+        name: np.broadcast_to(values[:, :, None], shape_f)
+        for name, values in (("part", part), ("sign", sign), ("t_low", ambient), ("t_top", t_top), ("cap", cap))
+    }
+    lower[:, :count, :] = _least_voltage(
+        parts, broad["part"].ravel(), current_f.ravel(), broad["t_low"].ravel(), broad["t_top"].ravel(),
+        broad["sign"].ravel(), broad["cap"].ravel(),
+    ).reshape(shape_f)
+    shape_g = (4, count, count)
+    top_current = np.minimum(caps[:, None, :], cap[:, :, None])
+    top_current = np.maximum(np.where(np.isfinite(top_current), top_current, 1e3), part_floor[None, :, None])
+    grid = {
+        name: np.broadcast_to(values[:, :, None], shape_g).ravel()
+        for name, values in (("part", part), ("sign", sign), ("t_low", ambient), ("t_top", t_top))
+    }
+    _, high_top = voltage_range_fixed_current(
+        parts, grid["part"], top_current.ravel(), grid["t_low"], grid["t_top"], grid["sign"]
+    )
+    bottom = np.broadcast_to(part_floor[None, :, None], shape_g).ravel()
+    _, high_bottom = voltage_range_fixed_current(parts, grid["part"], bottom, grid["t_low"], grid["t_top"], grid["sign"])
+    high = np.maximum(high_top, high_bottom).reshape(shape_g)
+    unbounded = ~np.isfinite(np.minimum(caps[:, None, :], cap[:, :, None]))
+    upper[:, :count, :] = np.where(unbounded, np.inf, high)
+    return PartBoundTables(
+        floors_a=floors,
+        floor_index=floor_index,
+        caps_a=caps,
+        cap_index=cap_index,
+        lower_v=lower - VOLTAGE_SLACK_V,
+        upper_v=upper + VOLTAGE_SLACK_V,
+    )
+
+
+@dataclass(frozen=True)
+class StackBounds:
+    """Bounds for many stacks, each valid for every feasible design of that stack.
+
+    Attributes
+    ----------
+    vout_lower_v, vout_upper_v : array (n, 4) [V]
+        Rail interval of each corner class (module docstring, point 5).
+    floor_a : array (n,) [A]
+        Least stack current feasibility needs.
+    cap_a : array (n, 4) [A]
+        Current no feasible corner of the class exceeds.
+    error_lower_v : array (n,) [V]
+        Lower bound on ``error_v`` at any resistor (point 6).
+    resistor_low_ohm, resistor_high_ohm : array (n,) [Ω]
+        Every feasible series resistor lies in this range (point 7).
+    window_empty : array (n,) of bool
+        The floor exceeds a cap: no current is both enough and safe.
+    """
+
+    vout_lower_v: np.ndarray
+    vout_upper_v: np.ndarray
+    floor_a: np.ndarray
+    cap_a: np.ndarray
+    error_lower_v: np.ndarray
+    resistor_low_ohm: np.ndarray
+    resistor_high_ohm: np.ndarray
+    window_empty: np.ndarray
+
+
+def bound_stacks(tables: PartBoundTables, stacks: np.ndarray, spec: RailSpec) -> StackBounds:
+    """Bound many stacks at once by gathers and sums over :class:`PartBoundTables`.
+
+    Parameters
+    ----------
+    tables : PartBoundTables
+        From :func:`part_bound_tables` for the same parts and spec.
+    stacks : int array (n, max_len)
+        Part indices, padded with −1.
+    spec : RailSpec
+
+    Returns
+    -------
+    StackBounds
+    """
+    padding = tables.floor_index.size - 1
+    elements = np.where(stacks >= 0, stacks, padding)
+    floor_slot = tables.floor_index[elements].max(axis=1)
+    floor = tables.floors_a[floor_slot]
+    lower = np.empty((stacks.shape[0], 4))
+    upper = np.empty((stacks.shape[0], 4))
+    cap = np.empty((stacks.shape[0], 4))
+    for corner_class in range(4):
+        cap_slot = tables.cap_index[corner_class][elements].min(axis=1)
+        cap[:, corner_class] = tables.caps_a[corner_class][cap_slot]
+        lower[:, corner_class] = tables.lower_v[corner_class][elements, floor_slot[:, None]].sum(axis=1)
+        upper[:, corner_class] = tables.upper_v[corner_class][elements, cap_slot[:, None]].sum(axis=1)
+    window_empty = (floor[:, None] > cap).any(axis=1)
+
+    highest_lower = lower.max(axis=1)
+    lowest_upper = upper.min(axis=1)
+    with np.errstate(invalid="ignore"):
+        error_lower = np.maximum.reduce([
+            highest_lower - spec.target_v,
+            spec.target_v - lowest_upper,
+            0.5 * (highest_lower - lowest_upper),
+            np.zeros_like(highest_lower),
+        ])
+    error_lower = np.where(np.isnan(error_lower), 0.0, error_lower)
+
+    tolerance = spec.resistor_tolerance
+    least_high, _ = load_current_ranges(spec, lower, upper)
+    _, most_low = load_current_ranges(spec, lower, upper)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        high = (spec.supply_min_v - lower) / ((1 + tolerance) * (floor[:, None] + most_low))
+        high = np.where(floor[:, None] + most_low > 0, high, np.inf)
+        headroom = np.maximum(spec.supply_max_v - upper, 0.0)
+        by_current = np.where(np.isfinite(cap), headroom / ((1 - tolerance) * (cap + least_high)), 0.0)
+        rating = max(1.0 - spec.min_margin, 0.0) * spec.resistor_rating_w
+        by_rating = np.where(rating > 0, headroom**2 / (rating * (1 - tolerance)), np.inf)
+    high = np.where(np.isnan(high), np.inf, high)
+    low = np.nan_to_num(np.maximum(by_current, by_rating), nan=0.0)
+    return StackBounds(
+        vout_lower_v=lower,
+        vout_upper_v=upper,
+        floor_a=floor,
+        cap_a=cap,
+        error_lower_v=error_lower,
+        resistor_low_ohm=low.max(axis=1),
+        resistor_high_ohm=high.min(axis=1),
+        window_empty=window_empty,
+    )
