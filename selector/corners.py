@@ -324,3 +324,160 @@ def evaluate_designs(
         corner_solved=corner_solved,
         **extra,
     )
+
+
+#: Common resistor power ratings [W] (common practice, no source: the usual catalogue steps).
+STANDARD_RESISTOR_RATINGS_W: tuple[float, ...] = (0.063, 0.1, 0.125, 0.25, 0.5, 0.75, 1.0, 2.0, 3.0, 5.0, 10.0)
+
+
+def smallest_standard_rating_w(power_w: float, derating: float = 1.0) -> float | None:
+    """Smallest standard rating that carries ``power_w`` when used at ``derating`` × its rating.
+
+    Parameters
+    ----------
+    power_w : float [W]
+    derating : float [1]
+        Fraction of the rating the shop allows (1 = full rating, 0.5 = half).
+
+    Returns
+    -------
+    float [W] or None
+        None when even the largest standard rating is too small.
+    """
+    for rating in STANDARD_RESISTOR_RATINGS_W:
+        if power_w <= rating * derating:
+            return rating
+    return None
+
+
+@dataclass(frozen=True)
+class DesignMetrics:
+    """Metrics of one design beyond the contract's (see :func:`design_metrics`).
+
+    Attributes
+    ----------
+    evaluation : DesignEvaluation
+        The contract metrics of this one design, with detail.
+    line_regulation_mv_per_v : float [mV/V]
+        ``dVout/dVin`` at nominal.
+    load_regulation_mv_per_ma : float [mV/mA]
+        ``dVout/dI_L`` at nominal (an extra load current drawn).
+    tempco_mv_per_k : float [mV/K]
+        ``dVout/dTa`` at nominal, self-heating included.
+    ripple_attenuation_db : float [dB]
+        ``−20·log10|dVout/dVin|``: low-frequency supply ripple attenuation.
+    efficiency : float [1]
+        Load power over supply power at nominal.
+    hottest_junction_c : float [°C]
+    hottest_corner : int
+        Index of the corner with the hottest junction.
+    hottest_element : int
+        Stack position of that junction.
+    element_worst_power_w, element_worst_margin : ndarray (max_len,)
+        Per stack position, over the corners.
+    resistor_worst_power_w : float [W]
+    resistor_rating_needed_w : float or None [W]
+        Smallest standard rating that carries the worst power at the derating.
+    reason : str
+        Named infeasibility reason, ``"ok"`` when feasible.
+    """
+
+    evaluation: DesignEvaluation
+    line_regulation_mv_per_v: float
+    load_regulation_mv_per_ma: float
+    tempco_mv_per_k: float
+    ripple_attenuation_db: float
+    efficiency: float
+    hottest_junction_c: float
+    hottest_corner: int
+    hottest_element: int
+    element_worst_power_w: np.ndarray
+    element_worst_margin: np.ndarray
+    resistor_worst_power_w: float
+    resistor_rating_needed_w: float | None
+    reason: str
+
+
+def design_metrics(
+    parts: PartSet,
+    stack: np.ndarray,
+    resistor_ohm: float,
+    spec: RailSpec,
+    *,
+    resistor_derating: float = 1.0,
+) -> DesignMetrics:
+    """Contract metrics plus regulation, tempco, ripple, efficiency and thermal detail of one design.
+
+    The small-signal figures are central finite differences of the full nonlinear solve
+    (self-heating included) at the nominal point, so they agree with the textbook
+    shunt-regulator relations ``rz/(R + rz)`` and ``−(rz ‖ R)`` where those apply.
+
+    Parameters
+    ----------
+    parts : PartSet
+    stack : int array (max_len,)
+        Part indices, padded with −1.
+    resistor_ohm : float [Ω]
+    spec : RailSpec
+    resistor_derating : float [1]
+        Fraction of its rating the shop lets a resistor run at (1 = none).
+
+    Returns
+    -------
+    DesignMetrics
+    """
+    stack = np.asarray(stack, dtype=np.intp).reshape(1, -1)
+    evaluation = evaluate_designs(parts, stack, np.array([resistor_ohm]), spec, detail=True)
+    nominal = nominal_point(spec)
+    supply_step = 1e-3 * max(spec.supply_nominal_v, 1.0)
+    load_step = 1e-6
+    ambient_step = 0.1
+    base = dict(
+        supply=nominal.supply_v[0], extra_load=0.0, ambient=nominal.ambient_c[0]
+    )
+    steps = [
+        dict(base, supply=base["supply"] + supply_step),
+        dict(base, supply=base["supply"] - supply_step),
+        dict(base, extra_load=load_step),
+        dict(base, extra_load=-load_step),
+        dict(base, ambient=base["ambient"] + ambient_step),
+        dict(base, ambient=base["ambient"] - ambient_step),
+        base,
+    ]
+    points = solve_operating_points(
+        parts,
+        np.repeat(stack, len(steps), axis=0),
+        np.array([s["supply"] for s in steps]),
+        np.full(len(steps), resistor_ohm),
+        np.array([s["ambient"] for s in steps]),
+        np.zeros(len(steps)),
+        nominal.load_current_a[0] + np.array([s["extra_load"] for s in steps]),
+        np.full(len(steps), nominal.load_conductance_s[0]),
+    )
+    v = points.vout_v
+    ok = bool(points.solved.all())
+    line = (v[0] - v[1]) / (2 * supply_step) if ok else float("nan")
+    load = (v[2] - v[3]) / (2 * load_step) if ok else float("nan")
+    tempco = (v[4] - v[5]) / (2 * ambient_step) if ok else float("nan")
+    supply_power = nominal.supply_v[0] * (points.stack_current_a[6] + points.load_current_a[6])
+    efficiency = v[6] * points.load_current_a[6] / supply_power if ok and supply_power > 0 else 0.0
+
+    junction = evaluation.junction_c[0]
+    hottest_corner, hottest_element = np.unravel_index(int(np.argmax(junction)), junction.shape)
+    resistor_worst = float(evaluation.resistor_power_w[0].max())
+    return DesignMetrics(
+        evaluation=evaluation,
+        line_regulation_mv_per_v=float(1e3 * line),
+        load_regulation_mv_per_ma=float(load),
+        tempco_mv_per_k=float(1e3 * tempco),
+        ripple_attenuation_db=float(-20.0 * np.log10(abs(line))) if ok and line != 0 else float("nan"),
+        efficiency=float(efficiency),
+        hottest_junction_c=float(junction[hottest_corner, hottest_element]),
+        hottest_corner=int(hottest_corner),
+        hottest_element=int(hottest_element),
+        element_worst_power_w=evaluation.element_power_w[0].max(axis=0),
+        element_worst_margin=evaluation.element_margin[0].min(axis=0),
+        resistor_worst_power_w=resistor_worst,
+        resistor_rating_needed_w=smallest_standard_rating_w(resistor_worst, resistor_derating),
+        reason=evaluation.reason_name(0),
+    )
