@@ -1,0 +1,154 @@
+"""Element models: outside checks and numerical safety. All part data here is invented."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from scipy import constants
+
+from selector.corners import allowed_power_w
+from selector.devices import (
+    element_voltage_slopes,
+    forward_log_saturation_current,
+    self_heated_element,
+    stack_voltage,
+    thermal_voltage_v,
+)
+from selector.partset import PartSet
+
+INVENTED_PARTS = [
+    # invented: a small-signal silicon diode
+    dict(part="INV-SIG", family="signal", is_a=1e-14, n=1.0, rs_ohm=0.0, pd_w=0.5),
+    # invented: a rectifier with series resistance and tolerance
+    dict(part="INV-REC", family="rectifier", is_a=4e-9, n=1.8, rs_ohm=0.04, vf_tol_v=0.03, pd_w=1.0),
+    # invented: a 3.3 V zener (negative TC) and an 8.2 V zener (positive TC)
+    dict(part="INV-Z3V3", family="zener", vz_v=3.3, izt_a=5e-3, zzt_ohm=60, izk_a=2.5e-4, zzk_ohm=900,
+         vz_tol_pct=5, tc_v_per_k=-2.0e-3, pd_w=0.5),
+    dict(part="INV-Z8V2", family="zener", vz_v=8.2, izt_a=5e-3, zzt_ohm=8, izk_a=2.5e-4, zzk_ohm=60,
+         vz_tol_pct=2, tc_v_per_k=4.5e-3, pd_w=0.5, theta_ja_k_per_w=200.0),
+]  # fmt: skip
+
+
+@pytest.fixture
+def parts() -> PartSet:
+    return PartSet.from_records(INVENTED_PARTS)
+
+
+def test_no_floating_point_trouble_from_1fA_to_10A_and_minus55_to_200C(parts):
+    currents = np.logspace(-15, 1, 161)
+    temperatures = np.linspace(-55.0, 200.0, 52)
+    current, temperature = np.meshgrid(currents, temperatures)
+    with np.errstate(all="raise"):
+        for index in range(len(parts)):
+            for sign in (-1.0, 0.0, 1.0):
+                v, dvdi, dvdt = element_voltage_slopes(parts, index, current, temperature, sign)
+                assert np.all(np.isfinite(v)) and np.all(np.isfinite(dvdi)) and np.all(np.isfinite(dvdt))
+            state = self_heated_element(parts, index, np.log(current), temperature)
+            assert np.all(np.isfinite(state.voltage_v)) and np.all(np.isfinite(state.junction_c))
+
+
+def test_spice_saturation_current_scaling_27_to_127C():
+    # SPICE3 diode model (Quarles et al., SPICE3 Version 3f3 User's Manual, 1993):
+    # IS(T) = IS·(T/TNOM)^(XTI/N)·exp((T/TNOM − 1)·EG/(N·Vt)); default EG 1.11, XTI 3
+    # gives a factor of 1.0774e5 from 27 °C to 127 °C.
+    ratio = np.exp(
+        forward_log_saturation_current(127.0, 1e-14, 1.0, 1.11, 3.0, 27.0)
+        - forward_log_saturation_current(27.0, 1e-14, 1.0, 1.11, 3.0, 27.0)
+    )
+    assert ratio == pytest.approx(1.0774e5, rel=1e-4)
+
+
+def test_slope_per_decade_at_n_1_and_300K(parts):
+    # 59.5 mV/decade = n·k·T/q·ln 10 at n = 1, T = 300 K with k, q from scipy.constants;
+    # "about 60 mV per decade" is common practice (no source).
+    expected = constants.k * 300.0 / constants.e * np.log(10.0)
+    assert expected == pytest.approx(59.5e-3, abs=0.05e-3)
+    t_c = 300.0 - constants.zero_Celsius
+    v, _, _ = element_voltage_slopes(parts, np.array([0, 0]), np.array([1e-4, 1e-3]), t_c)
+    assert v[1] - v[0] == pytest.approx(expected, rel=1e-9)
+
+
+def test_silicon_forward_tempco_near_minus_2_mV_per_K(parts):
+    # Common practice (no source): a silicon junction's Vf falls by about 2 mV/K.
+    _, _, dvdt = element_voltage_slopes(parts, 0, 1e-3, 25.0)
+    assert -2.5e-3 < dvdt < -1.5e-3
+
+
+def test_zener_tc_sign_below_and_above_5_to_6V(parts):
+    # Common practice (no source): breakdown below about 5 V has a negative TC (Zener
+    # effect), above about 6 V a positive one (avalanche). The invented parts follow it and
+    # the model must carry the sign through.
+    cold, _, _ = element_voltage_slopes(parts, np.array([2, 3]), 5e-3, 0.0)
+    hot, _, _ = element_voltage_slopes(parts, np.array([2, 3]), 5e-3, 100.0)
+    assert hot[0] < cold[0]  # 3.3 V
+    assert hot[1] > cold[1]  # 8.2 V
+
+
+def test_default_theta_is_the_datasheet_derating(parts):
+    # Common datasheet practice (no source): θJA = (Tjmax − 25 °C)/Pd; full power at 25 °C,
+    # none at Tjmax.
+    assert parts.theta_ja_k_per_w[0] == pytest.approx((150.0 - 25.0) / 0.5, rel=1e-12)
+    assert allowed_power_w(parts, np.array([0]), np.array([25.0]))[0] == pytest.approx(0.5, rel=1e-12)
+    assert allowed_power_w(parts, np.array([0]), np.array([150.0]))[0] == pytest.approx(0.0, abs=1e-15)
+
+
+def test_breakdown_element_passes_through_its_datasheet_point(parts):
+    v, dvdi, _ = element_voltage_slopes(parts, 3, 5e-3, 25.0, 0.0)
+    assert v == pytest.approx(8.2, abs=1e-12)
+    assert dvdi == pytest.approx(8.0, rel=1e-9)  # zzt at izt
+    _, dvdi_knee, _ = element_voltage_slopes(parts, 3, 2.5e-4, 25.0, 0.0)
+    assert dvdi_knee == pytest.approx(60.0, rel=1e-9)  # zzk at izk
+    high, _, _ = element_voltage_slopes(parts, 3, 5e-3, 25.0, 1.0)
+    assert high == pytest.approx(8.2 * 1.02, abs=1e-12)
+
+
+@pytest.mark.parametrize("index", [0, 1, 2, 3])
+def test_slopes_match_finite_differences(parts, index):
+    current, temperature, step = 2e-3, 40.0, 1e-6
+    v, dvdi, dvdt = element_voltage_slopes(parts, index, current, temperature, 1.0)
+    up, _, _ = element_voltage_slopes(parts, index, current * (1 + step), temperature, 1.0)
+    down, _, _ = element_voltage_slopes(parts, index, current * (1 - step), temperature, 1.0)
+    assert dvdi == pytest.approx((up - down) / (2 * current * step), rel=1e-6)
+    warm, _, _ = element_voltage_slopes(parts, index, current, temperature + 1e-3, 1.0)
+    cool, _, _ = element_voltage_slopes(parts, index, current, temperature - 1e-3, 1.0)
+    assert dvdt == pytest.approx((warm - cool) / 2e-3, rel=1e-5, abs=1e-12)
+
+
+def test_self_heated_junction_is_at_steady_state_to_1_mK(parts):
+    index = np.array([0, 1, 2, 3, 1])
+    current = np.array([0.05, 0.8, 0.02, 0.03, 10.0])
+    state = self_heated_element(parts, index, np.log(current), 30.0, 1.0)
+    theta = parts.theta_ja_k_per_w[index]
+    assert np.all(np.abs(state.junction_c - 30.0 - theta * state.voltage_v * current) < 1e-3)
+    v, _, _ = element_voltage_slopes(parts, index, current, state.junction_c, 1.0)
+    np.testing.assert_allclose(state.voltage_v, v, rtol=0, atol=1e-12)
+
+
+def test_self_heated_slope_matches_finite_difference(parts):
+    for index in range(4):
+        u, step = np.log(0.02), 1e-6
+        state = self_heated_element(parts, index, u, 25.0)
+        up = self_heated_element(parts, index, u + step, 25.0).voltage_v
+        down = self_heated_element(parts, index, u - step, 25.0).voltage_v
+        assert state.dv_dlog_current_v == pytest.approx((up - down) / (2 * step), rel=1e-5)
+
+
+def test_runaway_is_flagged_where_loop_gain_reaches_one(parts):
+    # θ·I·tc = 200·I·4.5e-3 reaches 1 at I = 1.11 A.
+    state = self_heated_element(parts, np.array([3, 3]), np.log([0.5, 1.5]), 25.0)
+    assert state.runaway.tolist() == [False, True]
+    assert state.loop_gain[0] == pytest.approx(200 * 0.5 * 4.5e-3, rel=1e-12)
+
+
+def test_stack_voltage_sums_self_heated_elements(parts):
+    stacks = np.array([[0, 0, 3, -1], [-1, -1, -1, -1]])
+    voltage, runaway = stack_voltage(parts, stacks, np.array([0.01, 0.01]), 25.0, -1.0)
+    single = self_heated_element(parts, np.array([0, 3]), np.log(0.01), 25.0, -1.0).voltage_v
+    assert voltage[0] == pytest.approx(2 * single[0] + single[1], abs=1e-12)
+    assert voltage[1] == 0.0
+    assert not runaway.any()
+
+
+def test_thermal_voltage_from_scipy_constants():
+    # scipy.constants (CODATA 2018): k/q·300 K = 25.852 mV.
+    assert thermal_voltage_v(300.0 - 273.15) == pytest.approx(constants.k * 300 / constants.e, rel=1e-15)
