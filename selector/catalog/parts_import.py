@@ -76,7 +76,7 @@ class Rule:
 def _shown(value: float, kind: units.Kind) -> str:
     if kind.prefixable and kind.symbol:
         return units.format_quantity(value, kind.symbol)
-    return f"{format_number(value)} {kind.symbol}".strip()
+    return f"{value:.6g} {kind.symbol}".strip()
 
 
 #: Allowed ranges. Physical limits from the issue (currents positive, 1 ≤ n ≤ 4,
