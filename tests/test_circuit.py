@@ -1,0 +1,154 @@
+"""Circuit solver against closed forms and plain reference solves. All part data here is invented."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from scipy.optimize import brentq
+from scipy.special import wrightomega
+
+from selector.circuit import (
+    STATUS_BELOW_LEAST_CURRENT,
+    STATUS_SOLVED,
+    STATUS_SUPPLY_EXHAUSTED,
+    family_slots,
+    solve_operating_points,
+)
+from selector.devices import self_heated_element, stack_voltage, thermal_voltage_v
+from selector.partset import PartSet
+
+INVENTED_PARTS = [
+    # invented: a diode with negligible self-heating, for closed-form checks
+    dict(part="INV-COOL", family="signal", is_a=1e-14, n=1.0, pd_w=1e9, tj_max_c=150.0),
+    # invented: ordinary parts with self-heating
+    dict(part="INV-SIG", family="signal", is_a=2e-9, n=1.9, rs_ohm=0.6, vf_tol_v=0.02, pd_w=0.4),
+    dict(part="INV-Z5V1", family="zener", vz_v=5.1, izt_a=5e-3, zzt_ohm=12, izk_a=2.5e-4, zzk_ohm=500,
+         vz_tol_pct=5, tc_v_per_k=1.5e-3, pd_w=0.5),
+    dict(part="INV-REC", family="rectifier", is_a=5e-9, n=1.8, rs_ohm=0.05, pd_w=1.0),
+    # invented: a zener with negligible self-heating and no TC, for small-signal checks
+    dict(part="INV-ZCOOL", family="zener", vz_v=6.2, izt_a=10e-3, zzt_ohm=6, izk_a=1e-3, zzk_ohm=40,
+         pd_w=1e9, tj_max_c=150.0),
+]  # fmt: skip
+
+
+@pytest.fixture
+def parts() -> PartSet:
+    return PartSet.from_records(INVENTED_PARTS)
+
+
+def test_single_diode_against_lambert_w_closed_form_1nA_to_1A(parts):
+    # Banwell & Jayakumar, "Exact analytical solution for current flow through diode with
+    # series resistance", Electronics Letters 36(4):291–292, 2000:
+    # I = (n·Vt/R)·W((Is·R/(n·Vt))·exp((V + Is·R)/(n·Vt))) − Is, evaluated with the Wright
+    # omega function, W(exp(z)) = ω(z), where lambertw's argument would overflow.
+    resistor, is_a, vt = 100.0, 1e-14, float(thermal_voltage_v(25.0))
+    wanted = np.logspace(-9, 0, 19)
+    supply = resistor * wanted + vt * np.log1p(wanted / is_a)
+    z = np.log(is_a * resistor / vt) + (supply + is_a * resistor) / vt
+    closed_form = vt / resistor * np.real(wrightomega(z)) - is_a
+    np.testing.assert_allclose(closed_form, wanted, rtol=1e-9)
+    with np.errstate(all="raise"):
+        op = solve_operating_points(parts, np.zeros((19, 1), dtype=int), supply, resistor, 25.0, 0.0)
+    assert np.all(op.status == STATUS_SOLVED)
+    # θ = 125 K/GW here, so self-heating shifts V by < 1 nV up to 1 A.
+    np.testing.assert_allclose(op.stack_current_a, closed_form, rtol=2e-8)
+    vout_closed = supply - resistor * closed_form
+    np.testing.assert_allclose(op.vout_v, vout_closed, rtol=0, atol=2e-6)
+
+
+def _brentq_vout(parts, stack, supply, resistor, ambient, sign, load_a, conductance):
+    def residual(current):
+        v, _ = stack_voltage(parts, stack[None, :], current, ambient, sign)
+        return supply - resistor * (current + load_a + conductance * v[0]) - v[0]
+
+    current = brentq(residual, 1e-15, supply / resistor, xtol=1e-18, rtol=1e-14, maxiter=500)
+    return stack_voltage(parts, stack[None, :], current, ambient, sign)[0][0], current
+
+
+@pytest.mark.parametrize(
+    "stack, supply, resistor, ambient, sign, load_a, conductance",
+    [
+        ([1, 2, -1], 12.0, 470.0, 25.0, 1.0, 1e-3, 0.0),
+        ([2, 2, 3], 24.0, 220.0, 85.0, -1.0, 5e-3, 0.0),
+        ([1, 1, 1], 5.0, 100.0, -40.0, 1.0, 0.0, 1 / 2200.0),
+        ([3, -1, -1], 3.3, 10.0, 125.0, 0.0, 0.0, 1 / 50.0),
+    ],
+)
+def test_matches_independent_brentq_solve_with_self_heating(parts, stack, supply, resistor, ambient, sign, load_a, conductance):
+    # Reference: scipy.optimize.brentq on the scalar KCL equation, each element's junction
+    # solved separately at every trial current.
+    stack = np.array(stack)
+    vout, current = _brentq_vout(parts, stack, supply, resistor, ambient, sign, load_a, conductance)
+    op = solve_operating_points(parts, stack[None, :], supply, resistor, ambient, sign, load_a, conductance)
+    assert op.status[0] == STATUS_SOLVED
+    assert op.vout_v[0] == pytest.approx(vout, abs=1e-9)
+    assert op.stack_current_a[0] == pytest.approx(current, rel=1e-7)
+
+
+def test_kcl_residual_below_1nV_and_junctions_at_steady_state_within_1mK(parts):
+    rng = np.random.default_rng(7)
+    count = 3000
+    stacks = rng.integers(-1, 4, (count, 4))
+    stacks[:, 0] = rng.integers(1, 4, count)
+    supply = rng.uniform(5, 30, count)
+    resistor = rng.uniform(100, 3000, count)
+    ambient = rng.uniform(-55, 125, count)
+    sign = rng.choice([-1.0, 0.0, 1.0], count)
+    load = rng.uniform(0, 2e-3, count)
+    with np.errstate(all="raise"):
+        op = solve_operating_points(parts, stacks, supply, resistor, ambient, sign, load, detail=True)
+    ok = op.solved
+    assert ok.mean() > 0.8
+    exact, _ = stack_voltage(parts, stacks[ok], op.stack_current_a[ok], ambient[ok], sign[ok])
+    kcl = supply[ok] - resistor[ok] * (op.stack_current_a[ok] + op.load_current_a[ok]) - exact
+    assert np.max(np.abs(kcl)) <= 1e-9
+    rows, slots = np.nonzero((stacks >= 0) & ok[:, None])
+    theta = parts.theta_ja_k_per_w[stacks[rows, slots]]
+    heat = theta * op.element_power_w[rows, slots]
+    assert np.max(np.abs(op.junction_c[rows, slots] - ambient[rows] - heat)) <= 1e-3
+    # Every unsolved point is a stack that cannot conduct from this supply.
+    assert np.all(op.status[~ok] == STATUS_BELOW_LEAST_CURRENT)
+
+
+def test_no_solution_is_flagged_not_nan(parts):
+    stacks = np.array([[2, 2, 2, 2], [1, -1, -1, -1]])
+    with np.errstate(all="raise"):
+        op = solve_operating_points(parts, stacks, np.array([12.0, 12.0]), 1000.0, 25.0, 0.0, np.array([0.0, 0.02]))
+    assert op.status.tolist() == [STATUS_BELOW_LEAST_CURRENT, STATUS_SUPPLY_EXHAUSTED]
+    assert np.all(np.isfinite(op.vout_v)) and np.all(op.vout_v == 0.0)
+
+
+def test_extremes_of_current_and_temperature_are_safe(parts):
+    stacks = np.array([[1, 3, -1]] * 4)
+    supply = np.array([1.0, 60.0, 12.0, 12.0])
+    resistor = np.array([1e9, 5.0, 1e6, 1.0])
+    ambient = np.array([-55.0, 125.0, 200.0, -55.0])
+    with np.errstate(all="raise"):
+        op = solve_operating_points(parts, stacks, supply, resistor, ambient, 1.0, detail=True)
+    assert np.all(np.isfinite(op.vout_v)) and np.all(np.isfinite(op.junction_c))
+    assert op.solved.all()
+    assert 1e-13 < op.stack_current_a[0] < 1e-9  # picoamps
+    assert op.stack_current_a[1] > 5.0  # amperes: far over its rating, but solved
+    assert op.worst_element_margin[1] < 0
+
+
+def test_equal_parts_and_padding_give_the_same_answer_as_spelled_out(parts):
+    a = solve_operating_points(parts, np.array([[1, 1, 2, -1]]), 15.0, 680.0, 40.0, 1.0, 1e-3)
+    b = solve_operating_points(parts, np.array([[2, -1, 1, 1]]), 15.0, 680.0, 40.0, 1.0, 1e-3)
+    c = solve_operating_points(parts, np.array([[1, 1, 2, -1]]), 15.0, 680.0, 40.0, np.array([[1.0, 1.0, 1.0, 0.0]]), 1e-3)
+    assert a.vout_v[0] == pytest.approx(b.vout_v[0], abs=1e-12)
+    assert a.vout_v[0] == pytest.approx(c.vout_v[0], abs=1e-12)
+
+
+def test_family_slots_count_distinct_parts(parts):
+    fp, fc, _, zp, zc, _ = family_slots(parts, np.array([[1, 2, 1, -1], [3, 3, 3, 3]]))
+    assert fp[0, :1].tolist() == [1] and fc[0].tolist() == [2, 0, 0, 0]
+    assert zp[0, :1].tolist() == [2] and zc[0].tolist() == [1, 0, 0, 0]
+    assert fc[1].tolist() == [4, 0, 0, 0] and zc[1].tolist() == [0, 0, 0, 0]
+
+
+def test_hottest_junction_and_margin_agree_with_element_detail(parts):
+    op = solve_operating_points(parts, np.array([[1, 2, 3]]), 20.0, 330.0, 60.0, 1.0, 2e-3, detail=True)
+    assert op.hottest_junction_c[0] == pytest.approx(op.junction_c[0].max(), abs=1e-6)
+    state = self_heated_element(parts, np.array([1, 2, 3]), np.log(op.stack_current_a[0]), 60.0, 1.0)
+    np.testing.assert_allclose(op.junction_c[0], state.junction_c, atol=1e-9)
