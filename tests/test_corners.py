@@ -1,0 +1,140 @@
+"""Corners, contract metrics and design metrics. All part data here is invented."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from selector.circuit import solve_operating_points
+from selector.corners import (
+    REASON_NAMES,
+    design_metrics,
+    evaluate_designs,
+    nominal_point,
+    smallest_standard_rating_w,
+    worst_case_corners,
+)
+from selector.partset import PartSet
+from selector.spec import RailSpec
+
+INVENTED_PARTS = [
+    dict(part="INV-SIG", family="signal", is_a=2e-9, n=1.9, rs_ohm=0.6, vf_tol_v=0.02, pd_w=0.4, if_max_a=0.2),
+    dict(part="INV-Z5V1", family="zener", vz_v=5.1, izt_a=5e-3, zzt_ohm=12, izk_a=2.5e-4, zzk_ohm=500,
+         vz_tol_pct=5, tc_v_per_k=1.5e-3, pd_w=0.5),
+    # invented: a zener without TC and with negligible self-heating, for small-signal checks
+    dict(part="INV-ZCOOL", family="zener", vz_v=6.2, izt_a=10e-3, zzt_ohm=6, izk_a=1e-3, zzk_ohm=40, pd_w=1e9),
+]  # fmt: skip
+
+
+@pytest.fixture
+def parts() -> PartSet:
+    return PartSet.from_records(INVENTED_PARTS)
+
+
+def make_spec(**changes) -> RailSpec:
+    values = dict(
+        target_v=6.0, tolerance_v=0.3, supply_min_v=11.0, supply_max_v=13.0, supply_nominal_v=12.0,
+        load_kind="current", load_min=0.0, load_max=2e-3, ambient_min_c=0.0, ambient_max_c=60.0,
+    )  # fmt: skip
+    values.update(changes)
+    return RailSpec(**values)
+
+
+def test_corner_order_and_values():
+    corners = worst_case_corners(make_spec())
+    assert len(corners) == 32
+    assert corners.labels[0] == "Vin min, load least, Ta min, R low, parts low"
+    assert corners.labels[31] == "Vin max, load most, Ta max, R high, parts high"
+    assert corners.supply_v[:16].tolist() == [11.0] * 16 and corners.supply_v[16:].tolist() == [13.0] * 16
+    assert corners.tolerance_sign[:2].tolist() == [-1.0, 1.0]
+    assert corners.resistor_factor[:4].tolist() == [0.99, 0.99, 1.01, 1.01]
+    assert corners.load_current_a[8] == 2e-3 and corners.load_current_a[0] == 0.0
+    assert len(set(corners.labels)) == 32
+
+
+def test_resistive_load_least_current_at_largest_resistance():
+    corners = worst_case_corners(make_spec(load_kind="resistance", load_min=1e3, load_max=10e3))
+    assert corners.load_conductance_s[0] == pytest.approx(1e-4)
+    assert corners.load_conductance_s[8] == pytest.approx(1e-3)
+    assert not corners.load_current_a.any()
+    nominal = nominal_point(make_spec(load_kind="resistance", load_min=1e3, load_max=10e3))
+    assert nominal.load_conductance_s[0] == pytest.approx(1 / 5500.0)  # midpoint in ohms
+
+
+def test_metrics_follow_the_contract_from_the_corner_solutions(parts):
+    spec = make_spec()
+    stacks = np.array([[0, 1], [1, -1], [0, 0]])
+    resistor = np.array([470.0, 470.0, 10.0])
+    ev = evaluate_designs(parts, stacks, resistor, spec, detail=True)
+    corners = worst_case_corners(spec)
+    for design in range(3):
+        op = solve_operating_points(
+            parts, np.repeat(stacks[design : design + 1], 32, axis=0), corners.supply_v,
+            resistor[design] * corners.resistor_factor, corners.ambient_c, corners.tolerance_sign,
+            corners.load_current_a, corners.load_conductance_s, detail=True,
+        )  # fmt: skip
+        np.testing.assert_allclose(ev.vout_v[design], op.vout_v, atol=1e-12)
+        assert ev.vout_low_v[design] == pytest.approx(op.vout_v.min(), abs=1e-12)
+        error = max(abs(op.vout_v.max() - 6.0), abs(op.vout_v.min() - 6.0))
+        assert ev.error_v[design] == pytest.approx(error, abs=1e-12)
+        assert ev.i_min_a[design] == pytest.approx(op.stack_current_a.min(), rel=1e-12)
+        p_max = np.minimum(parts.pd_w[stacks[design]], (150.0 - corners.ambient_c[:, None]) / parts.theta_ja_k_per_w[stacks[design]])
+        element = np.where(stacks[design] >= 0, 1 - op.element_power_w / p_max, 1.0)
+        np.testing.assert_allclose(ev.element_margin[design], element, atol=1e-9)
+        p_r = (resistor[design] * corners.resistor_factor) * (op.stack_current_a + op.load_current_a) ** 2
+        assert ev.resistor_power_w[design].max() == pytest.approx(p_r.max(), rel=1e-12)
+        margin = min(ev.element_margin[design].min(), 1 - p_r.max() / 0.25)
+        assert ev.margin[design] == pytest.approx(margin, abs=1e-9)
+    assert ev.feasible.tolist() == [True, True, False]
+    assert ev.meets.tolist() == [False, False, False]
+    assert ev.reason_name(2) == "dissipation"
+    assert REASON_NAMES[ev.reason[0]] == "ok"
+
+
+def test_bias_and_current_limit_reasons(parts):
+    spec = make_spec(min_current_a=50e-3)
+    ev = evaluate_designs(parts, np.array([[0, 1]]), np.array([470.0]), spec)
+    assert ev.reason_name(0) == "bias" and not ev.feasible[0]
+    spec = make_spec(resistor_rating_w=100.0, target_v=2.0)
+    # 2 forward parts, 33 Ω from 13 V: about 0.34 A, over the 0.2 A limit, under the margin.
+    parts_cool = PartSet.from_records([dict(INVENTED_PARTS[0], pd_w=1e6)])
+    ev = evaluate_designs(parts_cool, np.array([[0, 0]]), np.array([33.0]), spec)
+    assert ev.reason_name(0) == "current limit"
+
+
+def test_unsolvable_design_is_named_no_solution(parts):
+    ev = evaluate_designs(parts, np.array([[1, 1, 1, 1, 1]]), np.array([100.0]), make_spec())
+    assert ev.reason_name(0) == "no solution"
+    assert not ev.solved[0] and np.isinf(ev.error_v[0])
+
+
+def test_small_signal_relations_of_a_shunt_regulator(parts):
+    # Textbook shunt-regulator relations (common practice, no source): line regulation
+    # dVout/dVin = rz/(R + rz), load regulation dVout/dI_L = −(rz ‖ R), with rz the
+    # zener's dynamic resistance a/I + rz at the operating current.
+    spec = make_spec(target_v=6.2, load_min=0.0, load_max=2e-3, ambient_min_c=25.0, ambient_max_c=25.0)
+    resistor = 330.0
+    metrics = design_metrics(parts, np.array([2]), resistor, spec)
+    current = metrics.evaluation.nominal["stack_current_a"][0]
+    rz = parts.zener_a_v[2] / current + parts.zener_rz_ohm[2]
+    assert metrics.line_regulation_mv_per_v == pytest.approx(1e3 * rz / (resistor + rz), rel=1e-4)
+    assert metrics.load_regulation_mv_per_ma == pytest.approx(-(rz * resistor) / (rz + resistor), rel=1e-4)
+    assert metrics.ripple_attenuation_db == pytest.approx(-20 * np.log10(rz / (resistor + rz)), rel=1e-4)
+    assert metrics.tempco_mv_per_k == pytest.approx(0.0, abs=1e-6)
+
+
+def test_design_metrics_thermal_and_resistor_figures(parts):
+    metrics = design_metrics(parts, np.array([0, 1]), 470.0, make_spec(), resistor_derating=0.5)
+    ev = metrics.evaluation
+    assert metrics.hottest_junction_c == pytest.approx(ev.junction_c[0].max())
+    assert ev.corner_solved[0].all()
+    assert metrics.resistor_worst_power_w == pytest.approx(ev.resistor_power_w[0].max())
+    assert metrics.resistor_rating_needed_w == smallest_standard_rating_w(metrics.resistor_worst_power_w / 0.5)
+    assert 0 < metrics.efficiency < 1
+    assert metrics.element_worst_margin.shape == (2,)
+
+
+def test_standard_rating_steps():
+    assert smallest_standard_rating_w(0.2) == 0.25
+    assert smallest_standard_rating_w(0.2, derating=0.5) == 0.5
+    assert smallest_standard_rating_w(20.0) is None
