@@ -41,10 +41,10 @@ def parse_point(text: str, option: str = "--point") -> tuple[float, float]:
 
 
 def parse_points(texts: Sequence[str]) -> tuple[np.ndarray, np.ndarray]:
-    """Two or three datasheet points as arrays: forward voltage [V], forward current [A]."""
+    """Two or three datasheet points as arrays sorted by current: voltage [V], current [A]."""
     if not 2 <= len(texts) <= 3:
         raise OptionError(f"--point: give two or three points, not {len(texts)}")
-    points = [parse_point(text) for text in texts]
+    points = sorted((parse_point(text) for text in texts), key=lambda point: point[1])
     voltages = np.array([voltage for voltage, _ in points])
     currents = np.array([current for _, current in points])
     if len(set(currents.tolist())) != len(currents):
@@ -83,6 +83,10 @@ def fitted_parts_file(
         raise OptionError(f"{part}: a zener has no forward fit; use a forward family (--family)")
     cells.update(fitted)
     cells["tnom_c"] = 25.0
-    records = validate_rows([RawRow(1, cells)], f"{FIT_LABEL} for {part}")
+    if not cells.get("family"):
+        raise OptionError(
+            f"--family: {part} is not in the library; give its family and ratings (--set pd_w=...)"
+        )
+    records = validate_rows([RawRow(0, cells)], f"fit of {part}")
     digest = hashlib.sha256("\n".join(points_text).encode("utf-8")).hexdigest()
     return PartsFile(f"{FIT_LABEL}: " + "; ".join(points_text), digest, records)

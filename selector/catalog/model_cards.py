@@ -311,12 +311,26 @@ def load_model_cards(
         merged = dict(overrides or {})
         if card.name in ratings:
             merged.update({k: v for k, v in ratings[card.name].cells.items() if k != "part" and v.strip()})
-        if str(merged.get("family", "")).strip().lower() == "zener" and "BV" not in card.values:
+        family = str(merged.get("family", "")).strip().lower()
+        if not family:
+            errors.append(f"{label}:{card.line}: {card.name}: family: not given; use --family or a ratings CSV")
+            continue
+        if family == "zener" and "BV" not in card.values:
             errors.append(f"{label}:{card.line}: {card.name}: BV: missing; a card imported as a zener needs BV")
             continue
         cells, card_warnings = card_cells(card, merged)
         warnings += [f"{label}:{card.line}: {warning}" for warning in card_warnings]
         rows.append(RawRow(card.line, cells))
+    try:
+        records = validate_rows(rows, label)
+    except InputDataError as error:
+        errors.extend(str(error).splitlines())
     if errors:
-        raise InputDataError("\n".join(errors))
-    return PartsFile(label, file_digest(data), validate_rows(rows, label), warnings)
+        raise InputDataError("\n".join(sorted(errors, key=_line_of)))
+    return PartsFile(label, file_digest(data), records, warnings)
+
+
+def _line_of(message: str) -> int:
+    """The line number in a ``FILE:LINE: …`` message, for ordering (stable)."""
+    match = re.search(r":(\d+): ", message)
+    return int(match.group(1)) if match else 0

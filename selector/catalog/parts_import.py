@@ -120,6 +120,9 @@ KNOWN_COLUMNS: tuple[str, ...] = RECORD_COLUMNS
 class RawRow:
     """One row as read, before validation: its line in the file and its cells.
 
+    Line 0 means the row comes from options rather than a file; messages then name the
+    label alone.
+
     Cells are text (from a CSV) or numbers in base SI units (from a model card).
     """
 
@@ -252,7 +255,8 @@ def validate_rows(rows: Sequence[RawRow], label: str) -> list[dict[str, object]]
     first_line_of: dict[str, int] = {}
     for row in rows:
         record, row_errors = _validate_row(row, first_line_of)
-        errors.extend(f"{label}:{row.line}: {message}" for message in row_errors)
+        where = f"{label}:{row.line}" if row.line else label
+        errors.extend(f"{where}: {message}" for message in row_errors)
         records.append(record)
     if errors:
         raise InputDataError("\n".join(errors))

@@ -12,6 +12,7 @@ from selector.catalog.part_sheet import format_table, list_rows, part_sheet
 from selector.catalog.parts_export import write_parts_csv
 from selector.catalog.parts_import import ImportPlan, load_parts_csv, parse_column_settings
 from selector.errors import InputDataError, UnknownPartError
+from selector.units import format_quantity
 from selector.partset import FAMILIES
 
 _FAMILY = click.Choice(FAMILIES, case_sensitive=False)
@@ -182,8 +183,9 @@ def fit_command(state, part, points, family, settings, dry_run) -> None:
     fitted = {"is_a": float(fit.is_a), "n": float(fit.n), "rs_ohm": float(fit.rs_ohm)}
     parts_file = fitted_parts_file(part, fitted, existing=existing, overrides=overrides, points_text=points)
     click.echo(f"fit of {part}: is_a = {fit.is_a!r} A, n = {fit.n!r}, rs_ohm = {fit.rs_ohm!r} Ω")
-    for text, residual in zip(points, fit.residuals_v, strict=True):
-        click.echo(f"  {text.strip():24s} residual {residual * 1e3:+.3f} mV")
+    for voltage, current, residual in zip(voltages, currents, fit.residuals_v, strict=True):
+        point = f"{format_quantity(voltage, 'V')} @ {format_quantity(current, 'A')}"
+        click.echo(f"  {point:20s} residual {residual * 1e3:+.3f} mV")
     click.echo(f"  rms residual {fit.rms_residual_v * 1e3:.3f} mV")
     plan = library.import_parts_file(parts_file, kind="datasheet fit", dry_run=dry_run)
     _report(plan, part, dry_run)
