@@ -170,15 +170,15 @@ def fit_command(state, part, points, family, settings, dry_run) -> None:
     from selector.fitting import fit_forward_points
 
     part = part.strip()
+    overrides: dict[str, object] = parse_column_settings(settings)
+    if family:
+        overrides["family"] = family.lower()
+    voltages, currents = parse_points(points)
     library = state.library()
     try:
         existing = library.part_record(part)
     except UnknownPartError:
         existing = None
-    overrides: dict[str, object] = parse_column_settings(settings)
-    if family:
-        overrides["family"] = family.lower()
-    voltages, currents = parse_points(points)
     fit = fit_forward_points(voltages, currents, temperature_c=25.0)
     fitted = {"is_a": float(fit.is_a), "n": float(fit.n), "rs_ohm": float(fit.rs_ohm)}
     parts_file = fitted_parts_file(part, fitted, existing=existing, overrides=overrides, points_text=points)
