@@ -1,3 +1,76 @@
-"""Placeholder: this command family is not built yet."""
+"""``railwright check``: prove one stack and resistor at every worst-case corner."""
 
-COMMANDS: list = []
+from __future__ import annotations
+
+import json
+
+import click
+
+from selector.check_view import CheckedDesign, check_json, check_lines
+from selector.cli.spec_options import SPEC_OPTIONS_EPILOG, spec_options
+from selector.corners import design_metrics
+from selector.errors import OptionError
+from selector.montecarlo import run_monte_carlo
+from selector.resistor_choice import choose_resistors
+from selector.stack_notation import expand_stack, parse_stack
+
+MAX_MONTE_CARLO_SAMPLES = 10_000_000
+
+
+@click.command(
+    "check",
+    epilog="\b\nExamples:\n"
+    '  railwright check --spec rail.toml --stack "Z4V7-A + 2*D-SIG1"\n'
+    '  railwright check --spec rail.toml --stack "2*D-SIG1" --resistor 1k --json\n'
+    '  railwright check --spec rail.toml --stack "Z4V7-A" --monte-carlo 10000\n\n'
+    + SPEC_OPTIONS_EPILOG
+    + "\n\nMonte Carlo: supply, load (amperes, or ohms for a resistive load) and ambient are "
+    "uniform over their ranges; the series-resistor tolerance and each element's own "
+    "tolerance are normal with 3 sigma at the limit, truncated there; seeded (--seed). "
+    "Yield is the fraction of samples inside target ± tolerance.",
+)
+@click.option("--stack", "stack_text", required=True, metavar="TEXT",
+              help="The stack, elements joined by '+', each [COUNT*]PART, e.g. '2*D-SIG1 + Z4V7-A'.")
+@click.option("--json", "as_json", is_flag=True, help="Print the result as JSON instead of a report.")
+@click.option("--monte-carlo", "samples", type=int, default=None, metavar="N",
+              help="Also run N Monte Carlo samples, e.g. 10000.")
+@click.option("--seed", type=int, default=0, show_default=True, help="Monte Carlo seed.")
+@click.option("--derating", type=float, default=1.0, show_default=True, metavar="FRACTION",
+              help="Shop derating for the resistor rating advice: fraction of a rating that may be used, e.g. 0.5.")
+@spec_options
+@click.pass_obj
+def check(state, stack_text, as_json, samples, seed, derating, spec):
+    """Solve one stack and series resistor at all 32 worst-case corners and report.
+
+    Without --resistor the resistor is chosen from the spec's series by the least
+    worst-case error among feasible values.
+    """  # noqa: D301
+    if samples is not None and not (1 <= samples <= MAX_MONTE_CARLO_SAMPLES):
+        raise OptionError(f"--monte-carlo: {samples} is not between 1 and {MAX_MONTE_CARLO_SAMPLES}")
+    if not (0.0 < derating <= 1.0):
+        raise OptionError(f"--derating: {derating:g} is not in (0, 1]")
+    elements = expand_stack(parse_stack(stack_text))
+    parts = state.library().load_partset()
+    stack = parts.index_of(elements)
+    if spec.resistor_fixed_ohm is not None:
+        resistor = float(spec.resistor_fixed_ohm)
+    else:
+        resistor = float(choose_resistors(parts, stack[None, :], spec)[0][0])
+    design = CheckedDesign(
+        spec=spec,
+        parts=parts,
+        stack=stack,
+        resistor_ohm=resistor,
+        resistor_chosen=spec.resistor_fixed_ohm is None,
+        metrics=design_metrics(parts, stack, resistor, spec, resistor_derating=derating),
+        monte_carlo=run_monte_carlo(parts, stack, resistor, spec, samples=samples, seed=seed)
+        if samples
+        else None,
+    )
+    if as_json:
+        click.echo(json.dumps(check_json(design), indent=2, ensure_ascii=False))
+    else:
+        click.echo("\n".join(check_lines(design)))
+
+
+COMMANDS = [check]

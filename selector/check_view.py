@@ -1,0 +1,255 @@
+"""What ``railwright check`` shows: one design's proof as terminal lines or a JSON-able dict.
+
+The JSON keys of the interface contract (DESIGN §4) come first: ``resistor_ohm,
+vout_nom_v, vout_low_v, vout_high_v, error_v, margin, i_min_a, feasible, meets, corners``;
+further keys are added after them. Non-finite numbers become ``null``.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from selector.corners import CornerSet, DesignMetrics, worst_case_corners
+from selector.montecarlo import MonteCarloResult
+from selector.partset import PartSet
+from selector.spec import RailSpec, spec_cautions
+from selector.stack_notation import format_stack
+from selector.units import format_quantity
+
+#: Element margins below this draw a caution (common practice, no source: 20 % headroom).
+CAUTION_MARGIN = 0.20
+#: Junctions within this of their limit draw a hot-part caution [K] (common practice, no source).
+HOT_PART_HEADROOM_K = 25.0
+DEFER = "this tool is not a safety assessment; follow local codes and licensed practice"
+
+
+@dataclass(frozen=True)
+class CheckedDesign:
+    """Everything the check report shows for one design."""
+
+    spec: RailSpec
+    parts: PartSet
+    stack: np.ndarray
+    resistor_ohm: float
+    resistor_chosen: bool
+    metrics: DesignMetrics
+    monte_carlo: MonteCarloResult | None = None
+
+    @property
+    def elements(self) -> list[str]:
+        return [str(self.parts.part[i]) for i in self.stack if i >= 0]
+
+
+def _finite(value) -> float | None:
+    value = float(value)
+    return value if math.isfinite(value) else None
+
+
+def design_cautions(design: CheckedDesign) -> list[str]:
+    """Safety and headroom cautions for one design, one line each."""
+    spec, metrics = design.spec, design.metrics
+    lines = [f"{line} (this tool is not a safety assessment)" for line in spec_cautions(spec)]
+    for position, part in enumerate(design.elements):
+        margin = metrics.element_worst_margin[position]
+        if margin < CAUTION_MARGIN:
+            lines.append(
+                f"{part} (position {position + 1}) has {margin:.0%} dissipation margin at its worst "
+                f"corner, under 20 %; {DEFER}"
+            )
+    resistor_margin = 1.0 - metrics.resistor_worst_power_w / spec.resistor_rating_w
+    if resistor_margin < CAUTION_MARGIN:
+        lines.append(
+            f"series resistor has {resistor_margin:.0%} margin on its {format_quantity(spec.resistor_rating_w, 'W')} "
+            f"rating, under 20 %; {DEFER}"
+        )
+    tj_max = design.parts.tj_max_c[design.stack[metrics.hottest_element]]
+    if metrics.evaluation.solved[0] and metrics.hottest_junction_c > tj_max - HOT_PART_HEADROOM_K:
+        lines.append(
+            f"hot part: a junction reaches {metrics.hottest_junction_c:.0f} °C "
+            f"(limit {tj_max:.0f} °C) at corner {metrics.hottest_corner + 1}; {DEFER}"
+        )
+    return lines
+
+
+def _verdict(design: CheckedDesign) -> str:
+    ev = design.metrics.evaluation
+    if ev.meets[0]:
+        return "MEETS the spec at every corner"
+    if ev.feasible[0]:
+        return "feasible, but OUTSIDE the tolerance window"
+    return f"NOT FEASIBLE ({ev.reason_name(0)})"
+
+
+def check_json(design: CheckedDesign) -> dict:
+    """The JSON document of ``railwright check --json`` (contract keys first)."""
+    ev, metrics, spec = design.metrics.evaluation, design.metrics, design.spec
+    corners = worst_case_corners(spec)
+    document = {
+        "resistor_ohm": design.resistor_ohm,
+        "vout_nom_v": _finite(ev.vout_nom_v[0]),
+        "vout_low_v": _finite(ev.vout_low_v[0]) if ev.solved[0] else None,
+        "vout_high_v": _finite(ev.vout_high_v[0]) if ev.solved[0] else None,
+        "error_v": _finite(ev.error_v[0]),
+        "margin": _finite(ev.margin[0]),
+        "i_min_a": _finite(ev.i_min_a[0]) if ev.solved[0] else None,
+        "feasible": bool(ev.feasible[0]),
+        "meets": bool(ev.meets[0]),
+        "corners": _corner_objects(design, corners),
+        "stack": format_stack(design.elements),
+        "parts": len(design.elements),
+        "resistor_chosen": design.resistor_chosen,
+        "reason": ev.reason_name(0),
+        "target_v": spec.target_v,
+        "tolerance_v": spec.tolerance_v,
+        "metrics": {
+            "line_regulation_mv_per_v": _finite(metrics.line_regulation_mv_per_v),
+            "load_regulation_mv_per_ma": _finite(metrics.load_regulation_mv_per_ma),
+            "tempco_mv_per_k": _finite(metrics.tempco_mv_per_k),
+            "ripple_attenuation_db": _finite(metrics.ripple_attenuation_db),
+            "efficiency": _finite(metrics.efficiency),
+            "hottest_junction_c": _finite(metrics.hottest_junction_c),
+            "hottest_corner": metrics.hottest_corner,
+            "resistor_worst_power_w": _finite(metrics.resistor_worst_power_w),
+            "resistor_rating_needed_w": metrics.resistor_rating_needed_w,
+        },
+        "elements": [
+            {
+                "position": position + 1,
+                "part": part,
+                "worst_power_w": _finite(metrics.element_worst_power_w[position]),
+                "worst_margin": _finite(metrics.element_worst_margin[position]),
+            }
+            for position, part in enumerate(design.elements)
+        ],
+        "cautions": design_cautions(design),
+    }
+    if design.monte_carlo is not None:
+        mc = design.monte_carlo
+        document["monte_carlo"] = {
+            "samples": mc.samples,
+            "seed": mc.seed,
+            "yield": mc.yield_fraction,
+            "solved_fraction": mc.solved_fraction,
+            "percentiles_v": {f"{p:g}": v for p, v in mc.percentiles.items()},
+        }
+    return document
+
+
+def _corner_objects(design: CheckedDesign, corners: CornerSet) -> list[dict]:
+    ev = design.metrics.evaluation
+    load_key = "load_ohm" if design.spec.load_kind == "resistance" else "load_a"
+    objects = []
+    for c in range(len(corners)):
+        solved = bool(ev.corner_solved[0, c])
+        objects.append(
+            {
+                "index": c + 1,
+                "label": corners.labels[c],
+                "supply_v": float(corners.supply_v[c]),
+                load_key: float(corners.load_value[c]),
+                "ambient_c": float(corners.ambient_c[c]),
+                "resistor_ohm": design.resistor_ohm * float(corners.resistor_factor[c]),
+                "tolerance_sign": float(corners.tolerance_sign[c]),
+                "solved": solved,
+                "vout_v": float(ev.vout_v[0, c]) if solved else None,
+                "stack_current_a": float(ev.stack_current_a[0, c]) if solved else None,
+                "load_current_a": float(ev.load_current_a[0, c]) if solved else None,
+                "resistor_power_w": float(ev.resistor_power_w[0, c]) if solved else None,
+                "junction_c": [float(t) for t in ev.junction_c[0, c, : len(design.elements)]] if solved else None,
+                "element_power_w": [float(p) for p in ev.element_power_w[0, c, : len(design.elements)]]
+                if solved
+                else None,
+            }
+        )
+    return objects
+
+
+def check_lines(design: CheckedDesign) -> list[str]:
+    """The terminal report of ``railwright check``."""
+    ev, metrics, spec = design.metrics.evaluation, design.metrics, design.spec
+    volts = lambda v: format_quantity(v, "V")  # noqa: E731
+    amps = lambda v: format_quantity(v, "A", 3)  # noqa: E731
+    how = f"chosen from {spec.resistor_series}" if design.resistor_chosen else "as given"
+    lines = [
+        f"Design: {format_stack(design.elements)}  with  {format_quantity(design.resistor_ohm, 'Ω')} ({how})",
+        f"Wanted: {volts(spec.target_v)} ± {volts(spec.tolerance_v)}; "
+        f"supply {volts(spec.supply_min_v)} … {volts(spec.supply_max_v)}; "
+        f"ambient {spec.ambient_min_c:g} … {spec.ambient_max_c:g} °C",
+        f"Verdict: {_verdict(design)}",
+    ]
+    if ev.solved[0]:
+        lines += [
+            f"  rail {volts(ev.vout_nom_v[0])} nominal, {volts(ev.vout_low_v[0])} … {volts(ev.vout_high_v[0])} "
+            f"worst case; error {volts(ev.error_v[0])} (allowed {volts(spec.tolerance_v)})",
+            f"  least stack current {amps(ev.i_min_a[0])}; least margin {ev.margin[0]:.1%}",
+        ]
+    lines += ["", "Corners (< lowest rail, > highest rail, ! no solution):"]
+    lines += _corner_table(design)
+    if ev.solved[0]:
+        lines += [
+            "",
+            "At nominal:",
+            f"  line regulation {metrics.line_regulation_mv_per_v:.4g} mV/V "
+            f"(ripple attenuation {metrics.ripple_attenuation_db:.1f} dB)",
+            f"  load regulation {metrics.load_regulation_mv_per_ma:.4g} mV/mA",
+            f"  rail tempco {metrics.tempco_mv_per_k:.4g} mV/K",
+            f"  efficiency {metrics.efficiency:.1%}",
+            f"Hottest junction: {metrics.hottest_junction_c:.1f} °C, position {metrics.hottest_element + 1}, "
+            f"corner {metrics.hottest_corner + 1}",
+            f"Series resistor: worst {format_quantity(metrics.resistor_worst_power_w, 'W', 3)} of "
+            f"{format_quantity(spec.resistor_rating_w, 'W')} rating; smallest standard rating that carries it: "
+            + (format_quantity(metrics.resistor_rating_needed_w, "W") if metrics.resistor_rating_needed_w else "over 10 W"),
+            "",
+            "Margin per part (worst corner):",
+        ]
+        for position, part in enumerate(design.elements):
+            lines.append(
+                f"  {position + 1:>2}. {part:<16} {format_quantity(metrics.element_worst_power_w[position], 'W', 3):>10}"
+                f"   margin {metrics.element_worst_margin[position]:7.1%}"
+            )
+    if design.monte_carlo is not None:
+        mc = design.monte_carlo
+        lines += ["", f"Monte Carlo ({mc.samples} samples, seed {mc.seed}): yield {mc.yield_fraction:.2%}"]
+        if mc.percentiles:
+            spread = ", ".join(f"{p:g} %: {volts(v)}" for p, v in mc.percentiles.items())
+            lines.append(f"  rail percentiles {spread}")
+    cautions = design_cautions(design)
+    if cautions:
+        lines.append("")
+        lines += [f"Caution: {line}" for line in cautions]
+    return lines
+
+
+def _corner_table(design: CheckedDesign) -> list[str]:
+    ev, spec = design.metrics.evaluation, design.spec
+    corners = worst_case_corners(spec)
+    resistive = spec.load_kind == "resistance"
+    header = (
+        f"  {'#':>2}  {'supply':>9} {'load':>10} {'ambient':>8} {'R':>10} {'parts':>5}"
+        f"  {'rail':>10} {'stack I':>10} {'R power':>10} {'hot Tj':>7}"
+    )
+    rows = [header]
+    solved = ev.corner_solved[0]
+    vout = ev.vout_v[0]
+    low = int(np.argmin(np.where(solved, vout, np.inf))) if solved.any() else -1
+    high = int(np.argmax(np.where(solved, vout, -np.inf))) if solved.any() else -1
+    for c in range(len(corners)):
+        mark = "!" if not solved[c] else "<" if c == low else ">" if c == high else " "
+        load = format_quantity(corners.load_value[c], "Ω" if resistive else "A", 3)
+        cells = (
+            f"{mark}{c + 1:>2}  {format_quantity(corners.supply_v[c], 'V'):>9} {load:>10} "
+            f"{corners.ambient_c[c]:>6g}°C {format_quantity(design.resistor_ohm * corners.resistor_factor[c], 'Ω'):>10} "
+            f"{'+' if corners.tolerance_sign[c] > 0 else '−':>5}"
+        )
+        if solved[c]:
+            cells += (
+                f"  {format_quantity(vout[c], 'V', 5):>10} {format_quantity(ev.stack_current_a[0, c], 'A', 3):>10} "
+                f"{format_quantity(ev.resistor_power_w[0, c], 'W', 3):>10} {ev.hottest_junction_c[0, c]:>5.1f}°C"
+            )
+        else:
+            cells += "  no solution"
+        rows.append(" " + cells)
+    return rows
