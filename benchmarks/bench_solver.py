@@ -1,0 +1,85 @@
+"""Operating points per second of the rail solver, against a per-point brentq loop.
+
+Prints figures; it is not a test. Four-element stacks of invented parts (two forward,
+two zener kinds, mixed at random), self-heating on, random conditions over a plausible
+rail range. The reference solves a subsample one point at a time with
+``scipy.optimize.brentq`` on the same model (``selector.devices.stack_voltage``).
+
+Run:  python benchmarks/bench_solver.py [--points N] [--reference M]
+"""
+
+from __future__ import annotations
+
+import argparse
+import time
+
+import numpy as np
+from scipy.optimize import brentq
+
+from selector.circuit import solve_operating_points
+from selector.devices import stack_voltage
+from selector.partset import PartSet
+
+INVENTED_PARTS = [
+    dict(part="B-SIG", family="signal", is_a=2e-9, n=1.9, rs_ohm=0.6, vf_tol_v=0.02, pd_w=0.4),
+    dict(part="B-REC", family="rectifier", is_a=5e-9, n=1.8, rs_ohm=0.05, pd_w=1.0),
+    dict(part="B-Z3V3", family="zener", vz_v=3.3, izt_a=5e-3, zzt_ohm=60, izk_a=2.5e-4, zzk_ohm=900,
+         vz_tol_pct=5, tc_v_per_k=-2e-3, pd_w=0.5),
+    dict(part="B-Z5V1", family="zener", vz_v=5.1, izt_a=5e-3, zzt_ohm=12, izk_a=2.5e-4, zzk_ohm=500,
+         vz_tol_pct=5, tc_v_per_k=1.5e-3, pd_w=0.5),
+]  # fmt: skip
+
+
+def conditions(count: int, seed: int = 1):
+    rng = np.random.default_rng(seed)
+    stacks = rng.integers(0, 4, (count, 4))
+    stack_cold = stacks.shape[1] * 6.0
+    supply = rng.uniform(stack_cold, stack_cold + 15.0, count)
+    resistor = rng.uniform(200.0, 2000.0, count)
+    ambient = rng.uniform(-40.0, 85.0, count)
+    sign = rng.choice([-1.0, 1.0], count)
+    load = rng.uniform(0.0, 2e-3, count)
+    return stacks, supply, resistor, ambient, sign, load
+
+
+def brentq_point(parts, stack, supply, resistor, ambient, sign, load):
+    def residual(current):
+        v, _ = stack_voltage(parts, stack[None, :], current, ambient, sign)
+        return supply - resistor * (current + load) - v[0]
+
+    return brentq(residual, 1e-15, (supply - resistor * load) / resistor, xtol=1e-15, rtol=1e-12)
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--points", type=int, default=1_000_000)
+    parser.add_argument("--reference", type=int, default=300)
+    args = parser.parse_args()
+    parts = PartSet.from_records(INVENTED_PARTS)
+
+    stacks, supply, resistor, ambient, sign, load = conditions(args.points)
+    solve_operating_points(parts, stacks[:20000], supply[:20000], resistor[:20000], ambient[:20000],
+                           sign[:20000], load[:20000])  # fmt: skip  # warm-up
+    start = time.perf_counter()
+    op = solve_operating_points(parts, stacks, supply, resistor, ambient, sign, load)
+    vector_seconds = time.perf_counter() - start
+    vector_rate = args.points / vector_seconds
+
+    picked = np.random.default_rng(2).choice(args.points, args.reference, replace=False)
+    start = time.perf_counter()
+    reference = [
+        brentq_point(parts, stacks[i], supply[i], resistor[i], ambient[i], sign[i], load[i]) for i in picked
+    ]
+    scalar_seconds = time.perf_counter() - start
+    scalar_rate = args.reference / scalar_seconds
+    agreement = np.max(np.abs(np.array(reference) - op.stack_current_a[picked]) / np.array(reference))
+
+    print(f"vectorised solver: {args.points} four-element stack-corner points with self-heating "
+          f"in {vector_seconds:.3f} s = {vector_rate:,.0f} points/s (one process)")  # fmt: skip
+    print(f"  solved {op.solved.mean():.4%}; largest |KCL residual| {np.max(np.abs(op.kcl_residual_v)):.2e} V")
+    print(f"per-point brentq loop: {args.reference} points in {scalar_seconds:.3f} s = {scalar_rate:,.0f} points/s")
+    print(f"speed-up: {vector_rate / scalar_rate:,.0f}x; largest relative current difference {agreement:.2e}")
+
+
+if __name__ == "__main__":
+    main()
