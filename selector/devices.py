@@ -414,8 +414,8 @@ def _forward_steady_state(u, ambient, theta, sign, guess, fields):
         safe = slope > 1.0 - RUNAWAY_LOOP_GAIN
         step = np.where(safe, residual / np.where(safe, slope, 1.0), 0.0)
         junction[index] -= step
-        # Keep the iterate in a range where the model is defined: never below absolute zero's
-        # neighbourhood; a forward element cannot be colder than ambient (V·I ≥ 0).
+        # A forward element is never colder than ambient (V·I ≥ 0); clipping there keeps the
+        # iterate where the model is defined.
         junction[index] = np.maximum(junction[index], ambient[index])
         active[index] = safe & (np.abs(step) > _THERMAL_TOLERANCE_K)
     voltage, du, dt = forward_voltage_slopes(u, junction, *fields, sign)

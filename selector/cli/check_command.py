@@ -44,7 +44,7 @@ def check(state, stack_text, as_json, samples, seed, derating, spec):
 
     Without --resistor the resistor is chosen from the spec's series by the least
     worst-case error among feasible values.
-    """  # noqa: D301
+    """
     if samples is not None and not (1 <= samples <= MAX_MONTE_CARLO_SAMPLES):
         raise OptionError(f"--monte-carlo: {samples} is not between 1 and {MAX_MONTE_CARLO_SAMPLES}")
     if not (0.0 < derating <= 1.0):
