@@ -12,8 +12,8 @@ from selector.catalog.part_sheet import format_table, list_rows, part_sheet
 from selector.catalog.parts_export import write_parts_csv
 from selector.catalog.parts_import import ImportPlan, load_parts_csv, parse_column_settings
 from selector.errors import InputDataError, UnknownPartError
-from selector.units import format_quantity
 from selector.partset import FAMILIES
+from selector.units import format_quantity
 
 _FAMILY = click.Choice(FAMILIES, case_sensitive=False)
 _LIST_COLUMNS = ("part", "family", "package", "at 25 °C", "pd", "description")
