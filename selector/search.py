@@ -19,8 +19,11 @@ from collections import Counter
 from collections.abc import Callable, Sequence
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import asdict, dataclass, field
+from pathlib import Path
+from typing import NamedTuple
 
 import numpy as np
+import pandas as pd
 
 from selector.candidates import check_search_size, iterate_multisets, usable_parts
 from selector.partset import PartSet
@@ -45,6 +48,8 @@ from selector.stack_bounds import bound_stacks, part_bound_tables
 
 #: Stacks solved per batch; the pruning threshold is updated between batches.
 BATCH_STACKS = 3000
+#: Stacks in the first batch.
+FIRST_BATCH_STACKS = 128
 #: Below this many survivors a process pool costs more than it saves.
 PARALLEL_THRESHOLD = 4 * BATCH_STACKS
 
@@ -147,6 +152,17 @@ class Shortlist:
         e = self.evaluation
         keys = key_columns(e.meets[-1:], e.error_v[-1:], e.margin[-1:], (self.stacks[-1:] >= 0).sum(axis=1), self.order, self.resolution_v)
         return [float(k[0]) for k in keys]
+
+
+def batch_slices(count: int) -> list[slice]:
+    """Batches growing from small to :data:`BATCH_STACKS`: the first, most promising
+    stacks fill the shortlist quickly, so the threshold prunes the rest early."""
+    slices, start, size = [], 0, FIRST_BATCH_STACKS
+    while start < count:
+        slices.append(slice(start, min(start + size, count)))
+        start += size
+        size = min(2 * size, BATCH_STACKS)
+    return slices
 
 
 def lower_bound_keys(error_lower_v, parts, spec: RailSpec, order, resolution_v) -> list[np.ndarray]:
@@ -266,7 +282,7 @@ def search_library(
 
     shortlist = Shortlist(top, order, resolution_v, stacks[:0], np.zeros(0))
     infeasible = Counter()
-    batches = [slice(s, min(s + BATCH_STACKS, len(stacks))) for s in range(0, len(stacks), BATCH_STACKS)]
+    batches = batch_slices(len(stacks))
     worker_count = workers if workers is not None else min(os.cpu_count() or 1, 2)
     pool = None
     if worker_count > 1 and len(stacks) >= PARALLEL_THRESHOLD:
@@ -310,3 +326,69 @@ def search_library(
     summary.infeasible = dict(infeasible)
     summary.elapsed_s = time.perf_counter() - started
     return shortlist, usable, summary
+
+
+class SeekResult(NamedTuple):
+    """What :func:`seek` returns: the shortlist DataFrame and the search summary."""
+
+    shortlist: pd.DataFrame
+    summary: SearchSummary
+
+
+def library_partset(library) -> PartSet:
+    """Parts of a library given as a PartSet, a catalog ``Library``, or a db path/URL."""
+    if isinstance(library, PartSet):
+        return library
+    if isinstance(library, (str, Path)):
+        from selector.catalog.store import open_library
+
+        library = open_library(str(library))
+    return library.load_partset()
+
+
+def seek(
+    spec: RailSpec | str | Path,
+    library,
+    *,
+    top: int = 10,
+    rank_by: Sequence[str] | str | None = None,
+    resolution_v: float = DEFAULT_RESOLUTION_V,
+    usable_mask: np.ndarray | None = None,
+    conditions: Sequence[str] | None = None,
+    force: bool = False,
+    workers: int | None = None,
+    progress: Callable[[int, int], None] | None = None,
+) -> SeekResult:
+    """Search a library for the stacks and resistors that best hold a rail.
+
+    Parameters
+    ----------
+    spec : RailSpec or path of a spec TOML
+    library : PartSet, ``selector.catalog.store.Library``, or a db path/URL
+    top : int
+        Shortlist length; when fewer designs meet, the closest feasible ones fill it.
+    rank_by, resolution_v, usable_mask, conditions, force, workers, progress
+        As for :func:`search_library`.
+
+    Returns
+    -------
+    SeekResult
+        ``shortlist``: DataFrame with the contract's columns (DESIGN §4) and ``pareto``,
+        ``i_min_a``, ``conditions``; ``summary``: :class:`SearchSummary`.
+
+    Examples
+    --------
+    >>> from selector import seek                                   # doctest: +SKIP
+    >>> shortlist, summary = seek("rail.toml", "parts.sqlite", top=5)  # doctest: +SKIP
+    """
+    from selector.shortlist_view import shortlist_frame
+    from selector.spec import load_spec
+
+    if not isinstance(spec, RailSpec):
+        spec = load_spec(spec, {})
+    shortlist, usable, summary = search_library(
+        library_partset(library), spec, top=top, rank_by=rank_by, resolution_v=resolution_v,
+        usable_mask=usable_mask, conditions=conditions, force=force, workers=workers, progress=progress,
+    )
+    frame = shortlist_frame(usable.parts, shortlist.stacks, shortlist.resistor_ohm, shortlist.evaluation, usable.condition)
+    return SeekResult(frame, summary)

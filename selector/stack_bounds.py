@@ -69,6 +69,8 @@ VOLTAGE_SLACK_V = 1e-7
 TEMPERATURE_SLICES = 24
 #: Smallest current used in place of zero [A]; the solver rejects currents below 1 fA.
 CURRENT_FLOOR_A = 1e-300
+#: Floor of the junction range [°C], 1 K above absolute zero.
+LOWEST_JUNCTION_C = -272.15
 #: The (ambient, tolerance sign) classes of corners, in this order.
 CLASS_SIGNS = (-1.0, 1.0, -1.0, 1.0)
 
@@ -126,6 +128,8 @@ def voltage_range_fixed_current(
         np.asarray(part_index, dtype=np.intp), current_a, ambient_c, junction_high_c, tolerance_sign
     )
     t_low = ambient - parts.theta_ja_k_per_w[part_index] * parts.vf_tol_v[part_index] * current
+    # Only absurd currents (far past any power limit) reach this; keep the model defined.
+    t_low = np.maximum(t_low, LOWEST_JUNCTION_C)
     t_high = np.maximum(t_high, t_low)
     v_low, _, _ = element_voltage_slopes(parts, part_index, current, t_low, sign)
     v_high, _, _ = element_voltage_slopes(parts, part_index, current, t_high, sign)

@@ -1,3 +1,110 @@
-"""Placeholder: this command family is not built yet."""
+"""``railwright seek``: search the library for stacks that hold a rail, print the shortlist."""
 
-COMMANDS: list = []
+from __future__ import annotations
+
+import sys
+import time
+
+import click
+
+from selector.cli.spec_options import SPEC_OPTIONS_EPILOG, describe_spec, spec_options
+from selector.search import seek as seek_library
+from selector.shortlist_view import shortlist_json, terminal_table, write_shortlist_csv
+from selector.units import VOLTAGE, format_quantity, parse_quantity
+
+#: Margin below which a shortlisted design is flagged as running a part near its limit.
+NEAR_LIMIT_MARGIN = 0.1
+
+
+class DelayedProgress:
+    """A progress line on stderr, shown only on a terminal and only after ~1 s."""
+
+    def __init__(self, delay_s: float = 1.0) -> None:
+        self.started = time.perf_counter()
+        self.delay_s = delay_s
+        self.shown = False
+        self.enabled = sys.stderr.isatty()
+
+    def __call__(self, done: int, total: int) -> None:
+        if not self.enabled or time.perf_counter() - self.started < self.delay_s:
+            return
+        self.shown = True
+        click.echo(f"\rsolving candidate stacks: {done}/{total} ({100 * done / max(total, 1):.0f} %)", err=True, nl=False)
+
+    def close(self) -> None:
+        if self.shown:
+            click.echo("", err=True)
+
+
+def summary_lines(summary) -> list[str]:
+    """Human summary: counts by outcome, elapsed time."""
+    lines = [
+        f"Considered {summary.considered} stacks of {summary.part_count} usable parts in {summary.elapsed_s:.2f} s; "
+        f"solved {summary.solved} exactly ({summary.designs_solved} stack–resistor designs × 32 corners).",
+    ]
+    lines += [f"  pruned, {reason}: {count}" for reason, count in summary.pruned.items()]
+    lines += [f"  infeasible after solving, {reason}: {count}" for reason, count in summary.infeasible.items()]
+    lines.append(f"  feasible: {summary.feasible}, meeting the spec: {summary.meeting}")
+    return lines
+
+
+@click.command(
+    "seek",
+    epilog="Example: railwright seek --spec rail.toml --top 5 --csv shortlist.csv\n\n" + SPEC_OPTIONS_EPILOG,
+)
+@spec_options
+@click.option("--top", type=click.IntRange(1, 10000), default=10, show_default=True, help="Shortlist length.")
+@click.option("--csv", "csv_path", metavar="FILE", default=None, help="Also write the shortlist as CSV to FILE.")
+@click.option("--json", "as_json", is_flag=True, help="Print the shortlist and summary as JSON instead of a table.")
+@click.option("--rank-by", metavar="KEYS", default=None, help="Key order after 'meets', e.g. 'margin,error' (keys: error, margin, parts).")
+@click.option("--resolution", metavar="VOLTS", default="1 mV", show_default=True, help="Error step the ranking treats as equal, e.g. '5 mV'.")
+@click.option("--force", is_flag=True, help="Search even when the candidate count is above the sane limit.")
+@click.pass_context
+def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool, rank_by: str | None, resolution: str, force: bool) -> None:
+    """Search every stack of up to max_parts library parts for the rail; list the best.
+
+    Every candidate is either solved at all 32 worst-case corners with its series
+    resistor chosen from the spec's E-series, or dropped by a bound that proves it
+    cannot be feasible or cannot enter the shortlist.
+    """
+    from selector.errors import OptionError, QuantityError
+
+    try:
+        resolution_v = parse_quantity(resolution, VOLTAGE)
+    except QuantityError as error:
+        raise OptionError(f"--resolution: {error}") from None
+    if not resolution_v > 0:
+        raise OptionError(f"--resolution: must be a positive voltage, not '{resolution}'")
+    progress = DelayedProgress()
+    try:
+        result = seek_library(spec, ctx.obj.library(), top=top, rank_by=rank_by, resolution_v=resolution_v, force=force, progress=progress)
+    finally:
+        progress.close()
+    frame, summary = result
+    if csv_path is not None:
+        write_shortlist_csv(frame, csv_path)
+    if as_json:
+        click.echo(shortlist_json(frame, summary.as_dict()))
+        return
+    for line in describe_spec(spec):
+        click.echo(line)
+    click.echo("")
+    if frame.empty:
+        reason = summary.main_rejection
+        click.echo(f"No feasible design. Most candidates were rejected because: {reason or 'no candidate'}.")
+    else:
+        click.echo(terminal_table(frame))
+        near = int((frame["margin"] < NEAR_LIMIT_MARGIN).sum())
+        if near:
+            click.echo(
+                f"Caution: {near} listed design(s) run a part or the resistor within "
+                f"{NEAR_LIMIT_MARGIN:.0%} of its power limit; derate and check against local codes and licensed practice."
+            )
+    click.echo("")
+    for line in summary_lines(summary):
+        click.echo(line)
+    if csv_path is not None:
+        click.echo(f"Shortlist written to {csv_path} ({len(frame)} rows, best error {format_quantity(float(frame['error_v'].min()), 'V') if len(frame) else '—'}).")
+
+
+COMMANDS = [seek]

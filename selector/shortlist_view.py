@@ -1,0 +1,117 @@
+"""A shortlist as a DataFrame, and its terminal table, CSV file and JSON text.
+
+The CSV and JSON columns are the interface contract's (DESIGN §4): ``rank, stack, parts,
+resistor_ohm, vout_nom_v, vout_low_v, vout_high_v, error_v, margin, meets``, followed by
+our additions ``pareto`` (on the front of error, margin and part count), ``i_min_a`` and
+``conditions`` (conditions of use of the stack's parts, when any).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from selector.csv_safety import write_rows
+from selector.ranking import pareto_front
+from selector.stack_notation import format_stack
+from selector.units import format_quantity
+
+CONTRACT_COLUMNS: tuple[str, ...] = (
+    "rank", "stack", "parts", "resistor_ohm", "vout_nom_v", "vout_low_v", "vout_high_v",
+    "error_v", "margin", "meets",
+)  # fmt: skip
+EXTRA_COLUMNS: tuple[str, ...] = ("pareto", "i_min_a", "conditions")
+COLUMNS: tuple[str, ...] = CONTRACT_COLUMNS + EXTRA_COLUMNS
+
+
+def shortlist_frame(parts, stacks: np.ndarray, resistor_ohm: np.ndarray, evaluation, condition: np.ndarray) -> pd.DataFrame:
+    """Build the shortlist DataFrame from ranked designs (best first).
+
+    Parameters
+    ----------
+    parts : PartSet
+        The parts the stack indices refer to.
+    stacks : int array (n, max_len)
+    resistor_ohm : array (n,) [Ω]
+    evaluation : DesignEvaluation or None
+        Of the same designs, in the same order (None: an empty shortlist).
+    condition : array of str
+        Per part, its condition of use (empty when none).
+    """
+    if evaluation is None or len(resistor_ohm) == 0:
+        return pd.DataFrame({column: pd.Series(dtype=object) for column in COLUMNS})
+    rows = [row[row >= 0] for row in stacks]
+    count = np.array([row.size for row in rows])
+    conditions = [
+        "; ".join(dict.fromkeys(f"{parts.part[i]}: {condition[i]}" for i in row if condition[i])) for row in rows
+    ]
+    return pd.DataFrame({
+        "rank": np.arange(1, len(rows) + 1),
+        "stack": [format_stack(parts.part[row]) for row in rows],
+        "parts": count,
+        "resistor_ohm": np.asarray(resistor_ohm, dtype=float),
+        "vout_nom_v": evaluation.vout_nom_v,
+        "vout_low_v": evaluation.vout_low_v,
+        "vout_high_v": evaluation.vout_high_v,
+        "error_v": evaluation.error_v,
+        "margin": evaluation.margin,
+        "meets": np.asarray(evaluation.meets, dtype=bool),
+        "pareto": pareto_front(evaluation.error_v, evaluation.margin, count),
+        "i_min_a": evaluation.i_min_a,
+        "conditions": conditions,
+    })
+
+
+def _plain(value):
+    if isinstance(value, np.generic):
+        value = value.item()
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
+def frame_records(frame: pd.DataFrame) -> list[dict]:
+    """Rows as plain dicts (Python scalars; non-finite floats as None)."""
+    return [{column: _plain(value) for column, value in row.items()} for row in frame.to_dict(orient="records")]
+
+
+def write_shortlist_csv(frame: pd.DataFrame, destination: str | Path) -> int:
+    """Write the shortlist CSV (spreadsheet-safe cells, exact floats); returns the row count."""
+    return write_rows(destination, COLUMNS, frame_records(frame))
+
+
+def shortlist_json(frame: pd.DataFrame, summary: dict) -> str:
+    """JSON text: ``{"shortlist": [rows…], "summary": {…}}``."""
+    return json.dumps({"shortlist": frame_records(frame), "summary": summary}, indent=2, ensure_ascii=False)
+
+
+_TABLE = (
+    ("#", "rank", lambda v: str(v)),
+    ("stack", "stack", str),
+    ("n", "parts", str),
+    ("R [Ω]", "resistor_ohm", lambda v: format_quantity(v, "")),
+    ("Vnom [V]", "vout_nom_v", lambda v: f"{v:.4f}"),
+    ("Vlow [V]", "vout_low_v", lambda v: f"{v:.4f}"),
+    ("Vhigh [V]", "vout_high_v", lambda v: f"{v:.4f}"),
+    ("error [V]", "error_v", lambda v: format_quantity(v, "")),
+    ("margin [%]", "margin", lambda v: f"{100 * v:.1f}"),
+    ("meets", "meets", lambda v: "yes" if v else "no"),
+    ("front", "pareto", lambda v: "*" if v else ""),
+)
+
+
+def terminal_table(frame: pd.DataFrame) -> str:
+    """Aligned text table with units in the headers and engineering notation."""
+    headers = [title for title, _, _ in _TABLE]
+    cells = [[show(row[column]) for _, column, show in _TABLE] for _, row in frame.iterrows()]
+    widths = [max([len(h)] + [len(r[i]) for r in cells]) for i, h in enumerate(headers)]
+    numeric = {0, 2, 3, 4, 5, 6, 7, 8}
+
+    def line(values):
+        return "  ".join(v.rjust(w) if i in numeric else v.ljust(w) for i, (v, w) in enumerate(zip(values, widths, strict=True))).rstrip()
+
+    return "\n".join([line(headers), line(["-" * w for w in widths])] + [line(r) for r in cells])

@@ -1,0 +1,123 @@
+"""The search finds exactly what a brute force finds, and its bounds hold.
+
+Every library here is invented for these tests (no real part's data).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from selector.candidates import candidate_count, check_search_size, iterate_multisets, usable_parts
+from selector.corners import evaluate_designs
+from selector.errors import SearchError
+from selector.eseries import series_values
+from selector.partset import PartSet
+from selector.search import REASON_RANK, search_library, seek
+from selector.spec import RailSpec
+from selector.stack_bounds import bound_stacks, part_bound_tables
+
+INVENTED = [
+    dict(part="TF-SIG", family="signal", description="invented", is_a=2e-9, n=1.8, rs_ohm=0.5, pd_w=0.4, vf_tol_v=0.02),
+    dict(part="TF-LED", family="led", description="invented", is_a=1e-18, n=2.0, rs_ohm=8, pd_w=0.1, if_max_a=0.03),
+    dict(part="TZ-4V7", family="zener", description="invented", vz_v=4.7, izt_a=5e-3, zzt_ohm=15, izk_a=0.25e-3,
+         zzk_ohm=500, vz_tol_pct=5, tc_v_per_k=0.5e-3, pd_w=0.5),
+    dict(part="TZ-3V3", family="zener", description="invented", vz_v=3.3, izt_a=5e-3, zzt_ohm=25, izk_a=0.25e-3,
+         zzk_ohm=600, vz_tol_pct=2, tc_v_per_k=-2e-3, pd_w=0.5),
+    dict(part="TZ-2V4", family="zener", description="invented", vz_v=2.4, izt_a=5e-3, zzt_ohm=30, izk_a=0.5e-3,
+         zzk_ohm=900, vz_tol_pct=1, tc_v_per_k=-2.5e-3, pd_w=0.25),
+]
+
+
+def invented_parts() -> PartSet:
+    return PartSet.from_records(INVENTED)
+
+
+def rail(**changes) -> RailSpec:
+    fields = dict(target_v=5.0, tolerance_v=0.15, supply_min_v=11.0, supply_max_v=13.0, supply_nominal_v=12.0,
+                  load_kind="current", load_min=0.0, load_max=0.01, ambient_min_c=0.0, ambient_max_c=50.0,
+                  resistor_series="E12")
+    fields.update(changes)
+    return RailSpec(**fields)
+
+
+def brute_force(parts: PartSet, spec: RailSpec):
+    """Every multiset × every series value 1 Ω … 10 MΩ, solved at all corners."""
+    stacks = np.concatenate(list(iterate_multisets(len(parts), spec.max_parts)))
+    values = series_values(spec.resistor_series, 1.0, 10e6)
+    evaluation = evaluate_designs(parts, np.repeat(stacks, values.size, axis=0), np.tile(values, len(stacks)), spec)
+    error = np.where(evaluation.feasible, evaluation.error_v, np.inf).reshape(len(stacks), values.size)
+    return stacks, values, error, evaluation
+
+
+def test_enumeration_counts_every_multiset_once():
+    rows = np.concatenate(list(iterate_multisets(7, 3, chunk_rows=5)))
+    assert len(rows) == candidate_count(7, 3) == 7 + 28 + 84
+    as_tuples = {tuple(r) for r in rows}
+    assert len(as_tuples) == len(rows)
+    sorted_part = np.where(rows < 0, 99, rows)
+    assert np.all(np.diff(sorted_part, axis=1) >= 0)
+
+
+@pytest.mark.parametrize("changes", [{}, {"load_kind": "resistance", "load_min": 1000.0, "load_max": 5000.0},
+                                     {"min_margin": 0.3, "ambient_max_c": 85.0}, {"target_v": 3.0, "tolerance_v": 0.3}])
+def test_bounds_hold_for_every_feasible_design(changes):
+    parts, spec = invented_parts(), rail(**changes)
+    stacks, values, error, evaluation = brute_force(parts, spec)
+    bounds = bound_stacks(part_bound_tables(parts, spec), stacks, spec)
+    feasible = evaluation.feasible.reshape(len(stacks), values.size)
+    vout = evaluation.vout_v.reshape(len(stacks), values.size, 32)
+    for row in range(len(stacks)):
+        for column in np.flatnonzero(feasible[row]):
+            assert bounds.resistor_low_ohm[row] <= values[column] <= bounds.resistor_high_ohm[row]
+            assert error[row, column] >= bounds.error_lower_v[row]
+            assert vout[row, column].min() >= bounds.vout_lower_v[row].min()
+            assert vout[row, column].max() <= bounds.vout_upper_v[row].max()
+        assert not (bounds.window_empty[row] and feasible[row].any())
+
+
+@pytest.mark.parametrize("changes", [{}, {"target_v": 3.0, "tolerance_v": 0.3}, {"tolerance_v": 0.5}])
+def test_search_shortlist_equals_brute_force(changes):
+    parts, spec = invented_parts(), rail(**changes)
+    stacks, values, error, _ = brute_force(parts, spec)
+    per_stack = error.min(axis=1)
+    top = 6
+    expected = np.sort(per_stack[np.isfinite(per_stack)])[:top]
+    shortlist, _, summary = search_library(parts, spec, top=top, resolution_v=1e-12, rank_by="error,parts,margin", workers=1)
+    assert summary.considered == len(stacks)
+    np.testing.assert_allclose(np.sort(shortlist.evaluation.error_v), expected, rtol=0, atol=1e-12)
+
+
+def test_seek_frame_lists_contract_columns_and_fills_with_closest_feasible():
+    frame, summary = seek(rail(tolerance_v=0.01), invented_parts(), top=4, workers=1)
+    assert list(frame.columns[:10]) == ["rank", "stack", "parts", "resistor_ohm", "vout_nom_v", "vout_low_v",
+                                        "vout_high_v", "error_v", "margin", "meets"]
+    assert len(frame) == 4 and not frame["meets"].any()
+    assert list(frame["rank"]) == [1, 2, 3, 4]
+    assert summary.meeting == 0 and summary.feasible >= 4
+
+
+def test_rank_pruning_is_counted_and_loses_nothing(monkeypatch):
+    import selector.search as search_module
+
+    monkeypatch.setattr(search_module, "FIRST_BATCH_STACKS", 4)
+    monkeypatch.setattr(search_module, "BATCH_STACKS", 4)
+    parts, spec = invented_parts(), rail(max_parts=3)
+    _, _, error, _ = brute_force(parts, spec)
+    shortlist, _, summary = search_library(invented_parts(), rail(max_parts=3), top=1, workers=1)
+    assert summary.pruned.get(REASON_RANK, 0) > 0
+    assert summary.considered == sum(summary.pruned.values()) + summary.solved
+    assert shortlist.evaluation.error_v[0] == pytest.approx(error.min(), abs=1e-12)
+
+
+def test_bad_inputs_raise_one_line_errors():
+    parts = invented_parts()
+    with pytest.raises(SearchError, match="^unknown family 'diac'"):
+        usable_parts(parts, families=("diac",))
+    with pytest.raises(SearchError, match="holds no parts"):
+        usable_parts(parts.take([]))
+    with pytest.raises(SearchError, match="left after the approved-list filter"):
+        usable_parts(parts, usable_mask=np.zeros(len(parts), dtype=bool))
+    with pytest.raises(SearchError, match=r"makes 2\.\d+e\+\d+ candidate stacks"):
+        check_search_size(300, 12)
+    assert check_search_size(300, 12, force=True) > 10**16
