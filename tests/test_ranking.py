@@ -1,0 +1,56 @@
+"""Shortlist order, --rank-by, the Pareto flag and the pruning threshold test."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from selector.errors import OptionError
+from selector.ranking import (
+    beats_threshold,
+    pareto_front,
+    quantised_error,
+    rank_order,
+    sort_designs,
+)
+
+
+def test_default_order_meets_error_margin_parts():
+    meets = np.array([False, True, True, True, True])
+    error = np.array([0.0001, 0.0204, 0.0201, 0.0201, 0.0101])
+    margin = np.array([0.9, 0.5, 0.2, 0.6, 0.1])
+    parts = np.array([1, 1, 2, 3, 3])
+    order = sort_designs(meets, error, margin, parts, resolution_v=1e-3)
+    # 10 mV step first, then the three 20 mV designs by margin, the non-meeting one last.
+    assert list(order) == [4, 3, 1, 2, 0]
+
+
+def test_rank_by_reorders_the_keys_after_meets():
+    assert rank_order("margin") == ("margin", "error", "parts")
+    assert rank_order("parts, error") == ("parts", "error", "margin")
+    meets = np.array([True, True, False])
+    order = sort_designs(meets, np.array([0.01, 0.02, 0.0]), np.array([0.1, 0.9, 1.0]), np.array([1, 1, 1]), order=rank_order("margin"))
+    assert list(order) == [1, 0, 2]
+    with pytest.raises(OptionError, match="^--rank-by: unknown key 'cost'"):
+        rank_order("cost")
+    with pytest.raises(OptionError, match="given twice"):
+        rank_order("error,error")
+
+
+def test_quantisation_and_bad_resolution():
+    np.testing.assert_array_equal(quantised_error(np.array([0.0, 0.00099, 0.001, 0.0025]), 1e-3), [0, 0, 1, 2])
+    with pytest.raises(OptionError, match="^--resolution"):
+        quantised_error(np.array([0.1]), 0.0)
+
+
+def test_pareto_front_marks_non_dominated_rows():
+    error = np.array([0.01, 0.02, 0.01, 0.03])
+    margin = np.array([0.5, 0.8, 0.4, 0.8])
+    parts = np.array([2, 2, 2, 1])
+    np.testing.assert_array_equal(pareto_front(error, margin, parts), [True, True, False, True])
+
+
+def test_beats_threshold_is_strict_lexicographic():
+    lower = [np.array([0.0, 0.0, 1.0, 0.0]), np.array([5.0, 6.0, 0.0, 5.0]), np.array([-1.0, -1.0, -1.0, -1.0])]
+    threshold = [0.0, 5.0, -0.5]
+    np.testing.assert_array_equal(beats_threshold(lower, threshold), [False, True, True, False])

@@ -1,0 +1,86 @@
+"""``railwright seek`` through click's CliRunner: output, CSV, JSON and bad input."""
+
+from __future__ import annotations
+
+import csv
+import json
+
+import pytest
+from click.testing import CliRunner
+from test_search import INVENTED
+
+from selector.catalog.store import open_library
+from selector.cli import main
+
+QUICK = ["--target", "5V", "--tolerance", "3%", "--supply-min", "11V", "--supply-max", "13V",
+         "--load-min", "0", "--load-max", "10mA", "--ambient-min", "0", "--ambient-max", "50", "--max-parts", "2"]
+
+
+@pytest.fixture
+def invented_db(tmp_path):
+    path = tmp_path / "invented.sqlite"
+    library = open_library(str(path))
+    records = [{**record, "package": "invented"} for record in INVENTED]
+    library.import_records(records, kind="test", file_name="invented", file_sha256="0" * 64)
+    library.close()
+    return str(path)
+
+
+def run(*arguments):
+    return CliRunner().invoke(main, list(arguments))
+
+
+def test_seek_prints_table_summary_and_writes_csv(invented_db, tmp_path):
+    target = tmp_path / "shortlist.csv"
+    result = run("--db", invented_db, "seek", *QUICK, "--top", "3", "--csv", str(target))
+    assert result.exit_code == 0, result.output
+    assert "R [Ω]" in result.output and "error [V]" in result.output
+    assert "Considered 20 stacks" in result.output
+    rows = list(csv.DictReader(target.open(encoding="utf-8")))
+    assert len(rows) == 3
+    assert list(rows[0])[:10] == ["rank", "stack", "parts", "resistor_ohm", "vout_nom_v", "vout_low_v",
+                                  "vout_high_v", "error_v", "margin", "meets"]
+
+
+def test_seek_json_rows_and_summary(invented_db):
+    result = run("--db", invented_db, "seek", *QUICK, "--top", "2", "--json")
+    assert result.exit_code == 0, result.output
+    document = json.loads(result.output)
+    assert [row["rank"] for row in document["shortlist"]] == [1, 2]
+    assert document["summary"]["considered"] == 20
+    assert document["summary"]["spec"]["target_v"] == 5.0
+
+
+def test_empty_library_is_one_line_error(tmp_path):
+    result = run("--db", str(tmp_path / "empty.sqlite"), "seek", *QUICK)
+    assert result.exit_code == 1
+    assert result.output.strip().splitlines()[-1] == (
+        "Error: the library holds no parts; add some with 'railwright parts import FILE.csv'"
+    )
+
+
+def test_family_filter_leaving_nothing(invented_db):
+    result = run("--db", invented_db, "seek", *QUICK, "--families", "schottky")
+    assert result.exit_code == 1
+    assert result.output.strip().splitlines()[-1] == "Error: no part of the library is in the families schottky"
+
+
+def test_bad_rank_key_and_resolution(invented_db):
+    result = run("--db", invented_db, "seek", *QUICK, "--rank-by", "cost")
+    assert result.exit_code == 2
+    assert "Error: --rank-by: unknown key 'cost'" in result.output
+    result = run("--db", invented_db, "seek", *QUICK, "--resolution", "-1 mV")
+    assert result.exit_code == 2
+    assert "Error: --resolution: must be a positive voltage, not '-1 mV'" in result.output
+
+
+def test_nothing_feasible_names_the_main_rejection(invented_db):
+    result = run("--db", invented_db, "seek", *QUICK, "--min-margin", "99.9%")
+    assert result.exit_code == 0, result.output
+    assert "No feasible design. Most candidates were rejected because:" in result.output
+
+
+def test_help_has_an_example():
+    result = run("seek", "--help")
+    assert result.exit_code == 0
+    assert "Example: railwright seek --spec rail.toml" in result.output
