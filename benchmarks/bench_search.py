@@ -20,8 +20,8 @@ import time
 import numpy as np
 
 from selector.candidates import iterate_multisets
-from selector.corners import worst_case_corners
-from selector.devices import stack_voltage
+from selector.corners import allowed_power_w, worst_case_corners
+from selector.devices import self_heated_element, stack_voltage
 from selector.eseries import series_values
 from selector.partset import PartSet
 from selector.search import search_library
@@ -92,12 +92,26 @@ def plain_exhaustive(parts: PartSet, spec: RailSpec, top: int, bisection_steps: 
         residual = supply - resistance * (np.exp(middle) + fixed + conductance * v) - v
         low, high = np.where(residual > 0, middle, low), np.where(residual > 0, high, middle)
     current = np.exp(0.5 * (low + high))
-    vout, _ = stack_voltage(parts, point_stacks, current, corners.ambient_c[corner], corners.tolerance_sign[corner])
-    vout = vout.reshape(-1, 32)
-    current = current.reshape(-1, 32)
+    ambient, sign = corners.ambient_c[corner], corners.tolerance_sign[corner]
+    vout, _ = stack_voltage(parts, point_stacks, current, ambient, sign)
+    rows, slots = np.nonzero(point_stacks >= 0)
+    element = point_stacks[rows, slots]
+    state = self_heated_element(parts, element, np.log(current[rows]), ambient[rows], sign[rows])
+    element_margin = 1.0 - state.voltage_v * current[rows] / allowed_power_w(parts, element, ambient[rows])
+    worst = np.ones(current.size)
+    np.minimum.at(worst, rows, element_margin)
+    over = np.zeros(current.size, dtype=bool)
+    np.logical_or.at(over, rows, current[rows] > parts.if_max_a[element])
+    load = fixed + conductance * vout
+    worst = np.minimum(worst, 1.0 - resistance * (current + load) ** 2 / spec.resistor_rating_w)
+    vout, current = vout.reshape(-1, 32), current.reshape(-1, 32)
     error = np.maximum(np.abs(vout.max(axis=1) - spec.target_v), np.abs(vout.min(axis=1) - spec.target_v))
     need = np.maximum(np.where(stacks >= 0, parts.i_min_a[np.maximum(stacks, 0)], 0).max(axis=1), spec.min_current_a)
-    feasible = current.min(axis=1) >= need[design_stack]
+    feasible = (
+        (current.min(axis=1) >= need[design_stack])
+        & (worst.reshape(-1, 32).min(axis=1) >= spec.min_margin)
+        & ~over.reshape(-1, 32).any(axis=1)
+    )
     return stacks, design_stack, design_r, error, feasible
 
 

@@ -26,6 +26,7 @@ import numpy as np
 import pandas as pd
 
 from selector.candidates import check_search_size, iterate_multisets, usable_parts
+from selector.errors import OptionError
 from selector.partset import PartSet
 from selector.ranking import (
     DEFAULT_RESOLUTION_V,
@@ -180,14 +181,6 @@ def lower_bound_keys(error_lower_v, parts, spec: RailSpec, order, resolution_v) 
     return [(error_lower_v > spec.tolerance_v).astype(float)] + [by_name[name] for name in order]
 
 
-def stack_texts(parts: PartSet, stacks: np.ndarray) -> np.ndarray:
-    """Canonical stack notation of each row, e.g. ``'Z4V7 + 2*D1'``."""
-    from selector.stack_notation import format_stack
-
-    names = parts.part
-    return np.array([format_stack(names[row[row >= 0]]) for row in stacks], dtype=object)
-
-
 def _solve_batch(parts: PartSet, spec: RailSpec, stacks: np.ndarray, tables):
     """Choose and evaluate the resistor of each stack; also the number of designs solved."""
     bounds = bound_stacks(tables, stacks, spec)
@@ -258,12 +251,10 @@ def search_library(
     force : bool
         Search even when the candidate count is above the sane limit.
     workers : int, optional
-        Processes for exact solving (default: the machine's cores, at most 2… cores).
+        Processes for exact solving (default: the machine's cores, at most 2).
     progress : callable(done, total), optional
         Called as survivors are solved.
     """
-    from selector.errors import OptionError
-
     started = time.perf_counter()
     if top < 1:
         raise OptionError(f"--top: must be at least 1, not {top}")

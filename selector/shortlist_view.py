@@ -115,3 +115,15 @@ def terminal_table(frame: pd.DataFrame) -> str:
         return "  ".join(v.rjust(w) if i in numeric else v.ljust(w) for i, (v, w) in enumerate(zip(values, widths, strict=True))).rstrip()
 
     return "\n".join([line(headers), line(["-" * w for w in widths])] + [line(r) for r in cells])
+
+
+def summary_lines(summary) -> list[str]:
+    """Human summary: counts by outcome, elapsed time."""
+    lines = [
+        f"Considered {summary.considered} stacks of {summary.part_count} usable parts in {summary.elapsed_s:.2f} s; "
+        f"solved {summary.solved} exactly ({summary.designs_solved} stack–resistor designs × 32 corners).",
+    ]
+    lines += [f"  pruned, {reason}: {count}" for reason, count in summary.pruned.items()]
+    lines += [f"  infeasible after solving, {reason}: {count}" for reason, count in summary.infeasible.items()]
+    lines.append(f"  feasible: {summary.feasible}, meeting the spec: {summary.meeting}")
+    return lines

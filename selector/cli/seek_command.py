@@ -9,7 +9,12 @@ import click
 
 from selector.cli.spec_options import SPEC_OPTIONS_EPILOG, describe_spec, spec_options
 from selector.search import seek as seek_library
-from selector.shortlist_view import shortlist_json, terminal_table, write_shortlist_csv
+from selector.shortlist_view import (
+    shortlist_json,
+    summary_lines,
+    terminal_table,
+    write_shortlist_csv,
+)
 from selector.units import VOLTAGE, format_quantity, parse_quantity
 
 #: Margin below which a shortlisted design is flagged as running a part near its limit.
@@ -34,18 +39,6 @@ class DelayedProgress:
     def close(self) -> None:
         if self.shown:
             click.echo("", err=True)
-
-
-def summary_lines(summary) -> list[str]:
-    """Human summary: counts by outcome, elapsed time."""
-    lines = [
-        f"Considered {summary.considered} stacks of {summary.part_count} usable parts in {summary.elapsed_s:.2f} s; "
-        f"solved {summary.solved} exactly ({summary.designs_solved} stack–resistor designs × 32 corners).",
-    ]
-    lines += [f"  pruned, {reason}: {count}" for reason, count in summary.pruned.items()]
-    lines += [f"  infeasible after solving, {reason}: {count}" for reason, count in summary.infeasible.items()]
-    lines.append(f"  feasible: {summary.feasible}, meeting the spec: {summary.meeting}")
-    return lines
 
 
 @click.command(
