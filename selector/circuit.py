@@ -182,7 +182,13 @@ def solve_operating_points(
             if not per_element:
                 slots[2][chosen] = element_sign[chosen]
                 slots[5][chosen] = element_sign[chosen]
-            outcome = _solve_block(parts, *(slot[chosen] for slot in slots), *(c[chosen] for c in conditions))
+            block = [slot[chosen] for slot in slots] + [c[chosen] for c in conditions]
+            outcome = _newton_block(parts, *block)
+            hard = outcome[2] < 0
+            if hard.any():
+                rescued = _solve_block(parts, *(value[hard] for value in block))
+                for value, fallback in zip(outcome, rescued, strict=True):
+                    value[hard] = fallback
             log_current[chosen], vout[chosen], status[chosen], worst_margin[chosen], hottest[chosen] = outcome
     solved = status == STATUS_SOLVED
     supply, resistor, ambient, load_fixed, load_conductance = conditions
@@ -246,6 +252,8 @@ def family_slots(parts: PartSet, stacks: np.ndarray, element_sign: np.ndarray | 
     """
     width = stacks.shape[1]
     if element_sign is None:
+        return _distinct_family_slots(parts, stacks)
+    if element_sign is None:
         ordered = np.sort(stacks, axis=1)
         sign = np.zeros(stacks.shape)
         first = ordered >= 0
@@ -272,6 +280,58 @@ def family_slots(parts: PartSet, stacks: np.ndarray, element_sign: np.ndarray | 
         count_out[rows, target] = multiplicity[rows, slots]
         sign_out[rows, target] = sign[rows, slots]
         result += [part_out, count_out, sign_out]
+    return tuple(result)
+
+
+def _sort_columns(columns: list[np.ndarray]) -> None:
+    """Sort each row across a short list of column arrays, in place (odd-even transposition
+    network: ``width`` passes of compare-exchange; D. E. Knuth, *The Art of Computer
+    Programming* vol. 3, 2nd ed., §5.3.4)."""
+    width = len(columns)
+    for rank in range(width):
+        for i in range(rank % 2, width - 1, 2):
+            low = np.minimum(columns[i], columns[i + 1])
+            np.maximum(columns[i], columns[i + 1], out=columns[i + 1])
+            columns[i] = low
+
+
+def _distinct_family_slots(parts: PartSet, stacks: np.ndarray) -> tuple[np.ndarray, ...]:
+    """:func:`family_slots` for one tolerance sign per point, column by column.
+
+    Sorting each row's part keys puts equal parts side by side; the first of each run
+    carries the run's length, and a second sort per family moves those firsts to the front.
+    Whole columns are sorted with a network, so no per-row work is done in Python or by a
+    per-row sort call.
+    """
+    count, width = stacks.shape
+    part_count = len(parts.is_zener)
+    pad = 2 * part_count
+    # Index −1 (padding) reads the last entry.
+    key_of_part = np.append(np.arange(part_count) + parts.is_zener * part_count, pad)
+    columns = [key_of_part[stacks[:, j]] for j in range(width)]
+    _sort_columns(columns)
+    first = [columns[0] < pad] + [(columns[j] < pad) & (columns[j] != columns[j - 1]) for j in range(1, width)]
+    boundary = np.full(count, width)
+    runs = [boundary] * width
+    for j in range(width - 1, -1, -1):
+        runs[j] = boundary - j
+        boundary = np.where(first[j] | (columns[j] == pad), j, boundary)
+    shift = width.bit_length()
+    result = []
+    for is_breakdown in (False, True):
+        encoded = []
+        for j in range(width):
+            wanted = first[j] & ((columns[j] >= part_count) if is_breakdown else (columns[j] < part_count))
+            encoded.append(np.where(wanted, (columns[j] << shift) | runs[j], pad << shift))
+        _sort_columns(encoded)
+        key = np.stack(encoded, axis=1)
+        part = key >> shift
+        present = part < pad
+        result += [
+            np.where(present, part - part_count * is_breakdown, 0),
+            np.where(present, key & ((1 << shift) - 1), 0),
+            np.zeros(stacks.shape),
+        ]
     return tuple(result)
 
 
@@ -483,4 +543,230 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
             outcome[failed & runaway[finished]] = STATUS_RUNAWAY
             status[where] = outcome
             active &= ~finished
+    return out_u, out_v, status, out_margin, out_hottest
+
+
+#: Newton evaluations the fast path spends on a point before handing it to the safeguarded solver.
+FAST_EVALUATIONS = 8
+#: Zener loop gain ``θ·tc·I`` the fast path stays below, so ``1/(1 − g)`` stays modest.
+_FAST_LOOP_GAIN = 0.999
+#: Current at which the fast path's starting stack voltage is taken [A].
+_REFERENCE_CURRENT_A = 1e-3
+
+
+def _inverse_allowed_power(parts, part, multiplicity, ambient):
+    """``1/(m·P_max)`` per slot, ``P_max = min(pd, (Tjmax − Ta)/θ)`` (DESIGN §3); 0 for empty slots."""
+    allowed = np.minimum(parts.pd_w[part], (parts.tj_max_c[part] - ambient) / parts.theta_ja_k_per_w[part])
+    scaled = multiplicity * np.where(allowed > 0, allowed, 1e-300)
+    return np.divide(1.0, scaled, out=np.zeros(part.shape), where=multiplicity > 0)
+
+
+def _forward_slot_constants(parts, part, count, sign, ambient):
+    """Forward constants per slot with the multiplicity ``m`` folded in, shape (10, slots, points).
+
+    Rows: ``ln Is`` offset, xti/n, eg·q/(n·k) (per element, SPICE3 scaling rearranged as in
+    :class:`_Family`); m·n·k/q, m·xti·k/q, m·eg, m·rs, m·s·vf_tol (whole slot); θ/m (one
+    element's heating from the slot's voltage); 1/(m·P_max).
+    """
+    m = count.T.astype(float)
+    p = part.T
+    n = parts.n[p]
+    nominal_k = parts.tnom_c[p] + ZERO_CELSIUS_K
+    xti_over_n = parts.xti[p] / n
+    eg_over_nkq = parts.eg_ev[p] / (n * BOLTZMANN_OVER_CHARGE_V_PER_K)
+    out = np.empty((10,) + p.shape)
+    out[0] = np.log(parts.is_a[p]) - xti_over_n * np.log(nominal_k) + eg_over_nkq / nominal_k
+    out[1] = xti_over_n
+    out[2] = eg_over_nkq
+    out[3] = m * n * BOLTZMANN_OVER_CHARGE_V_PER_K
+    out[4] = m * parts.xti[p] * BOLTZMANN_OVER_CHARGE_V_PER_K
+    out[5] = m * parts.eg_ev[p]
+    out[6] = m * parts.rs_ohm[p]
+    out[7] = m * sign.T * parts.vf_tol_v[p]
+    out[8] = np.divide(parts.theta_ja_k_per_w[p], m, out=np.zeros(p.shape), where=m > 0)
+    out[9] = _inverse_allowed_power(parts, p, m, ambient)
+    return out
+
+
+def _breakdown_slot_constants(parts, part, count, sign, ambient):
+    """Zener constants per slot with the multiplicity ``m`` folded in, shape (6, slots, points).
+
+    The slot voltage at junction ``Tj = Ta + θ·I·V/m`` is ``(c + a'·ln I + rz'·I)/(1 − k·I)``
+    (DESIGN §3 breakdown element; ``V`` is linear in ``Tj``). Rows: ``c`` (the voltage at
+    1 A with the junction at the ambient, ``a'·ln I`` and ``rz'·I`` left out), ``a' = m·a``,
+    ``rz' = m·rz``, ``k = θ·tc``, θ/m, 1/(m·P_max).
+    """
+    m = count.T.astype(float)
+    p = part.T
+    izt = parts.izt_a[p]
+    tc = parts.tc_v_per_k[p]
+    a = parts.zener_a_v[p]
+    rz = parts.zener_rz_ohm[p]
+    vz = parts.vz_v[p] * (1.0 + sign.T * parts.vz_tol_pct[p] / 100.0)
+    theta = parts.theta_ja_k_per_w[p] * (m > 0)
+    out = np.empty((6,) + p.shape)
+    out[0] = m * (vz + tc * (ambient - parts.tnom_c[p]) - a * np.log(izt) - rz * izt)
+    out[1] = m * a
+    out[2] = m * rz
+    out[3] = theta * tc
+    out[4] = np.divide(theta, m, out=np.zeros(p.shape), where=m > 0)
+    out[5] = _inverse_allowed_power(parts, p, m, ambient)
+    return out
+
+
+def _newton_block(parts, forward_part, forward_count, forward_sign, breakdown_part, breakdown_count,
+                  breakdown_sign, supply, resistor, ambient, load_fixed, load_conductance):  # fmt: skip
+    """Fast path: coupled Newton without a bracket, from a close start; keeps what it verifies.
+
+    The equations, the coupled thermal step and the acceptance test are those of
+    :func:`_solve_block`. The current step is Newton's for the resistor's exponential term
+    and the stack's linear one blended to second order: with ``δ = F/|F'|`` and ``p`` the
+    resistor's share of ``|F'|``, ``Δu = (1 − p)·δ + p·ln(1 + δ)``, exact to second order
+    when ``F = K − R·e^u − S·u`` (Taylor expansion of ``R·I·(e^Δu − 1) + S·Δu = F``).
+    Points not verified within :data:`FAST_EVALUATIONS` come back with status −1.
+    """
+    count = supply.shape[0]
+    lf = int((forward_count > 0).sum(axis=1).max(initial=0))
+    lz = int((breakdown_count > 0).sum(axis=1).max(initial=0))
+    fw = _forward_slot_constants(parts, forward_part[:, :lf], forward_count[:, :lf], forward_sign[:, :lf], ambient)
+    zn = _breakdown_slot_constants(
+        parts, breakdown_part[:, :lz], breakdown_count[:, :lz], breakdown_sign[:, :lz], ambient
+    )
+    ambient_k = ambient + ZERO_CELSIUS_K
+    drive = supply - resistor * load_fixed
+    load_gain = 1.0 + resistor * load_conductance
+    current_cap = drive / resistor
+    for j in range(lz):
+        cap = np.divide(_FAST_LOOP_GAIN, zn[3, j], out=np.full(count, np.inf), where=zn[3, j] > 0)
+        np.minimum(current_cap, cap, out=current_cap)
+    status = np.full(count, -1, dtype=np.int8)
+    out_u = np.zeros(count)
+    out_v = np.zeros(count)
+    out_margin = np.full(count, -np.inf)
+    out_hottest = ambient.copy()
+
+    index = np.flatnonzero(current_cap > 2 * LEAST_CURRENT_A)
+    if index.size < count:
+        fw, zn = fw[:, :, index], zn[:, :, index]
+        ambient_k, drive, load_gain, current_cap = ambient_k[index], drive[index], load_gain[index], current_cap[index]
+        resistor = resistor[index]
+    lo = np.log(LEAST_CURRENT_A)
+    hi = np.log(current_cap)
+
+    # Start: the stack voltage at 1 mA with every junction at the ambient, then two
+    # fixed-point steps of the resistor line on the stack's log-linear slope there.
+    reference_u = np.log(_REFERENCE_CURRENT_A)
+    log_ambient_k = np.log(ambient_k)
+    stack_v = np.zeros(index.size)
+    stack_slope = np.zeros(index.size)
+    for j in range(lf):
+        x = reference_u - (fw[0, j] + fw[1, j] * log_ambient_k - fw[2, j] / ambient_k)
+        n_vt = fw[3, j] * ambient_k
+        stack_v += n_vt * np.maximum(x, 0.0) + fw[6, j] * _REFERENCE_CURRENT_A + fw[7, j]
+        stack_slope += n_vt * (x > 0.0)
+    for j in range(lz):
+        stack_v += zn[0, j] + zn[1, j] * reference_u + zn[2, j] * _REFERENCE_CURRENT_A
+        stack_slope += zn[1, j]
+    u = np.full(index.size, reference_u)
+    for _ in range(2):
+        guess_v = stack_v + stack_slope * (u - reference_u)
+        current = (drive - load_gain * guess_v) / resistor
+        u = np.log(np.clip(current, 2 * LEAST_CURRENT_A, current_cap))
+    current = np.exp(u)
+    junction = np.empty((lf, index.size))
+    for j in range(lf):
+        junction[j] = ambient_k + fw[8, j] * current * (fw[3, j] * ambient_k * np.maximum(u - reference_u, 0.0)
+                                                        + fw[6, j] * current + fw[7, j])  # fmt: skip
+    np.maximum(junction, ambient_k, out=junction)
+
+    residual_t = np.empty((lf, index.size))
+    dr_du = np.empty((lf, index.size))
+    inverse_headroom = np.empty((lf, index.size))
+    settled_v = np.empty((lf, index.size))
+    zener_v = np.empty((lz, index.size))
+    for evaluation in range(FAST_EVALUATIONS):
+        current = np.exp(u)
+        stack_v = np.zeros(index.size)
+        stack_slope = np.zeros(index.size)
+        worst_residual_t = np.zeros(index.size)
+        worst_gain = np.zeros(index.size)
+        for j in range(lf):
+            log_is_offset, xti_over_n, eg_over_nkq, nkq, xti_kq, eg, rs, offset, theta, _ = fw[:, j]
+            temperature = junction[j]
+            inverse_t = 1.0 / temperature
+            minus_x = log_is_offset + xti_over_n * np.log(temperature) - eg_over_nkq * inverse_t - u
+            np.clip(minus_x, -700.0, 700.0, out=minus_x)
+            tail = np.exp(minus_x)
+            fraction = 1.0 / (1.0 + tail)
+            n_vt = nkq * temperature
+            n_vt_log = n_vt * (np.log1p(tail) - minus_x)
+            ohmic = rs * current
+            voltage = n_vt_log + ohmic + offset
+            dv_du = n_vt * fraction + ohmic
+            dv_dt = (n_vt_log - fraction * (xti_kq * temperature + eg)) * inverse_t
+            heating = theta * current
+            r = temperature - ambient_k - heating * voltage
+            gain = heating * dv_dt
+            np.maximum(worst_gain, gain, out=worst_gain)
+            np.maximum(worst_residual_t, np.abs(r), out=worst_residual_t)
+            inverse = 1.0 / np.maximum(1.0 - gain, 1.0 - RUNAWAY_LOOP_GAIN)
+            slope_r = -heating * (voltage + dv_du)
+            settled = voltage - dv_dt * r * inverse
+            stack_v += settled
+            stack_slope += dv_du - dv_dt * slope_r * inverse
+            residual_t[j], dr_du[j], inverse_headroom[j], settled_v[j] = r, slope_r, inverse, settled
+        for j in range(lz):
+            offset, a, rz, k, _, _ = zn[:, j]
+            ohmic = rz * current
+            loop = k * current
+            inverse = 1.0 / (1.0 - loop)
+            voltage = (offset + a * u + ohmic) * inverse
+            stack_v += voltage
+            stack_slope += (a + ohmic + voltage * loop) * inverse
+            zener_v[j] = voltage
+        resistor_slope = resistor * current
+        residual = drive - resistor_slope - load_gain * stack_v
+        falling = resistor_slope + load_gain * stack_slope
+        done = (np.abs(residual) <= KCL_TOLERANCE_V) & (worst_residual_t <= THERMAL_TOLERANCE_K)
+        done &= (worst_gain < RUNAWAY_LOOP_GAIN) & (falling > 0.0)
+        last = evaluation == FAST_EVALUATIONS - 1
+        if done.any() or last:
+            where = index[done]
+            out_u[where] = u[done]
+            out_v[where] = stack_v[done]
+            status[where] = STATUS_SOLVED
+            power = np.zeros(where.size)
+            hottest = ambient_k[done]
+            for j in range(lf):
+                np.maximum(power, settled_v[j, done] * fw[9, j, done], out=power)
+                np.maximum(hottest, junction[j, done] - residual_t[j, done] * inverse_headroom[j, done], out=hottest)
+            for j in range(lz):
+                np.maximum(power, zener_v[j, done] * zn[5, j, done], out=power)
+                np.maximum(hottest, ambient_k[done] + zn[4, j, done] * current[done] * zener_v[j, done], out=hottest)
+            out_margin[where] = 1.0 - power * current[done]
+            out_hottest[where] = hottest - ZERO_CELSIUS_K
+            if last:
+                break
+            keep = ~done
+            index, u, current, residual, falling, hi = (a[keep] for a in (index, u, current, residual, falling, hi))
+            ambient_k, drive, load_gain, resistor, resistor_slope = (
+                a[keep] for a in (ambient_k, drive, load_gain, resistor, resistor_slope)
+            )
+            fw, zn = fw[:, :, keep], zn[:, :, keep]
+            junction, residual_t, dr_du, inverse_headroom = (
+                a[:, keep] for a in (junction, residual_t, dr_du, inverse_headroom)
+            )
+            settled_v, zener_v = settled_v[:, keep], zener_v[:, keep]
+            if index.size == 0:
+                break
+        denominator = np.maximum(falling, 0.5 * resistor_slope)
+        delta = residual / denominator
+        share = np.minimum(resistor_slope / denominator, 1.0)
+        step = delta + share * (np.log1p(np.maximum(delta, -0.9)) - delta)
+        new_u = np.clip(u + step, lo, hi)
+        step = new_u - u
+        u = new_u
+        for j in range(lf):
+            junction[j] -= (residual_t[j] + dr_du[j] * step) * inverse_headroom[j]
+        np.maximum(junction, ambient_k, out=junction)
     return out_u, out_v, status, out_margin, out_hottest
