@@ -7,6 +7,7 @@ import pytest
 from scipy.optimize import brentq
 from scipy.special import wrightomega
 
+from selector import circuit
 from selector.circuit import (
     STATUS_BELOW_LEAST_CURRENT,
     STATUS_SOLVED,
@@ -152,3 +153,40 @@ def test_hottest_junction_and_margin_agree_with_element_detail(parts):
     assert op.hottest_junction_c[0] == pytest.approx(op.junction_c[0].max(), abs=1e-6)
     state = self_heated_element(parts, np.array([1, 2, 3]), np.log(op.stack_current_a[0]), 60.0, 1.0)
     np.testing.assert_allclose(op.junction_c[0], state.junction_c, atol=1e-9)
+
+
+def test_fast_path_agrees_with_the_safeguarded_solver(parts, monkeypatch):
+    # Plain reference: with no fast evaluations every point goes to the bracketed solver.
+    rng = np.random.default_rng(11)
+    count = 4000
+    stacks = rng.integers(-1, 5, (count, 4))
+    stacks[:, 0] = rng.integers(0, 5, count)
+    args = (stacks, rng.uniform(3, 40, count), rng.uniform(10, 5000, count), rng.uniform(-55, 125, count),
+            rng.choice([-1.0, 0.0, 1.0], count), rng.uniform(0, 3e-3, count))  # fmt: skip
+    with np.errstate(all="raise"):
+        fast = circuit.solve_operating_points(parts, *args)
+        monkeypatch.setattr(circuit, "FAST_EVALUATIONS", 0)
+        safe = circuit.solve_operating_points(parts, *args)
+    np.testing.assert_array_equal(fast.status, safe.status)
+    ok = safe.solved
+    # Both stop at |KCL| <= 0.1 nV, so at sub-microamp currents (dynamic resistance ~ MΩ)
+    # their currents may differ by ~1e-16 A.
+    np.testing.assert_allclose(fast.stack_current_a[ok], safe.stack_current_a[ok], rtol=1e-9, atol=1e-15)
+    np.testing.assert_allclose(fast.vout_v, safe.vout_v, rtol=0, atol=1e-9)
+    np.testing.assert_allclose(fast.worst_element_margin[ok], safe.worst_element_margin[ok], rtol=0, atol=1e-9)
+    np.testing.assert_allclose(fast.hottest_junction_c[ok], safe.hottest_junction_c[ok], rtol=0, atol=1e-6)
+
+
+def test_family_slots_match_a_plain_count_per_stack(parts):
+    rng = np.random.default_rng(5)
+    stacks = rng.integers(-1, 5, (500, 5))
+    fp, fc, _, zp, zc, _ = family_slots(parts, stacks)
+    for row, stack in enumerate(stacks):
+        wanted = [{}, {}]
+        for part in stack[stack >= 0]:
+            family = wanted[int(parts.is_zener[part])]
+            family[int(part)] = family.get(int(part), 0) + 1
+        for family, part, multiplicity in ((wanted[0], fp, fc), (wanted[1], zp, zc)):
+            filled = multiplicity[row] > 0
+            assert filled.tolist() == [True] * len(family) + [False] * (stacks.shape[1] - len(family))
+            assert dict(zip(part[row][filled].tolist(), multiplicity[row][filled].tolist(), strict=True)) == family
