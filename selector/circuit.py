@@ -250,22 +250,11 @@ def family_slots(parts: PartSet, stacks: np.ndarray, element_sign: np.ndarray | 
     breakdown_part, breakdown_count, breakdown_sign : arrays (n, max_len)
         The same for breakdown parts.
     """
-    width = stacks.shape[1]
     if element_sign is None:
         return _distinct_family_slots(parts, stacks)
-    if element_sign is None:
-        ordered = np.sort(stacks, axis=1)
-        sign = np.zeros(stacks.shape)
-        first = ordered >= 0
-        first[:, 1:] &= ordered[:, 1:] != ordered[:, :-1]
-        # Sorted rows hold equal parts in runs; a run's length is its part's multiplicity.
-        multiplicity = first.astype(np.intp)
-        for offset in range(1, width):
-            multiplicity[:, :-offset] += first[:, :-offset] & (ordered[:, offset:] == ordered[:, :-offset])
-    else:
-        ordered, sign = stacks, np.asarray(element_sign, dtype=float)
-        first = ordered >= 0
-        multiplicity = first.astype(np.intp)
+    ordered, sign = stacks, np.asarray(element_sign, dtype=float)
+    first = ordered >= 0
+    multiplicity = first.astype(np.intp)
     safe_part = np.maximum(ordered, 0)
     zener = parts.is_zener[safe_part]
     result = []
