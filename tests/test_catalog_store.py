@@ -174,3 +174,37 @@ def test_a_failed_write_rolls_back_everything(empty_library):
         empty_library.import_records(records, kind="parts csv", file_name="x.csv", file_sha256="0" * 64)
     assert empty_library.part_records() == []
     assert empty_library.import_history() == []
+
+
+def test_concurrent_imports_both_succeed(demo_library, library_path):
+    """Two writers at once: the second waits for the first (busy timeout), none fails."""
+    import threading
+
+    from selector.catalog.parts_import import RawRow, validate_rows
+
+    def records(prefix: str):
+        return validate_rows(
+            [RawRow(i + 1, {"part": f"{prefix}-{i}", "family": "signal", "is_a": "1n", "n": "2", "pd_w": "0.5"})
+             for i in range(300)],
+            prefix,
+        )
+
+    failures: list[BaseException] = []
+
+    def run(prefix: str) -> None:
+        library = open_library(str(library_path))
+        try:
+            for _ in range(3):
+                library.import_records(records(prefix), kind="parts csv", file_name=prefix, file_sha256="0" * 64)
+        except BaseException as error:  # collected for the assertion below
+            failures.append(error)
+        finally:
+            library.close()
+
+    threads = [threading.Thread(target=run, args=(prefix,)) for prefix in ("TA", "TB", "TC")]
+    for thread in threads:
+        thread.start()
+    for thread in threads:
+        thread.join()
+    assert failures == []
+    assert len(demo_library.part_records()) == 74 + 900

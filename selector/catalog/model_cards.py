@@ -44,8 +44,6 @@ from dataclasses import dataclass, field
 from decimal import Decimal, InvalidOperation
 from pathlib import Path
 
-from scipy import constants
-
 from selector import units
 from selector.catalog.parts_import import (
     PartsFile,
@@ -56,6 +54,7 @@ from selector.catalog.parts_import import (
     read_input_bytes,
     validate_rows,
 )
+from selector.devices import thermal_voltage_v
 from selector.errors import InputDataError
 from selector.partset import FORWARD_FAMILIES
 
@@ -186,11 +185,6 @@ def parse_model_cards(text: str, label: str) -> tuple[list[ModelCard], list[str]
     return cards, warnings
 
 
-def thermal_voltage_v(temperature_c: float) -> float:
-    """Vt = k·T/q [V] at a temperature [°C] (k, q from ``scipy.constants``)."""
-    return constants.k * (temperature_c + constants.zero_Celsius) / constants.e
-
-
 def _quantity_or_none(cells: Mapping[str, object], column: str, kind: units.Kind) -> float | None:
     value = cells.get(column)
     if value is None or (isinstance(value, str) and not value.strip()):
@@ -234,7 +228,7 @@ def _zener_cells(card: ModelCard, overrides: Mapping[str, object]) -> dict[str, 
     if "BV" not in card.values:
         return {}
     tnom_c = card.value("TNOM")
-    slope_v = card.value("N") * thermal_voltage_v(tnom_c)
+    slope_v = card.value("N") * float(thermal_voltage_v(tnom_c))
     rs_ohm, ibv_a = card.value("RS"), card.value("IBV")
     if not (ibv_a > 0 and slope_v > 0 and rs_ohm >= 0):
         return {"vz_v": card.values["BV"], "tnom_c": tnom_c}

@@ -38,6 +38,8 @@ DEFAULT_LIBRARY_FILE = "library.sqlite"
 BUSY_TIMEOUT_MS = 30_000
 
 _SQLITE_MAGIC = b"SQLite format 3\x00"
+#: Execution option that marks a transaction as a writer.
+_WRITE_OPTION = "railwright_write"
 
 Notify = Callable[[str], None]
 
@@ -108,7 +110,10 @@ def _configure_sqlite(engine: Engine) -> None:
 
     @event.listens_for(engine, "begin")
     def _on_begin(connection) -> None:
-        connection.exec_driver_sql("BEGIN")
+        # A writer takes the write lock at BEGIN, so two imports queue on the busy
+        # timeout instead of one failing when it upgrades a read lock.
+        writing = connection.get_execution_options().get(_WRITE_OPTION, False)
+        connection.exec_driver_sql("BEGIN IMMEDIATE" if writing else "BEGIN")
 
 
 def _make_engine(location: LibraryLocation) -> Engine:
@@ -189,13 +194,16 @@ class Library:
             raise LibraryError(f"{self.location_text()}: {_first_line(error)}") from None
 
     @contextmanager
-    def session(self) -> Iterator[Session]:
+    def session(self, *, write: bool = False) -> Iterator[Session]:
         """A session inside one transaction: committed on success, rolled back on error.
 
-        Database failures surface as :class:`LibraryError` naming the library.
+        ``write=True`` takes SQLite's write lock at the start (other writers wait up to
+        the busy timeout). Database failures surface as :class:`LibraryError` naming
+        the library.
         """
+        engine = self.engine.execution_options(**{_WRITE_OPTION: True}) if write else self.engine
         try:
-            with Session(self.engine, expire_on_commit=False) as session, session.begin():
+            with Session(engine, expire_on_commit=False) as session, session.begin():
                 yield session
         except IntegrityError as error:
             raise LibraryError(f"{self.location_text()}: refused by the database ({_first_line(error)})") from None
@@ -280,7 +288,7 @@ class Library:
             What was (or, with ``dry_run``, would be) added, changed and left unchanged.
         """
         records = list(records)
-        with self.session() as session:
+        with self.session(write=not dry_run) as session:
             wanted = [record["part"] for record in records]
             existing = {
                 part.part: part
@@ -337,7 +345,7 @@ class Library:
 
     def remove_part(self, part: str) -> None:
         """Delete one part; :class:`UnknownPartError` when it is not in the library."""
-        with self.session() as session:
+        with self.session(write=True) as session:
             result = session.execute(delete(Part).where(Part.part == part))
             if result.rowcount == 0:
                 raise UnknownPartError(f"unknown part '{part}' (not in the library {self.location_text()})")
