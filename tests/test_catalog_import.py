@@ -130,6 +130,11 @@ def test_non_utf8_missing_and_folder_inputs(tmp_path):
         load_parts_csv(tmp_path)
 
 
+def test_empty_trailing_header_cells_are_ignored(tmp_path):
+    parts = load_parts_csv(write(tmp_path, "part,family,is_a,n,pd_w,,\nD-1,signal,2n,1.9,0.5,,\n"))
+    assert [record["part"] for record in parts.records] == ["D-1"] and parts.warnings == []
+
+
 def test_byte_order_mark_semicolons_and_blank_rows(tmp_path):
     text = "\ufeffpart;family;is_a;n;pd_w\n\nD-1;signal;2n;1.9;0.5\n;;;;\n"
     parts = load_parts_csv(write(tmp_path, text))

@@ -198,7 +198,7 @@ def read_csv_rows(
         columns = [cell.strip().lower() for cell in header]
         warnings = []
         for position, name in enumerate(columns):
-            if name in columns[:position]:
+            if name and name in columns[:position]:
                 errors.append(f"{label}:1: {name}: column appears twice")
             elif name and name not in KNOWN_COLUMNS:
                 warnings.append(f"{label}:1: {name}: not a parts column; ignored")

@@ -12,6 +12,7 @@ from selector.catalog.part_sheet import format_table, list_rows, part_sheet
 from selector.catalog.parts_export import write_parts_csv
 from selector.catalog.parts_import import ImportPlan, load_parts_csv, parse_column_settings
 from selector.errors import InputDataError, UnknownPartError
+from selector.fitting import fit_forward_points
 from selector.partset import FAMILIES
 from selector.units import format_quantity
 
@@ -167,8 +168,6 @@ def fit_command(state, part, points, family, settings, dry_run) -> None:
       railwright parts fit D-NEW1 --family signal --set pd_w=250m \\
           --point "0.60 V @ 1 mA" --point "0.72 V @ 10 mA" --point "0.98 V @ 100 mA"
     """
-    from selector.fitting import fit_forward_points
-
     part = part.strip()
     overrides: dict[str, object] = parse_column_settings(settings)
     if family:
