@@ -247,3 +247,12 @@ def test_rules_cover_every_numeric_column_with_its_kind():
     assert RULES["theta_ja_k_per_w"].kind is units.THERMAL_RESISTANCE
     assert RULES["vz_tol_pct"].kind is units.PERCENT
     assert RULES["n"].kind is units.DIMENSIONLESS and RULES["xti"].kind is units.DIMENSIONLESS
+
+
+def test_control_characters_are_escaped_in_messages(tmp_path):
+    path = write(tmp_path, "part,family,is_a,n,pd_w\nD\x001,sig\x1bnal,1n,2,0.5\n")
+    with pytest.raises(InputDataError) as caught:
+        load_parts_csv(path)
+    assert "'D\\x001' is not a part id" in str(caught.value)
+    assert "unknown family 'sig\\x1bnal'" in str(caught.value)
+    assert "\x00" not in str(caught.value) and "\x1b" not in str(caught.value)

@@ -223,6 +223,12 @@ def read_csv_rows(
     return columns, rows, warnings
 
 
+def _printable(text: str, limit: int = 40) -> str:
+    """Text for a message: control characters escaped, cut at ``limit`` characters."""
+    escaped = "".join(c if ord(c) >= 32 else f"\\x{ord(c):02x}" for c in text[:limit])
+    return escaped + ("…" if len(text) > limit else "")
+
+
 def _text_problem(text: str) -> str | None:
     if any(ord(character) < 32 for character in text):
         return "holds a control character"
@@ -281,7 +287,7 @@ def _validate_row(row: RawRow, first_line_of: dict[str, int]) -> tuple[dict[str,
         errors.append("part: missing")
     elif not is_valid_part_id(part):
         errors.append(
-            f"part: '{part[:70]}' is not a part id (1–64 letters, digits or . _ - /, "
+            f"part: '{_printable(part, 70)}' is not a part id (1–64 letters, digits or . _ - /, "
             "starting with a letter or digit)"
         )
     elif part in first_line_of:
@@ -294,7 +300,7 @@ def _validate_row(row: RawRow, first_line_of: dict[str, int]) -> tuple[dict[str,
     if not family:
         errors.append("family: missing")
     elif family not in FAMILIES:
-        errors.append(f"family: unknown family '{family[:40]}'; expected one of {', '.join(FAMILIES)}")
+        errors.append(f"family: unknown family '{_printable(family)}'; expected one of {', '.join(FAMILIES)}")
     record["family"] = family
 
     for column, limit in TEXT_LIMITS.items():
