@@ -27,14 +27,16 @@ FORMULA_TRIGGERS: tuple[str, ...] = ("=", "+", "-", "@", "\t", "\r")
 
 def neutralise_cell(value: object) -> object:
     """Prefix an apostrophe to text a spreadsheet would evaluate; leave others alone."""
-    if isinstance(value, str) and value.startswith(FORMULA_TRIGGERS):
+    if isinstance(value, str) and value.lstrip("'").startswith(FORMULA_TRIGGERS):
+        # Text already starting with apostrophes before a trigger gets one more, so that
+        # restore_cell can always remove exactly one.
         return "'" + value
     return value
 
 
 def restore_cell(text: str) -> str:
     """Undo :func:`neutralise_cell` on a text cell read back from a CSV."""
-    if text.startswith("'") and text[1:].startswith(FORMULA_TRIGGERS):
+    if text.startswith("'") and text.lstrip("'").startswith(FORMULA_TRIGGERS):
         return text[1:]
     return text
 
