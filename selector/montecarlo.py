@@ -18,7 +18,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.stats import truncnorm
 
 from selector.circuit import solve_operating_points
 from selector.corners import load_terms
@@ -57,6 +56,9 @@ class MonteCarloResult:
 
 def truncated_unit_normal(rng: np.random.Generator, shape) -> np.ndarray:
     """Draws in [−1, 1] from a normal with σ = 1/3, truncated at ±1 (3σ at the limit)."""
+    # scipy.stats costs about 2 s to import; load it only when sampling.
+    from scipy.stats import truncnorm
+
     return truncnorm.rvs(-3.0, 3.0, loc=0.0, scale=1.0 / 3.0, size=shape, random_state=rng)
 
 
