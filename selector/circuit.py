@@ -507,6 +507,10 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
         collapsed = (hi_w - lo_w) < 1e-13
         finished = (done | collapsed) & active
 
+        # The junctions the finished points are reported with: settled at this current, taken
+        # before the update below, which follows the next trial current (a bisection step for
+        # a converged point) and so no longer belongs to the solution.
+        settled_junction_f = junction_f - thermal_residual / headroom_f
         # Coupled Newton update of the forward junctions (Schur complement of the thermal rows).
         junction_f = np.maximum(junction_f - (thermal_residual + dr_du * (new_u - u)) / headroom_f, fw.ambient)
         work.update(u=new_u, lo=lo_w, hi=hi_w, seen_positive=seen_positive, seen_negative=seen_negative)
@@ -521,7 +525,7 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
             load_z = (v_z[:, finished] * i_done * zn.inverse_p_max[:, finished]).max(axis=0, initial=0.0)
             out_margin[where] = 1.0 - np.maximum(load_f, load_z)
             out_hottest[where] = np.maximum(
-                np.maximum(junction_f[:, finished].max(axis=0, initial=-np.inf), ambient[where]),
+                np.maximum(settled_junction_f[:, finished].max(axis=0, initial=-np.inf), ambient[where]),
                 tj_z[:, finished].max(axis=0, initial=-np.inf),
             )
             outcome = np.full(where.size, STATUS_NOT_CONVERGED, dtype=np.int8)

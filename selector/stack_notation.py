@@ -14,7 +14,11 @@ from selector.errors import StackNotationError
 
 PART_ID_PATTERN = r"[A-Za-z0-9][A-Za-z0-9._/\-]{0,63}"
 _PART_ID = re.compile(rf"^{PART_ID_PATTERN}$")
-_TERM = re.compile(rf"^(?:(\d+)\*)?({PART_ID_PATTERN})$")
+# ASCII digits only, and few of them: a count is small, and int() of a long digit run
+# would fail (Python's integer-string limit) rather than give a message.
+_TERM = re.compile(rf"^(?:([0-9]{{1,6}})\*)?({PART_ID_PATTERN})$")
+#: Longest piece of a user's stack text quoted back in a message [characters].
+_SHOWN_LENGTH = 40
 
 #: More elements than this in one stack is certainly a typing slip.
 MAX_STACK_ELEMENTS = 64
@@ -51,18 +55,24 @@ def parse_stack(text: str) -> list[tuple[int, str]]:
     for position, term in enumerate(compact.split("+"), start=1):
         match = _TERM.match(term)
         if not match:
-            shown = term or "(nothing)"
+            shown = _shown(term) if term else "(nothing)"
             raise StackNotationError(
                 f"--stack: term {position} '{shown}' is not [COUNT*]PART, e.g. '2*D1'"
             )
         count = int(match.group(1) or 1)
         if count < 1:
-            raise StackNotationError(f"--stack: term {position} '{term}' has a count below 1")
+            raise StackNotationError(f"--stack: term {position} '{_shown(term)}' has a count below 1")
         total += count
         if total > MAX_STACK_ELEMENTS:
             raise StackNotationError(f"--stack: more than {MAX_STACK_ELEMENTS} elements in one stack")
         terms.append((count, match.group(2)))
     return terms
+
+
+def _shown(term: str) -> str:
+    """A term for a message: control characters escaped, long text cut."""
+    text = "".join(c if c.isprintable() else repr(c)[1:-1] for c in term[:_SHOWN_LENGTH])
+    return text + ("…" if len(term) > _SHOWN_LENGTH else "")
 
 
 def expand_stack(terms: Iterable[tuple[int, str]]) -> list[str]:

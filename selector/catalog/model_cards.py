@@ -41,7 +41,7 @@ import math
 import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
-from decimal import Decimal, InvalidOperation
+from decimal import Decimal, DecimalException
 from pathlib import Path
 
 from selector import units
@@ -104,14 +104,15 @@ def parse_spice_number(text: str) -> float:
     """
     match = _SPICE_NUMBER.match(text.strip())
     if not match:
-        raise ValueError(f"'{text}' is not a SPICE number")
+        raise ValueError(f"'{units.shown(text[:40])}' is not a SPICE number")
     number, suffix = match.group(1), (match.group(2) or "").lower()
     try:
         value = float(Decimal(number).scaleb(SPICE_SCALE.get(suffix, 0)))
-    except (InvalidOperation, OverflowError):
-        raise ValueError(f"'{text}' is out of range") from None
+    except (DecimalException, OverflowError):
+        # decimal.Overflow (an exponent past the decimal context) is not an OverflowError.
+        raise ValueError(f"'{text[:40]}' is out of range") from None
     if not math.isfinite(value):
-        raise ValueError(f"'{text}' is out of range")
+        raise ValueError(f"'{text[:40]}' is out of range")
     return value
 
 
