@@ -5,7 +5,7 @@ from __future__ import annotations
 import click
 import pytest
 
-from selector.catalog.store import default_library_path, open_library
+from selector.catalog.store import default_library_path, head_revision, open_library
 from selector.cli import main
 
 GOOD = "part,family,is_a,n,pd_w,description\nD-T1,signal,2.5n,1.9,500m,test diode\n"
@@ -52,7 +52,7 @@ def test_explicit_db_starts_empty_and_env_var_is_honoured(run_cli, library_path,
 def test_init_demo(run_cli, library_path):
     result = run_cli("--db", library_path, "init", "--demo")
     assert result.exit_code == 0
-    assert result.stdout == f"library {library_path} ready (schema revision 0001)\n"
+    assert result.stdout == f"library {library_path} ready (schema revision {head_revision()})\n"
     again = run_cli("--db", library_path, "init", "--demo")
     assert again.stdout.startswith("demo sets: 0 added, 0 changed, ")
     assert len(open_library(str(library_path)).part_records()) >= 72

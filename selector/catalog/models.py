@@ -1,4 +1,7 @@
-"""SQLAlchemy 2.x typed ORM models of the parts library: parts and the import log.
+"""SQLAlchemy 2.x typed ORM models of the parts library.
+
+Parts and the import log (revision 0001); approved-parts lists, their entries and the
+append-only audit trail (revision 0002).
 
 The database schema is made only by the Alembic migrations in ``migrations/``; these
 models describe the same schema for queries, and a test asserts the two never drift
@@ -13,10 +16,22 @@ from __future__ import annotations
 
 from datetime import UTC, datetime
 
-from sqlalchemy import CheckConstraint, DateTime, Float, Integer, MetaData, String, Text
+from sqlalchemy import (
+    CheckConstraint,
+    DateTime,
+    Float,
+    ForeignKey,
+    Index,
+    Integer,
+    MetaData,
+    String,
+    Text,
+    UniqueConstraint,
+)
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
 
 from selector.partset import FAMILIES, NUMERIC_COLUMNS
+from selector.spec import LIST_STATUSES
 
 #: Constraint names are fixed so that SQLite batch migrations can find them again.
 NAMING_CONVENTION = {
@@ -33,8 +48,14 @@ PACKAGE_LENGTH = 64
 DESCRIPTION_LENGTH = 500
 SOURCE_LENGTH = 500
 
+LIST_NAME_LENGTH = 100
+PERSON_LENGTH = 128
+EVENT_ACTION_LENGTH = 32
+
 #: SQL text of the family CHECK constraint, shared with the initial migration.
 FAMILY_CHECK_SQL = "family IN (" + ", ".join(f"'{family}'" for family in FAMILIES) + ")"
+#: SQL text of the list-status CHECK constraint, compared with revision 0002 by a test.
+STATUS_CHECK_SQL = "status IN (" + ", ".join(f"'{status}'" for status in LIST_STATUSES) + ")"
 
 
 def utc_now() -> datetime:
@@ -106,6 +127,69 @@ class ImportLog(Base):
     rows_added: Mapped[int] = mapped_column(Integer)
     rows_changed: Mapped[int] = mapped_column(Integer)
     rows_unchanged: Mapped[int] = mapped_column(Integer)
+
+
+class ApprovedList(Base):
+    """One named approved-parts list of the shop (e.g. one per product line)."""
+
+    __tablename__ = "approved_lists"
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    name: Mapped[str] = mapped_column(String(LIST_NAME_LENGTH), unique=True)
+    description: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True), default=utc_now)
+    created_by: Mapped[str] = mapped_column(String(PERSON_LENGTH))
+
+
+class ListEntry(Base):
+    """A part's current status on one list, with the reason, person and time it was set.
+
+    The foreign key to ``parts`` restricts deletion: a part a list references cannot be
+    removed until it is taken off every list (the store refuses first, naming the lists).
+    """
+
+    __tablename__ = "list_entries"
+    __table_args__ = (
+        UniqueConstraint("list_id", "part_id"),
+        CheckConstraint(STATUS_CHECK_SQL, name="status_known"),
+    )
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    list_id: Mapped[int] = mapped_column(ForeignKey("approved_lists.id", ondelete="RESTRICT"))
+    part_id: Mapped[int] = mapped_column(ForeignKey("parts.id", ondelete="RESTRICT"), index=True)
+    status: Mapped[str] = mapped_column(String(16))
+    reason: Mapped[str] = mapped_column(Text)
+    #: Condition of use of a ``conditional`` part; empty for every other status.
+    condition: Mapped[str] = mapped_column(Text, default="")
+    since: Mapped[datetime] = mapped_column(DateTime(timezone=True), default=utc_now)
+    changed_by: Mapped[str] = mapped_column(String(PERSON_LENGTH))
+
+
+class AuditEvent(Base):
+    """One change to a part or a list entry: who, when (UTC), what, old → new, and why.
+
+    Append-only: revision 0002 installs triggers that make the database refuse UPDATE
+    and DELETE on this table. ``part`` and ``list_name`` are kept as text, not foreign
+    keys, so that the history of a removed part or a renamed list stays readable.
+    """
+
+    __tablename__ = "audit_events"
+    __table_args__ = (
+        Index("ix_audit_events_part", "part"),
+        Index("ix_audit_events_occurred_at", "occurred_at"),
+    )
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    occurred_at: Mapped[datetime] = mapped_column(DateTime(timezone=True), default=utc_now)
+    actor: Mapped[str] = mapped_column(String(PERSON_LENGTH))
+    #: ``part added``, ``part changed``, ``part removed``, ``status set``, ``entry removed``,
+    #: ``list created``, ``list renamed``.
+    action: Mapped[str] = mapped_column(String(EVENT_ACTION_LENGTH))
+    part: Mapped[str | None] = mapped_column(String(PART_ID_LENGTH))
+    list_name: Mapped[str | None] = mapped_column(String(LIST_NAME_LENGTH))
+    old_value: Mapped[str | None] = mapped_column(Text)
+    new_value: Mapped[str | None] = mapped_column(Text)
+    reason: Mapped[str] = mapped_column(Text)
 
 
 #: Text columns of a part record, and every column a record carries.

@@ -5,15 +5,24 @@ team library. Its schema is made only by the Alembic migrations; opening a libra
 older schema revision upgrades it to head and says so through ``notify``. SQLite runs
 with foreign keys on, write-ahead logging and a busy timeout, and every write is one
 transaction, so a failed import leaves the library as it was.
+
+Every write goes through :meth:`Library.write`: SQLite's write lock is taken at BEGIN
+(``BEGIN IMMEDIATE``), and a transaction that still meets a busy or locked database (or,
+on PostgreSQL, a serialisation failure or deadlock) is run again, a bounded number of
+times with growing randomised pauses, so concurrent users queue instead of failing.
+Every change to a part is recorded in the audit trail (:mod:`selector.catalog.audit`) in
+the same transaction.
 """
 
 from __future__ import annotations
 
-import getpass
+import random
+import time
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TypeVar
 
 import platformdirs
 from alembic import command
@@ -22,11 +31,19 @@ from alembic.runtime.migration import MigrationContext
 from alembic.script import ScriptDirectory
 from sqlalchemy import Engine, create_engine, delete, event, insert, inspect, select, update
 from sqlalchemy.engine import URL, make_url
-from sqlalchemy.exc import ArgumentError, IntegrityError, SQLAlchemyError
+from sqlalchemy.exc import ArgumentError, DBAPIError, IntegrityError, SQLAlchemyError
 from sqlalchemy.orm import Session
 from sqlalchemy.pool import StaticPool
 
-from selector.catalog.models import RECORD_COLUMNS, ImportLog, Part, utc_now
+from selector.catalog import audit
+from selector.catalog.models import (
+    RECORD_COLUMNS,
+    ApprovedList,
+    ImportLog,
+    ListEntry,
+    Part,
+    utc_now,
+)
 from selector.catalog.parts_import import ImportPlan, PartsFile, load_parts_csv, plan_changes
 from selector.catalog.resources import demo_csv_path, migrations_folder
 from selector.errors import LibraryError, OptionError, UnknownPartError
@@ -40,6 +57,18 @@ BUSY_TIMEOUT_MS = 30_000
 _SQLITE_MAGIC = b"SQLite format 3\x00"
 #: Execution option that marks a transaction as a writer.
 _WRITE_OPTION = "railwright_write"
+#: Tries of a write transaction that meets a busy database, and the first pause [s]
+#: (doubled each time, randomised ±50 % so that waiting writers do not collide again).
+WRITE_ATTEMPTS = 8
+FIRST_RETRY_PAUSE_S = 0.05
+#: Database backends the migrations (and the audit trail's guard) support.
+SUPPORTED_BACKENDS: tuple[str, ...] = ("sqlite", "postgresql")
+#: PostgreSQL advisory-lock key that serialises concurrent schema upgrades.
+_MIGRATION_LOCK_KEY = 7_302_551
+#: SQLSTATEs after which PostgreSQL asks for the transaction to be run again.
+_RETRY_SQLSTATES = frozenset({"40001", "40P01", "55P03"})
+
+T = TypeVar("T")
 
 Notify = Callable[[str], None]
 
@@ -77,6 +106,11 @@ def resolve_location(db_option: str | None) -> LibraryLocation:
             url = make_url(text)
         except ArgumentError:
             raise OptionError(f"--db: '{_masked(text)}' is not a database URL") from None
+        if url.get_backend_name() not in SUPPORTED_BACKENDS:
+            raise OptionError(
+                f"--db: '{_masked(text)}': {url.get_backend_name()} is not supported; "
+                "use an SQLite file or a postgresql+psycopg:// URL"
+            )
         if url.get_backend_name() == "sqlite" and url.database not in (None, "", ":memory:"):
             path = Path(url.database).expanduser().resolve()
             return LibraryLocation(url.set(database=str(path)), path, False)
@@ -194,21 +228,51 @@ class Library:
             raise LibraryError(f"{self.location_text()}: {_first_line(error)}") from None
 
     @contextmanager
-    def session(self, *, write: bool = False) -> Iterator[Session]:
-        """A session inside one transaction: committed on success, rolled back on error.
+    def session(self) -> Iterator[Session]:
+        """A reading session inside one transaction, closed (rolled back) at the end.
 
-        ``write=True`` takes SQLite's write lock at the start (other writers wait up to
-        the busy timeout). Database failures surface as :class:`LibraryError` naming
-        the library.
+        Database failures surface as :class:`LibraryError` naming the library. Writes
+        go through :meth:`write`.
         """
-        engine = self.engine.execution_options(**{_WRITE_OPTION: True}) if write else self.engine
         try:
-            with Session(engine, expire_on_commit=False) as session, session.begin():
+            with Session(self.engine, expire_on_commit=False) as session, session.begin():
                 yield session
-        except IntegrityError as error:
-            raise LibraryError(f"{self.location_text()}: refused by the database ({_first_line(error)})") from None
         except SQLAlchemyError as error:
-            raise LibraryError(f"{self.location_text()}: {_first_line(error)}") from None
+            raise self._library_error(error) from None
+
+    def write(self, work: Callable[[Session], T]) -> T:
+        """Run ``work(session)`` in one write transaction, committed when it returns.
+
+        SQLite's write lock is taken at BEGIN, so other writers wait up to the busy
+        timeout. A transaction that still meets a busy database, or a PostgreSQL
+        serialisation failure or deadlock, is run again from the start: at most
+        :data:`WRITE_ATTEMPTS` times, pausing :data:`FIRST_RETRY_PAUSE_S` · 2^k (±50 %)
+        between tries. ``work`` must therefore only touch the database through the
+        session. A domain error raised by ``work`` rolls the transaction back and
+        propagates; database failures surface as :class:`LibraryError`.
+        """
+        engine = self.engine.execution_options(**{_WRITE_OPTION: True})
+        for attempt in range(WRITE_ATTEMPTS):
+            try:
+                with Session(engine, expire_on_commit=False) as session, session.begin():
+                    return work(session)
+            except DBAPIError as error:
+                if not _worth_retrying(error) or attempt == WRITE_ATTEMPTS - 1:
+                    raise self._library_error(error) from None
+            except SQLAlchemyError as error:
+                raise self._library_error(error) from None
+            time.sleep(FIRST_RETRY_PAUSE_S * 2**attempt * random.uniform(0.5, 1.5))
+        raise AssertionError("unreachable: the last attempt returns or raises")
+
+    def _library_error(self, error: SQLAlchemyError) -> LibraryError:
+        if isinstance(error, IntegrityError):
+            return LibraryError(f"{self.location_text()}: refused by the database ({_first_line(error)})")
+        if _worth_retrying(error):
+            return LibraryError(
+                f"{self.location_text()}: still busy with other writers after {WRITE_ATTEMPTS} tries; "
+                "try again in a moment"
+            )
+        return LibraryError(f"{self.location_text()}: {_first_line(error)}")
 
     def close(self) -> None:
         """Release the library's connections."""
@@ -237,9 +301,31 @@ class Library:
         # Sorted here, not in SQL, so the order is the same on every database's collation.
         return sorted(records, key=lambda record: record["part"])
 
-    def load_partset(self, families: Sequence[str] | None = None) -> PartSet:
-        """The library's parts (optionally of some families) as arrays, sorted by part id."""
-        return PartSet.from_records(self.part_records(families))
+    def load_partset(
+        self,
+        families: Sequence[str] | None = None,
+        *,
+        list_name: str | None = None,
+        statuses: Sequence[str] | None = None,
+    ) -> PartSet:
+        """The library's parts as arrays, sorted by part id.
+
+        Parameters
+        ----------
+        families : sequence of str, optional
+            Only parts of these families.
+        list_name : str, optional
+            Only parts usable on this approved-parts list (see
+            :func:`selector.catalog.approved_lists.list_view`).
+        statuses : sequence of str, optional
+            Usable statuses on that list; default approved and conditional.
+        """
+        parts = PartSet.from_records(self.part_records(families))
+        if list_name is None:
+            return parts
+        from selector.catalog.approved_lists import list_view
+
+        return parts.select(list_view(self, parts, list_name, statuses).usable)
 
     def part_record(self, part: str) -> dict[str, object]:
         """One part's record; :class:`UnknownPartError` when it is not in the library."""
@@ -288,16 +374,14 @@ class Library:
             What was (or, with ``dry_run``, would be) added, changed and left unchanged.
         """
         records = list(records)
-        with self.session(write=not dry_run) as session:
-            wanted = [record["part"] for record in records]
-            existing = {
-                part.part: part
-                for chunk in _chunks(wanted, 500)
-                for part in session.scalars(select(Part).where(Part.part.in_(chunk)))
-            }
-            plan = plan_changes({name: part.record() for name, part in existing.items()}, records)
-            if dry_run:
-                return plan
+        if dry_run:
+            with self.session() as session:
+                return _plan_import(session, records)[0]
+        actor = audit.current_user()
+        reason = f"{kind} import of {file_name}"[:1000]
+
+        def work(session: Session) -> ImportPlan:
+            plan, existing = _plan_import(session, records)
             now = utc_now()
             if plan.added:
                 session.execute(
@@ -315,7 +399,7 @@ class Library:
             session.add(
                 ImportLog(
                     imported_at=now,
-                    imported_by=_user_name(),
+                    imported_by=actor,
                     kind=kind,
                     file_name=file_name[:1000],
                     file_sha256=file_sha256,
@@ -324,7 +408,10 @@ class Library:
                     rows_unchanged=len(plan.unchanged),
                 )
             )
-        return plan
+            audit.record_events(session, audit.import_events(plan, RECORD_COLUMNS[1:], reason), actor=actor, at=now)
+            return plan
+
+        return self.write(work)
 
     def import_parts_file(self, parts_file: PartsFile, *, kind: str = "parts csv", dry_run: bool = False) -> ImportPlan:
         """Import a validated :class:`PartsFile` (see :meth:`import_records`)."""
@@ -343,12 +430,66 @@ class Library:
             PartsFile(demo_csv_path().name, demo.sha256, demo.records, demo.warnings), kind="demo sets"
         )
 
-    def remove_part(self, part: str) -> None:
-        """Delete one part; :class:`UnknownPartError` when it is not in the library."""
-        with self.session(write=True) as session:
-            result = session.execute(delete(Part).where(Part.part == part))
-            if result.rowcount == 0:
+    def remove_part(self, part: str, *, by: str | None = None, reason: str | None = None) -> None:
+        """Delete one part, recording its last values in the audit trail.
+
+        A part that an approved-parts list references is not removed: the lists keep
+        their history, and a part they name must be taken off them first (``approved
+        drop``) or marked ``banned``/``no-new-design`` on them instead.
+
+        Raises
+        ------
+        UnknownPartError
+            When the part is not in the library.
+        LibraryError
+            When lists reference the part; the message names each list and status.
+        """
+        actor = audit.person(by)
+        why = (reason or "").strip() or "removed from the library"
+
+        def work(session: Session) -> None:
+            found = session.scalar(select(Part).where(Part.part == part))
+            if found is None:
                 raise UnknownPartError(f"unknown part '{part}' (not in the library {self.location_text()})")
+            on_lists = session.execute(
+                select(ApprovedList.name, ListEntry.status)
+                .join(ListEntry, ListEntry.list_id == ApprovedList.id)
+                .where(ListEntry.part_id == found.id)
+            ).all()
+            if on_lists:
+                named = ", ".join(f"'{name}' ({status})" for name, status in sorted(on_lists))
+                raise LibraryError(
+                    f"cannot remove {part}: it is on the approved-parts list(s) {named}; "
+                    f"take it off with 'railwright approved drop LIST {part} --reason TEXT' first, "
+                    "or mark it banned or no-new-design there"
+                )
+            old = audit.record_text(found.record(), RECORD_COLUMNS[1:])
+            session.execute(delete(Part).where(Part.id == found.id))
+            audit.record_events(
+                session, [audit.Event(audit.ACTION_PART_REMOVED, why, part=part, old_value=old)],
+                actor=actor, at=utc_now(),
+            )
+
+        self.write(work)
+
+
+def _plan_import(session: Session, records: list[dict[str, object]]) -> tuple[ImportPlan, dict[str, Part]]:
+    wanted = [record["part"] for record in records]
+    existing = {
+        part.part: part
+        for chunk in _chunks(wanted, 500)
+        for part in session.scalars(select(Part).where(Part.part.in_(chunk)))
+    }
+    return plan_changes({name: part.record() for name, part in existing.items()}, records), existing
+
+
+def _worth_retrying(error: BaseException) -> bool:
+    """Whether a database error means "busy, run the transaction again"."""
+    original = getattr(error, "orig", None)
+    if getattr(original, "sqlstate", None) in _RETRY_SQLSTATES:
+        return True
+    message = str(original or error).lower()
+    return "database is locked" in message or "database is busy" in message
 
 
 def _chunks(items: Sequence[str], size: int) -> Iterator[Sequence[str]]:
@@ -358,13 +499,6 @@ def _chunks(items: Sequence[str], size: int) -> Iterator[Sequence[str]]:
 
 def _writable(record: dict[str, object]) -> dict[str, object]:
     return {column: record.get(column) for column in RECORD_COLUMNS}
-
-
-def _user_name() -> str:
-    try:
-        return getpass.getuser()[:128]
-    except (KeyError, OSError):
-        return "unknown"
 
 
 def open_library(
@@ -429,6 +563,22 @@ def _prepare_folder(location: LibraryLocation) -> None:
         raise LibraryError(f"{folder}: cannot create the library folder ({error.strerror or error})") from None
 
 
+def _current_revision(connection, script: ScriptDirectory, text: str) -> str | None:
+    """The library's revision; refuses a foreign database and a newer schema."""
+    current = MigrationContext.configure(connection).get_current_revision()
+    if current is None and inspect(connection).get_table_names():
+        raise LibraryError(f"{text}: holds a database, but not a railwright library")
+    if current is not None:
+        try:
+            script.get_revision(current)
+        except Exception:
+            raise LibraryError(
+                f"{text}: written by a newer railwright (schema revision {current}); "
+                "upgrade railwright to open it"
+            ) from None
+    return current
+
+
 def _migrate(library: Library, notify: Notify) -> bool:
     """Bring the schema to head; True when the library was created just now."""
     text = library.location_text()
@@ -436,19 +586,17 @@ def _migrate(library: Library, notify: Notify) -> bool:
     head = script.get_current_head()
     try:
         with library.engine.begin() as connection:
-            current = MigrationContext.configure(connection).get_current_revision()
-            if current is None and inspect(connection).get_table_names():
-                raise LibraryError(f"{text}: holds a database, but not a railwright library")
-            if current is not None:
-                try:
-                    script.get_revision(current)
-                except Exception:
-                    raise LibraryError(
-                        f"{text}: written by a newer railwright (schema revision {current}); "
-                        "upgrade railwright to open it"
-                    ) from None
-            if current != head:
-                command.upgrade(alembic_config(connection), "head")
+            current = _current_revision(connection, script, text)
+        if current != head:
+            # As a writer: people opening an old (or new) library at the same moment
+            # queue here and each reads the revision again, so exactly one upgrades.
+            writer = library.engine.execution_options(**{_WRITE_OPTION: True})
+            with writer.begin() as connection:
+                if connection.dialect.name == "postgresql":
+                    connection.exec_driver_sql(f"SELECT pg_advisory_xact_lock({_MIGRATION_LOCK_KEY})")
+                current = _current_revision(connection, script, text)
+                if current != head:
+                    command.upgrade(alembic_config(connection), "head")
     except LibraryError:
         raise
     except SQLAlchemyError as error:
