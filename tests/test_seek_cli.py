@@ -34,7 +34,7 @@ def test_seek_prints_table_summary_and_writes_csv(invented_db, tmp_path):
     target = tmp_path / "shortlist.csv"
     result = run("--db", invented_db, "seek", *QUICK, "--top", "3", "--csv", str(target))
     assert result.exit_code == 0, result.output
-    assert "R [Ω]" in result.output and "error [V]" in result.output
+    assert "R [Ω]" in result.output and "error [mV]" in result.output
     assert "Considered 20 stacks" in result.output
     rows = list(csv.DictReader(target.open(encoding="utf-8")))
     assert len(rows) == 3
