@@ -190,3 +190,12 @@ def event_row(event: AuditEvent) -> dict[str, object]:
         "new": event.new_value or "",
         "why": event.reason,
     }
+
+
+def history(
+    library, part: str | None = None, list_name: str | None = None, since: datetime | None = None
+) -> list[dict[str, object]]:
+    """Events about a part and/or a list at or after ``since``, oldest first, as rows of
+    :data:`HISTORY_COLUMNS`."""
+    with library.session() as session:
+        return [event_row(event) for event in session.scalars(history_query(part, list_name, since))]

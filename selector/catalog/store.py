@@ -433,9 +433,10 @@ class Library:
     def remove_part(self, part: str, *, by: str | None = None, reason: str | None = None) -> None:
         """Delete one part, recording its last values in the audit trail.
 
-        A part that an approved-parts list references is not removed: the lists keep
-        their history, and a part they name must be taken off them first (``approved
-        drop``) or marked ``banned``/``no-new-design`` on them instead.
+        A part that an approved-parts list references is not removed (refusal, not
+        retirement): it must be taken off every list first (``approved drop``), or be
+        kept and marked ``banned`` or ``no-new-design`` there, which keeps it out of
+        every design while its record stays readable.
 
         Raises
         ------
@@ -460,8 +461,7 @@ class Library:
                 named = ", ".join(f"'{name}' ({status})" for name, status in sorted(on_lists))
                 raise LibraryError(
                     f"cannot remove {part}: it is on the approved-parts list(s) {named}; "
-                    f"take it off with 'railwright approved drop LIST {part} --reason TEXT' first, "
-                    "or mark it banned or no-new-design there"
+                    f"take it off each first with 'railwright approved drop LIST {part} --reason TEXT'"
                 )
             old = audit.record_text(found.record(), RECORD_COLUMNS[1:])
             session.execute(delete(Part).where(Part.id == found.id))

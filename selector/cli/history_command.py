@@ -1,3 +1,73 @@
-"""Placeholder: this command family is not built yet."""
+"""``railwright history``: the audit trail of parts and approved-list entries."""
 
-COMMANDS: list = []
+from __future__ import annotations
+
+import sys
+
+import click
+
+from selector.catalog.audit import HISTORY_COLUMNS, history, parse_since
+from selector.csv_safety import write_rows
+from selector.errors import InputDataError
+
+#: Longest old or new value shown on the terminal; ``--csv`` keeps every character.
+SHOWN_VALUE_LIMIT = 100
+
+
+def _shortened(text: str) -> str:
+    if not text:
+        return "(none)"
+    return text if len(text) <= SHOWN_VALUE_LIMIT else text[: SHOWN_VALUE_LIMIT - 1] + "…"
+
+
+def _event_line(row: dict) -> str:
+    if row["part"]:
+        subject = row["part"] + (f" on '{row['list']}'" if row["list"] else "")
+    else:
+        subject = f"list '{row['list']}'"
+    change = f"{_shortened(row['old'])} \u2192 {_shortened(row['new'])}"
+    return f"{row['when_utc']}  {row['who']}  {row['action']}  {subject}: {change}; why: {row['why']}"
+
+
+@click.command(
+    "history",
+    epilog="\b\nExamples:\n"
+    "  railwright history Z5V1-A\n"
+    "  railwright history --list line-a --since 2026-11-01\n"
+    "  railwright history --since 2026-12-01T08:00 --csv changes.csv",
+)
+@click.argument("part", required=False)
+@click.option("--list", "list_name", metavar="LIST", default=None, help="Only events of this approved-parts list.")
+@click.option("--since", metavar="DATE", default=None,
+              help="Only events at or after DATE (ISO, UTC unless an offset is given), e.g. 2026-12-01.")
+@click.option("--csv", "csv_path", metavar="FILE", default=None, help="Also write the events as CSV ('-': stdout only).")
+@click.pass_obj
+def history_command(state, part: str | None, list_name: str | None, since: str | None, csv_path: str | None) -> None:
+    """Show who changed what, when (UTC), old → new, and why: imports, edits, status
+    changes and removals of parts and list entries, oldest first.
+
+    The trail is append-only: the library refuses to change or delete an event.
+    """
+    rows = history(
+        state.library(),
+        part=part.strip() if part else None,
+        list_name=list_name.strip() if list_name else None,
+        since=parse_since(since) if since is not None else None,
+    )
+    if csv_path == "-":
+        write_rows(sys.stdout, HISTORY_COLUMNS, rows)
+        return
+    if rows:
+        for row in rows:
+            click.echo(_event_line(row))
+    else:
+        click.echo("no events")
+    if csv_path:
+        try:
+            count = write_rows(csv_path, HISTORY_COLUMNS, rows)
+        except OSError as error:
+            raise InputDataError(f"{csv_path}: cannot write ({error.strerror or error})") from None
+        click.echo(f"wrote {count} events to {csv_path}", err=True)
+
+
+COMMANDS = [history_command]

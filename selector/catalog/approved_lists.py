@@ -1,0 +1,512 @@
+"""The shop's approved-parts lists: named lists giving parts a status, with the audit trail.
+
+A library holds any number of named lists (say one per product line). On each list a
+part has one status of :data:`selector.spec.LIST_STATUSES`:
+
+``approved``
+    may be designed in;
+``conditional``
+    may be designed in under its condition, shown beside every result that uses it;
+``evaluating``
+    usable only when a search asks for it (``--statuses``);
+``no-new-design`` and ``banned``
+    never usable.
+
+A part not on a list is not usable from that list. Every change of an entry needs a
+reason and a person and is recorded as an audit event (:mod:`selector.catalog.audit`)
+in the same transaction as the change. Writes lock the list's row first (PostgreSQL
+``SELECT … FOR UPDATE``; SQLite's write lock is the whole database), so concurrent
+changes to one list are serialised and no change is lost.
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+from sqlalchemy import func, select
+from sqlalchemy.orm import Session
+
+from selector.catalog import audit
+from selector.catalog.models import LIST_NAME_LENGTH, ApprovedList, ListEntry, Part, utc_now
+from selector.errors import InputDataError, OptionError, RailwrightError, UnknownPartError
+from selector.partset import PartSet
+from selector.spec import LIST_STATUSES, UNUSABLE_STATUSES
+from selector.units import shown
+
+#: Statuses a search uses when it names a list but no statuses.
+DEFAULT_USABLE_STATUSES: tuple[str, ...] = ("approved", "conditional")
+#: Longest reason or condition text [characters].
+TEXT_LIMIT = 2000
+
+
+class UnknownListError(RailwrightError):
+    """A list named by the user is not in the library (exit 1)."""
+
+
+@dataclass(frozen=True)
+class Entry:
+    """A wanted status of one part: what an ``approved set`` or a list-CSV row asks for."""
+
+    part: str
+    status: str
+    reason: str
+    condition: str = ""
+
+    def status_text(self) -> str:
+        """``status``, or ``conditional: condition`` for a conditional part."""
+        return f"{self.status}: {self.condition}" if self.condition else self.status
+
+
+# Checking input ------------------------------------------------------------------------
+
+
+def check_list_name(name: str, place: str = "LIST") -> str:
+    """A list name stripped; :class:`OptionError` naming ``place`` when unusable."""
+    cleaned = name.strip()
+    if not cleaned:
+        raise OptionError(f"{place}: empty; give the name of an approved-parts list")
+    if len(cleaned) > LIST_NAME_LENGTH or not cleaned.isprintable():
+        raise OptionError(
+            f"{place}: '{shown(cleaned[:40])}' is not a usable list name "
+            f"(one line, at most {LIST_NAME_LENGTH} characters)"
+        )
+    return cleaned
+
+
+def status_problem(status: str) -> str | None:
+    """Why ``status`` is not a list status, or None."""
+    if status in LIST_STATUSES:
+        return None
+    return f"'{shown(status[:40])}' is not a list status; expected one of {', '.join(LIST_STATUSES)}"
+
+
+def entry_problems(status: str, reason: str, condition: str) -> list[tuple[str, str]]:
+    """Every problem of a wanted status as ``(field, message)``; empty when it is fine.
+
+    A status needs a reason; a ``conditional`` status needs its condition, and no other
+    status carries one (it would never be shown).
+    """
+    problems = []
+    status_message = status_problem(status)
+    if status_message:
+        problems.append(("status", status_message))
+    if not reason:
+        problems.append(("reason", "missing; every status change needs a reason"))
+    for name, text in (("reason", reason), ("condition", condition)):
+        if len(text) > TEXT_LIMIT:
+            problems.append((name, f"longer than {TEXT_LIMIT} characters"))
+        elif any(ord(character) < 32 for character in text):
+            problems.append((name, "holds a control character; write it on one line"))
+    if status == "conditional" and not condition:
+        problems.append(("condition", "missing; a conditional part needs its condition of use"))
+    elif condition and status != "conditional" and not status_message:
+        problems.append(("condition", f"only a conditional part carries a condition, not a {status} one"))
+    return problems
+
+
+def check_statuses(statuses: Sequence[str] | None) -> tuple[str, ...]:
+    """The usable statuses of a search: the default, or ``statuses`` checked."""
+    if statuses is None:
+        return DEFAULT_USABLE_STATUSES
+    for status in statuses:
+        problem = status_problem(status)
+        if problem:
+            raise OptionError(f"--statuses: {problem}")
+        if status in UNUSABLE_STATUSES:
+            raise OptionError(f"--statuses: '{status}' parts may never be designed in")
+    return tuple(statuses)
+
+
+# Reading -------------------------------------------------------------------------------
+
+
+def _find_list(session: Session, name: str, *, lock: bool = False) -> ApprovedList:
+    query = select(ApprovedList).where(ApprovedList.name == name)
+    found = session.scalar(query.with_for_update() if lock else query)
+    if found is None:
+        known = sorted(session.scalars(select(ApprovedList.name)))
+        hint = f"known lists: {', '.join(known)}" if known else "the library has no lists yet"
+        raise UnknownListError(
+            f"unknown list '{shown(name[:60])}' ({hint}); create it with 'railwright approved create NAME'"
+        )
+    return found
+
+
+def _find_parts(session: Session, names: Sequence[str]) -> dict[str, Part]:
+    found: dict[str, Part] = {}
+    for start in range(0, len(names), 500):
+        chunk = list(names[start : start + 500])
+        found.update({part.part: part for part in session.scalars(select(Part).where(Part.part.in_(chunk)))})
+    return found
+
+
+def missing_parts(library, names: Sequence[str]) -> set[str]:
+    """Which of ``names`` are not parts of the library."""
+    with library.session() as session:
+        return set(names) - set(_find_parts(session, names))
+
+
+def lists_summary(library) -> list[dict[str, object]]:
+    """Every list with its description, creator and count of parts per status, by name."""
+    with library.session() as session:
+        counts = Counter(
+            {(name, status): count for name, status, count in session.execute(
+                select(ApprovedList.name, ListEntry.status, func.count())
+                .join(ListEntry, ListEntry.list_id == ApprovedList.id)
+                .group_by(ApprovedList.name, ListEntry.status)
+            )}
+        )
+        rows = []
+        for entry in session.scalars(select(ApprovedList)):
+            row = {"list": entry.name, "description": entry.description, "created_by": entry.created_by,
+                   "created_at": audit.as_utc(entry.created_at)}
+            row.update({status: counts[(entry.name, status)] for status in LIST_STATUSES})
+            rows.append(row)
+    return sorted(rows, key=lambda row: row["list"])
+
+
+def list_entries(library, list_name: str, status: str | None = None) -> list[dict[str, object]]:
+    """The entries of a list (optionally of one status) sorted by part.
+
+    Each row has ``part, status, reason, condition, since`` (UTC) and ``by``, plus the
+    part's ``family``, ``package``, ``description`` and key parameters
+    (:data:`KEY_PARAMETERS`).
+    """
+    if status is not None and status_problem(status):
+        raise OptionError(f"--status: {status_problem(status)}")
+    with library.session() as session:
+        approved_list = _find_list(session, list_name)
+        query = (
+            select(ListEntry, Part)
+            .join(Part, Part.id == ListEntry.part_id)
+            .where(ListEntry.list_id == approved_list.id)
+        )
+        if status is not None:
+            query = query.where(ListEntry.status == status)
+        rows = [
+            {
+                "part": part.part,
+                "status": entry.status,
+                "reason": entry.reason,
+                "condition": entry.condition,
+                "since": audit.as_utc(entry.since).isoformat(timespec="seconds"),
+                "by": entry.changed_by,
+                **{column: getattr(part, column) for column in KEY_PARAMETERS},
+            }
+            for entry, part in session.execute(query)
+        ]
+    return sorted(rows, key=lambda row: row["part"])
+
+
+#: Part columns an exported list carries beside each entry, for the reader's benefit.
+KEY_PARAMETERS: tuple[str, ...] = ("family", "package", "vz_v", "izt_a", "is_a", "n", "pd_w", "description")
+
+
+@dataclass(frozen=True)
+class ListView:
+    """One list's view of a PartSet: per part, its status, condition and usability.
+
+    Attributes
+    ----------
+    list_name : str
+    statuses : tuple of str
+        The statuses counted as usable.
+    status : ndarray of str
+        Per part, its status on the list; empty when the part is not on it.
+    condition : ndarray of str
+        Per part, its condition of use (conditional parts), else empty.
+    reason : ndarray of str
+        Per part, the reason of its current status, else empty.
+    usable : ndarray of bool
+        Per part, whether a design may use it.
+    """
+
+    list_name: str
+    statuses: tuple[str, ...]
+    status: np.ndarray
+    condition: np.ndarray
+    reason: np.ndarray
+    usable: np.ndarray
+
+    def unusable_message(self, position: int, part: str) -> str | None:
+        """Why the part at ``position`` may not be used, or None when it may."""
+        if self.usable[position]:
+            return None
+        status = self.status[position]
+        if not status:
+            return f"{part} is not on the list '{self.list_name}'"
+        note = "" if status in UNUSABLE_STATUSES else f" (usable here: {', '.join(self.statuses)})"
+        return f"{part} is {status} on the list '{self.list_name}'{note}: {self.reason[position]}"
+
+
+def list_view(library, parts: PartSet, list_name: str, statuses: Sequence[str] | None = None) -> ListView:
+    """Status, condition and usability of every part of ``parts`` on a list.
+
+    Parameters
+    ----------
+    library : Library
+        The open library holding the list.
+    parts : PartSet
+        The parts to look up (typically the whole library's, or a search's).
+    list_name : str
+    statuses : sequence of str, optional
+        Usable statuses; default approved and conditional. ``no-new-design`` and
+        ``banned`` are refused.
+
+    Raises
+    ------
+    UnknownListError
+        When the list does not exist.
+    OptionError
+        For an unknown or never-usable status.
+    """
+    usable_statuses = check_statuses(statuses)
+    with library.session() as session:
+        approved_list = _find_list(session, list_name)
+        rows = session.execute(
+            select(Part.part, ListEntry.status, ListEntry.condition, ListEntry.reason)
+            .join(Part, Part.id == ListEntry.part_id)
+            .where(ListEntry.list_id == approved_list.id)
+        ).all()
+    by_part = {part: (status, condition, reason) for part, status, condition, reason in rows}
+    looked_up = [by_part.get(str(part), ("", "", "")) for part in parts.part]
+    status = np.array([row[0] for row in looked_up], dtype=object)
+    condition = np.array([row[1] if row[0] == "conditional" else "" for row in looked_up], dtype=object)
+    reason = np.array([row[2] for row in looked_up], dtype=object)
+    usable = np.isin(status.astype(str), list(usable_statuses))
+    return ListView(list_name, usable_statuses, status, condition, reason, usable)
+
+
+def compare_lists(library, first: str, second: str) -> list[dict[str, str]]:
+    """Parts whose status (or condition) differs between two lists, sorted by part.
+
+    Each row: ``part``, and the status text on each list (empty when not on it).
+    """
+    texts = []
+    for name in (first, second):
+        texts.append(
+            {
+                row["part"]: Entry(row["part"], row["status"], row["reason"], row["condition"]).status_text()
+                for row in list_entries(library, name)
+            }
+        )
+    parts = sorted(set(texts[0]) | set(texts[1]))
+    return [
+        {"part": part, first: texts[0].get(part, ""), second: texts[1].get(part, "")}
+        for part in parts
+        if texts[0].get(part) != texts[1].get(part)
+    ]
+
+
+# Writing -------------------------------------------------------------------------------
+
+
+def create_list(library, name: str, *, description: str = "", by: str | None = None) -> None:
+    """Make a new, empty list; refuses a name already in use."""
+    name = check_list_name(name)
+    actor = audit.person(by)
+    description = description.strip()
+    if len(description) > TEXT_LIMIT or not description.isprintable():
+        raise OptionError(f"--description: must be one line of at most {TEXT_LIMIT} characters")
+
+    def work(session: Session) -> None:
+        if session.scalar(select(ApprovedList.id).where(ApprovedList.name == name)) is not None:
+            raise InputDataError(f"the list '{name}' already exists")
+        now = utc_now()
+        session.add(ApprovedList(name=name, description=description, created_at=now, created_by=actor))
+        audit.record_events(
+            session, [audit.Event(audit.ACTION_LIST_CREATED, description or "new list", list_name=name)],
+            actor=actor, at=now,
+        )
+
+    library.write(work)
+
+
+def rename_list(library, old: str, new: str, *, reason: str | None, by: str | None = None) -> None:
+    """Rename a list; its entries and history stay (events keep the name they were made under)."""
+    new = check_list_name(new, "NEW")
+    reason = _required_reason(reason)
+    actor = audit.person(by)
+
+    def work(session: Session) -> None:
+        approved_list = _find_list(session, old, lock=True)
+        if session.scalar(select(ApprovedList.id).where(ApprovedList.name == new)) is not None:
+            raise InputDataError(f"the list '{new}' already exists")
+        approved_list.name = new
+        audit.record_events(
+            session,
+            [audit.Event(audit.ACTION_LIST_RENAMED, reason, list_name=new, old_value=old, new_value=new)],
+            actor=actor, at=utc_now(),
+        )
+
+    library.write(work)
+
+
+def _required_reason(reason: str | None) -> str:
+    cleaned = (reason or "").strip()
+    if not cleaned:
+        raise OptionError("--reason: missing; every change to a list needs a reason")
+    if len(cleaned) > TEXT_LIMIT or any(ord(character) < 32 for character in cleaned):
+        raise OptionError(f"--reason: must be one line of at most {TEXT_LIMIT} characters")
+    return cleaned
+
+
+@dataclass
+class ListPlan:
+    """What setting entries does to a list: entries added, changed (old text) and unchanged."""
+
+    added: list[Entry] = field(default_factory=list)
+    changed: list[tuple[Entry, str]] = field(default_factory=list)
+    unchanged: list[str] = field(default_factory=list)
+
+    def summary(self) -> str:
+        """One line: how many entries are added, changed and unchanged."""
+        return f"{len(self.added)} added, {len(self.changed)} changed, {len(self.unchanged)} unchanged"
+
+    def lines(self) -> list[str]:
+        """Every entry's fate, one line each; unchanged parts on one line."""
+        out = [f"add {entry.part}: {entry.status_text()}" for entry in self.added]
+        out += [f"change {entry.part}: {old} \u2192 {entry.status_text()}" for entry, old in self.changed]
+        if self.unchanged:
+            out.append("unchanged: " + ", ".join(self.unchanged))
+        return out
+
+
+def apply_entries(
+    library,
+    list_name: str,
+    entries: Sequence[Entry],
+    *,
+    by: str | None = None,
+    dry_run: bool = False,
+) -> ListPlan:
+    """Give parts their wanted statuses on a list, all in one transaction, with events.
+
+    Parameters
+    ----------
+    library : Library
+    list_name : str
+    entries : sequence of Entry
+        Checked wanted statuses (see :func:`entry_problems`), one per part.
+    by : str, optional
+        Who makes the change; default the OS user.
+    dry_run : bool
+        Plan only; write nothing.
+
+    Raises
+    ------
+    UnknownListError
+        When the list does not exist.
+    UnknownPartError
+        When a part is not in the library (every unknown part named, one per line;
+        :func:`selector.catalog.approved_list_csv.import_list_file` names file lines).
+    """
+    actor = audit.person(by)
+
+    def plan(session: Session) -> tuple[ListPlan, ApprovedList, dict[str, Part], dict[int, ListEntry]]:
+        approved_list = _find_list(session, list_name, lock=not dry_run)
+        parts = _find_parts(session, [entry.part for entry in entries])
+        unknown = [entry.part for entry in entries if entry.part not in parts]
+        if unknown:
+            raise UnknownPartError(
+                "\n".join(f"unknown part '{part}' (not in the library {library.location_text()})" for part in unknown)
+            )
+        current = {
+            entry.part_id: entry
+            for entry in session.scalars(select(ListEntry).where(ListEntry.list_id == approved_list.id))
+        }
+        result = ListPlan()
+        for entry in entries:
+            existing = current.get(parts[entry.part].id)
+            if existing is None:
+                result.added.append(entry)
+                continue
+            old = Entry(entry.part, existing.status, existing.reason, existing.condition)
+            if old == entry:
+                result.unchanged.append(entry.part)
+            else:
+                result.changed.append((entry, old.status_text()))
+        return result, approved_list, parts, current
+
+    if dry_run:
+        with library.session() as session:
+            return plan(session)[0]
+
+    def work(session: Session) -> ListPlan:
+        result, approved_list, parts, current = plan(session)
+        now = utc_now()
+        events = []
+        for entry in result.added:
+            session.add(
+                ListEntry(list_id=approved_list.id, part_id=parts[entry.part].id, status=entry.status,
+                          reason=entry.reason, condition=entry.condition, since=now, changed_by=actor)
+            )
+            events.append(audit.Event(audit.ACTION_STATUS_SET, entry.reason, part=entry.part,
+                                      list_name=list_name, new_value=entry.status_text()))
+        for entry, old_text in result.changed:
+            row = current[parts[entry.part].id]
+            row.status, row.reason, row.condition = entry.status, entry.reason, entry.condition
+            row.since, row.changed_by = now, actor
+            events.append(audit.Event(audit.ACTION_STATUS_SET, entry.reason, part=entry.part,
+                                      list_name=list_name, old_value=old_text, new_value=entry.status_text()))
+        audit.record_events(session, events, actor=actor, at=now)
+        return result
+
+    return library.write(work)
+
+
+def set_status(
+    library,
+    list_name: str,
+    part: str,
+    status: str,
+    *,
+    reason: str | None,
+    by: str | None = None,
+    condition: str | None = None,
+) -> ListPlan:
+    """Give one part a status on a list (``railwright approved set``).
+
+    Raises
+    ------
+    OptionError
+        For an unknown status, a missing reason, or a condition that does not fit the
+        status; each names its option.
+    UnknownListError, UnknownPartError
+        When the list or the part does not exist.
+    """
+    entry = Entry(part.strip(), status.strip().lower(), (reason or "").strip(), (condition or "").strip())
+    problems = entry_problems(entry.status, entry.reason, entry.condition)
+    if problems:
+        where, message = problems[0]
+        raise OptionError(f"{'STATUS' if where == 'status' else '--' + where}: {message}")
+    return apply_entries(library, list_name, [entry], by=by)
+
+
+def drop_entry(library, list_name: str, part: str, *, reason: str | None, by: str | None = None) -> None:
+    """Take a part off a list (the removal is an audit event with the last status)."""
+    reason = _required_reason(reason)
+    actor = audit.person(by)
+
+    def work(session: Session) -> None:
+        approved_list = _find_list(session, list_name, lock=True)
+        found = session.execute(
+            select(ListEntry)
+            .join(Part, Part.id == ListEntry.part_id)
+            .where(ListEntry.list_id == approved_list.id, Part.part == part)
+        ).scalar()
+        if found is None:
+            raise UnknownPartError(f"{part} is not on the list '{list_name}'")
+        old = Entry(part, found.status, found.reason, found.condition).status_text()
+        session.delete(found)
+        audit.record_events(
+            session,
+            [audit.Event(audit.ACTION_ENTRY_REMOVED, reason, part=part, list_name=list_name, old_value=old)],
+            actor=actor, at=utc_now(),
+        )
+
+    library.write(work)
+
