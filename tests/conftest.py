@@ -2,17 +2,73 @@
 
 ``HOME``, ``XDG_DATA_HOME`` and ``RAILWRIGHT_DB`` are redirected for every test so that
 no test can ever read or write a real user's parts library.
+
+``backend_db`` (and ``backend_library``) run a test once per database backend: SQLite,
+and PostgreSQL when ``RAILWRIGHT_TEST_PG_URL`` names a throwaway database
+(``source .ci/start_postgres.sh``); without it the PostgreSQL cases are skipped and the
+reason is printed. Each PostgreSQL case starts and ends with an empty ``public`` schema.
 """
 
 from __future__ import annotations
 
+import os
 from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
+from sqlalchemy import create_engine
+from sqlalchemy.engine import make_url
 
 from selector.catalog.store import Library, open_library
 from selector.cli import main
+
+PG_URL_VARIABLE = "RAILWRIGHT_TEST_PG_URL"
+PG_SKIP_REASON = f"{PG_URL_VARIABLE} is not set (start a throwaway server: source .ci/start_postgres.sh)"
+
+
+def postgres_url() -> str | None:
+    """The throwaway PostgreSQL database of the tests, or None."""
+    return os.environ.get(PG_URL_VARIABLE) or None
+
+
+def pytest_report_header(config) -> str:
+    url = postgres_url()
+    if url is None:
+        return f"PostgreSQL cases: skipped, {PG_SKIP_REASON}"
+    return f"PostgreSQL cases: on {make_url(url).render_as_string(hide_password=True)}"
+
+
+def reset_postgres(url: str) -> None:
+    """Drop everything in the database's ``public`` schema (tables, functions, version)."""
+    engine = create_engine(url)
+    try:
+        with engine.begin() as connection:
+            connection.exec_driver_sql("DROP SCHEMA public CASCADE")
+            connection.exec_driver_sql("CREATE SCHEMA public")
+    finally:
+        engine.dispose()
+
+
+@pytest.fixture(params=["sqlite", pytest.param("postgresql", marks=pytest.mark.postgres)])
+def backend_db(request, tmp_path) -> str:
+    """A ``--db`` value naming a library not yet created, on each backend in turn."""
+    if request.param == "sqlite":
+        yield str(tmp_path / "library.sqlite")
+        return
+    url = postgres_url()
+    if url is None:
+        pytest.skip(PG_SKIP_REASON)
+    reset_postgres(url)
+    yield url
+    reset_postgres(url)
+
+
+@pytest.fixture
+def backend_library(backend_db) -> Library:
+    """A fresh library holding the invented demo sets, on each backend in turn."""
+    library = open_library(backend_db, create_with_demo=True)
+    yield library
+    library.close()
 
 
 @pytest.fixture(autouse=True)
