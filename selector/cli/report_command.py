@@ -1,3 +1,55 @@
-"""Placeholder: this command family is not built yet."""
+"""``railwright report``: a self-contained HTML design review of a search or of one design."""
 
-COMMANDS: list = []
+from __future__ import annotations
+
+import click
+
+from selector.cli.spec_options import SPEC_OPTIONS_EPILOG, spec_options
+
+MAX_MONTE_CARLO_SAMPLES = 1_000_000
+
+
+@click.command(
+    "report",
+    epilog="\b\nExamples:\n"
+    "  railwright report --spec rail.toml --top 10 --out review.html\n"
+    "  railwright report --spec rail.toml --list bench-2024 --out review.html --png plots\n"
+    '  railwright report --spec rail.toml --stack "Z4V7-A + D-SIG1" --resistor 390 --out design.html\n\n'
+    + SPEC_OPTIONS_EPILOG
+    + "\n\nThe HTML file needs nothing else to open: CSS and plots (SVG) are inline, there is no "
+    "script and no link to anywhere.",
+)
+@spec_options
+@click.option("--out", "out_path", required=True, metavar="FILE.html", help="Where to write the report, e.g. review.html.")
+@click.option("--top", type=click.IntRange(1, 100), default=10, show_default=True,
+              help="Shortlist length of a search; each listed design gets its own section.")
+@click.option("--stack", "stack_text", default=None, metavar="TEXT",
+              help="Report one design instead of a search, e.g. '2*D-SIG1 + Z4V7-A' (with --resistor to fix R).")
+@click.option("--png", "png_dir", default=None, metavar="DIR", help="Also write every plot as a PNG file into DIR.")
+@click.option("--scatter", "scatter_designs", type=click.IntRange(1, 100_000), default=100, show_default=True,
+              help="Feasible designs the search returns for the error-against-margin plot (more is slower).")
+@click.option("--sweeps", "sweep_designs", type=click.IntRange(0, 100), default=3, show_default=True,
+              help="Designs, best first, that also get rail-against-supply and rail-against-ambient plots.")
+@click.option("--monte-carlo", "samples", type=click.IntRange(1, MAX_MONTE_CARLO_SAMPLES), default=10_000,
+              show_default=True, metavar="N", help="Monte Carlo samples per design.")
+@click.option("--seed", type=int, default=0, show_default=True, help="Monte Carlo seed.")
+@click.pass_obj
+def report(state, spec, out_path, top, stack_text, png_dir, scatter_designs, sweep_designs, samples, seed):
+    """Write a design review as one HTML file: spec, shortlist, corners, margins, plots.
+
+    Without --stack it searches the library as 'seek' does and reports the shortlist;
+    with --stack it reports that one design.
+    """
+    from selector.report_html import design_review, search_review, write_report
+
+    library = state.library()
+    if stack_text is not None:
+        review = design_review(spec, library, stack_text, samples=samples, seed=seed)
+    else:
+        review = search_review(spec, library, top=top, scatter_designs=scatter_designs, samples=samples, seed=seed)
+    written = write_report(review, out_path, png_dir, sweep_designs=sweep_designs)
+    click.echo(f"Report written to {out_path} ({len(review.candidates)} design(s)"
+               + (f"; {len(written)} PNG file(s) in {png_dir}" if png_dir is not None else "") + ").")
+
+
+COMMANDS = [report]

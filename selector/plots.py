@@ -1,0 +1,362 @@
+"""Figures of the design review report: rail sweeps, error against margin, Monte Carlo spread.
+
+The sweep curves are solved with :func:`selector.circuit.solve_operating_points`, one
+vectorised call per sweep (every curve and every point at once), with the design's exact
+resistor and every element at its nominal value (tolerance sign 0). The figures are
+plain :class:`matplotlib.figure.Figure` objects drawn without ``pyplot``, so making them
+changes no global backend; :func:`svg_markup` turns one into inline SVG for an HTML page
+and :func:`write_png` rasterises it with the Agg backend.
+
+The style is our own and survives black-and-white print: every curve differs by line
+style and marker, not by colour alone, and windows are hatched as well as tinted.
+"""
+
+from __future__ import annotations
+
+import io
+import re
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from selector.circuit import solve_operating_points
+from selector.corners import load_terms, worst_case_corners
+from selector.montecarlo import MonteCarloResult
+from selector.partset import PartSet
+from selector.ranking import pareto_front
+from selector.spec import AMBIENT_LIMITS_C, RailSpec
+from selector.units import format_quantity
+
+#: Points per sweep curve.
+SWEEP_POINTS = 121
+#: Each sweep runs this fraction of the spec's range beyond either end.
+SWEEP_OVERHANG = 0.2
+#: Histogram bins of the Monte Carlo figure.
+HISTOGRAM_BINS = 60
+
+#: Ink of the four curves: dark, print-safe hues of our own choosing.
+INKS: tuple[str, ...] = ("#14323f", "#8a4b08", "#3d6b35", "#6b2d5c")
+#: Line style and marker per curve, so curves stay apart in black-and-white print.
+LINE_STYLES: tuple[str, ...] = ("-", "--", "-.", ":")
+MARKERS: tuple[str, ...] = ("o", "s", "^", "D")
+WINDOW_TINT = "#d9d4c7"
+RANGE_TINT = "#efefef"
+
+#: rcParams of the report figures (applied per figure, never globally).
+STYLE: dict[str, object] = {
+    "font.family": "DejaVu Sans",
+    "font.size": 9.0,
+    "axes.titlesize": 10.0,
+    "axes.titleweight": "bold",
+    "axes.titlelocation": "left",
+    "axes.labelsize": 9.0,
+    "axes.edgecolor": "#333333",
+    "axes.linewidth": 0.8,
+    "axes.spines.top": False,
+    "axes.spines.right": False,
+    "axes.grid": True,
+    "grid.color": "#b0b0b0",
+    "grid.linestyle": ":",
+    "grid.linewidth": 0.6,
+    "legend.frameon": False,
+    "legend.fontsize": 8.0,
+    "lines.linewidth": 1.6,
+    "lines.markersize": 4.5,
+    "hatch.color": "#8c8575",
+    "hatch.linewidth": 0.6,
+    "svg.fonttype": "none",
+    "svg.hashsalt": "railwright-report",
+}
+
+#: Figure size [inch], and the axes' place in it [fraction of the figure].
+FIGURE_SIZE = (7.2, 3.8)
+FIGURE_MARGINS = dict(left=0.09, right=0.62, bottom=0.13, top=0.91)
+
+
+@dataclass(frozen=True)
+class Sweep:
+    """Rail voltage of one design along one swept quantity, one curve per fixed condition.
+
+    Attributes
+    ----------
+    x : ndarray (points,)
+        Swept values: supply [V] or ambient [°C].
+    vout_v : ndarray (curves, points) [V]
+        Rail voltage; NaN where the circuit has no solution.
+    labels : tuple of str
+        What each curve holds fixed.
+    quantity : str
+        ``"supply"`` or ``"ambient"``.
+    spec_range : tuple of float
+        The spec's range of the swept quantity.
+    """
+
+    x: np.ndarray
+    vout_v: np.ndarray
+    labels: tuple[str, ...]
+    quantity: str
+    spec_range: tuple[float, float]
+
+
+def _sweep_axis(low: float, high: float, floor: float, ceiling: float) -> np.ndarray:
+    pad = SWEEP_OVERHANG * (high - low) if high > low else 0.1 * max(abs(high), 1.0)
+    return np.linspace(max(low - pad, floor), min(high + pad, ceiling), SWEEP_POINTS)
+
+
+def _load_text(spec: RailSpec, value: float) -> str:
+    return format_quantity(value, "Ω" if spec.load_kind == "resistance" else "A", 3)
+
+
+def _solve_sweep(parts, stack, resistor_ohm, spec, supply_v, load_value, ambient_c) -> np.ndarray:
+    load_current, conductance = load_terms(spec, load_value)
+    count = supply_v.size
+    points = solve_operating_points(
+        parts,
+        np.repeat(np.asarray(stack, dtype=np.intp).reshape(1, -1), count, axis=0),
+        supply_v,
+        np.full(count, float(resistor_ohm)),
+        ambient_c,
+        np.zeros(count),
+        load_current,
+        conductance,
+    )
+    return np.where(points.solved, points.vout_v, np.nan)
+
+
+def supply_sweep(parts: PartSet, stack: np.ndarray, resistor_ohm: float, spec: RailSpec) -> Sweep:
+    """Rail voltage against supply, one curve per load extreme × ambient extreme.
+
+    Parameters
+    ----------
+    parts : PartSet
+    stack : int array (max_len,)
+        Part indices of the stack, padded with −1.
+    resistor_ohm : float [Ω]
+        Exact series resistor.
+    spec : RailSpec
+
+    Returns
+    -------
+    Sweep
+        Four curves over the supply range and :data:`SWEEP_OVERHANG` beyond it.
+    """
+    corners = worst_case_corners(spec)
+    # Corner index = 16·supply + 8·load + 4·ambient + …: bit 0 picks the first extreme.
+    loads = (corners.load_value[0], corners.load_value[8])
+    ambients = (corners.ambient_c[0], corners.ambient_c[4])
+    fixed = [(load, ambient) for load in loads for ambient in ambients]
+    x = _sweep_axis(spec.supply_min_v, spec.supply_max_v, 1e-3, np.inf)
+    vout = _solve_sweep(
+        parts, stack, resistor_ohm, spec,
+        np.tile(x, len(fixed)),
+        np.repeat([load for load, _ in fixed], x.size),
+        np.repeat([ambient for _, ambient in fixed], x.size),
+    )
+    labels = tuple(
+        f"load {'least' if i < 2 else 'most'} ({_load_text(spec, load)}), Ta {ambient:g} °C"
+        for i, (load, ambient) in enumerate(fixed)
+    )
+    return Sweep(x, vout.reshape(len(fixed), x.size), labels, "supply", (spec.supply_min_v, spec.supply_max_v))
+
+
+def ambient_sweep(parts: PartSet, stack: np.ndarray, resistor_ohm: float, spec: RailSpec) -> Sweep:
+    """Rail voltage against ambient temperature, one curve per supply extreme × load extreme.
+
+    Parameters and result as for :func:`supply_sweep`; the sweep stays within the
+    ambient range the tool accepts (:data:`selector.spec.AMBIENT_LIMITS_C`).
+    """
+    corners = worst_case_corners(spec)
+    supplies = (corners.supply_v[0], corners.supply_v[16])
+    loads = (corners.load_value[0], corners.load_value[8])
+    fixed = [(supply, load) for supply in supplies for load in loads]
+    x = _sweep_axis(spec.ambient_min_c, spec.ambient_max_c, *AMBIENT_LIMITS_C)
+    vout = _solve_sweep(
+        parts, stack, resistor_ohm, spec,
+        np.repeat([supply for supply, _ in fixed], x.size),
+        np.repeat([load for _, load in fixed], x.size),
+        np.tile(x, len(fixed)),
+    )
+    labels = tuple(
+        f"Vin {format_quantity(supply, 'V')}, load {'least' if i % 2 == 0 else 'most'} ({_load_text(spec, load)})"
+        for i, (supply, load) in enumerate(fixed)
+    )
+    return Sweep(x, vout.reshape(len(fixed), x.size), labels, "ambient", (spec.ambient_min_c, spec.ambient_max_c))
+
+
+# Figures -------------------------------------------------------------------------------
+
+
+def _figure():
+    from matplotlib.figure import Figure
+
+    figure = Figure(figsize=FIGURE_SIZE)
+    # Fixed margins: a layout engine costs more than drawing the figure.
+    figure.subplots_adjust(**FIGURE_MARGINS)
+    return figure, figure.add_subplot()
+
+
+def _styled(make):
+    """Run a figure-making function under :data:`STYLE` without touching global rcParams."""
+    import matplotlib
+
+    with matplotlib.rc_context(STYLE):
+        return make()
+
+
+def _window(axes, spec: RailSpec, *, vertical: bool = False) -> None:
+    low, high = spec.target_v - spec.tolerance_v, spec.target_v + spec.tolerance_v
+    span = axes.axvspan if vertical else axes.axhspan
+    span(low, high, facecolor=WINDOW_TINT, edgecolor="#8c8575", hatch="////", alpha=0.55, linewidth=0.0,
+         label=f"window {format_quantity(spec.target_v, 'V')} ± {format_quantity(spec.tolerance_v, 'V')}", zorder=0)
+    line = axes.axvline if vertical else axes.axhline
+    line(spec.target_v, color="#333333", linewidth=0.8, linestyle=(0, (6, 3)), zorder=1)
+
+
+def sweep_figure(sweep: Sweep, spec: RailSpec, title: str):
+    """Line figure of a :class:`Sweep` with the tolerance window hatched and the spec range tinted.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+
+    def make():
+        figure, axes = _figure()
+        _window(axes, spec)
+        axes.axvspan(*sweep.spec_range, facecolor=RANGE_TINT, zorder=0, linewidth=0.0, label="spec range")
+        every = max(sweep.x.size // 8, 1)
+        for i, (curve, label) in enumerate(zip(sweep.vout_v, sweep.labels, strict=True)):
+            axes.plot(sweep.x, curve, color=INKS[i % 4], linestyle=LINE_STYLES[i % 4], marker=MARKERS[i % 4],
+                      markevery=(i * every // 4, every), markerfacecolor="white", label=label, zorder=3)
+        axes.set_xlabel("supply [V]" if sweep.quantity == "supply" else "ambient [°C]")
+        axes.set_ylabel("rail [V]")
+        axes.set_title(title)
+        axes.legend(loc="center left", bbox_to_anchor=(1.02, 0.5))
+        return figure
+
+    return _styled(make)
+
+
+def error_margin_figure(
+    error_v: np.ndarray,
+    margin: np.ndarray,
+    shortlist_error_v: np.ndarray,
+    shortlist_margin: np.ndarray,
+    shortlist_rank: np.ndarray,
+    spec: RailSpec,
+    title: str,
+):
+    """Worst-case error against dissipation margin, Pareto front drawn, shortlist labelled.
+
+    Parameters
+    ----------
+    error_v, margin : arrays [V], [1]
+        Every design to plot (feasible designs the search returned).
+    shortlist_error_v, shortlist_margin, shortlist_rank : arrays [V], [1], [1]
+        The shortlist, labelled with its ranks.
+    spec : RailSpec
+        For the tolerance line.
+    title : str
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+
+    Notes
+    -----
+    The front is the designs no other design beats on both error (lower) and margin
+    (higher), from :func:`selector.ranking.pareto_front` with the part count held equal.
+    """
+    error_v, margin = np.asarray(error_v, dtype=float), np.asarray(margin, dtype=float)
+
+    def make():
+        figure, axes = _figure()
+        axes.axhspan(0.0, spec.tolerance_v * 1e3, facecolor=WINDOW_TINT, edgecolor="#8c8575", hatch="////",
+                     alpha=0.55, linewidth=0.0, zorder=0, label="meets the tolerance")
+        axes.scatter(100 * margin, 1e3 * error_v, s=10, facecolors="none", edgecolors="#5a5a5a", linewidths=0.6,
+                     label=f"feasible designs ({error_v.size})", zorder=2)
+        if error_v.size:
+            front = pareto_front(error_v, margin, np.zeros(error_v.size))
+            order = np.argsort(margin[front])
+            axes.step(100 * margin[front][order], 1e3 * error_v[front][order], where="post", color=INKS[1],
+                      linestyle="--", marker="v", markerfacecolor="white", label="Pareto front", zorder=3)
+        axes.scatter(100 * np.asarray(shortlist_margin), 1e3 * np.asarray(shortlist_error_v), s=30, marker="s",
+                     color=INKS[0], label="shortlist", zorder=4)
+        for rank, x, y in zip(shortlist_rank, shortlist_margin, shortlist_error_v, strict=True):
+            axes.annotate(str(int(rank)), (100 * x, 1e3 * y), xytext=(4, 3), textcoords="offset points",
+                          fontsize=8, color=INKS[0], zorder=5)
+        axes.set_xlabel("dissipation margin [%]")
+        axes.set_ylabel("worst-case error [mV]")
+        axes.set_title(title)
+        axes.legend(loc="center left", bbox_to_anchor=(1.02, 0.5))
+        return figure
+
+    return _styled(make)
+
+
+def monte_carlo_figure(result: MonteCarloResult, spec: RailSpec, title: str):
+    """Histogram of the Monte Carlo rail voltages against the hatched tolerance window.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    solved = result.vout_v[result.vout_v > 0]
+
+    def make():
+        figure, axes = _figure()
+        _window(axes, spec, vertical=True)
+        if solved.size:
+            axes.hist(solved, bins=HISTOGRAM_BINS, histtype="stepfilled", facecolor="#9fb3bd", edgecolor=INKS[0],
+                      linewidth=1.0, zorder=2, label=f"{solved.size} solved samples")
+        axes.set_xlabel("rail [V]")
+        axes.set_ylabel("samples")
+        axes.set_title(title)
+        axes.text(0.99, 0.97, f"yield {result.yield_fraction:.2%}\nseed {result.seed}", transform=axes.transAxes,
+                  ha="right", va="top", fontsize=8)
+        axes.legend(loc="center left", bbox_to_anchor=(1.02, 0.5))
+        return figure
+
+    return _styled(make)
+
+
+# Output --------------------------------------------------------------------------------
+
+_XML_PROLOGUE = re.compile(r"\A.*?(?=<svg\b)", re.DOTALL)
+_NAMESPACE = re.compile(r'\s+xmlns(?::\w+)?="[^"]*"')
+
+
+def svg_markup(figure, prefix: str) -> str:
+    """The figure as an ``<svg>`` element to place inside an HTML page.
+
+    The XML prologue, DOCTYPE and namespace declarations go (HTML parsers supply the SVG
+    namespace), ``xlink:href`` becomes SVG 2 ``href``, and every ``id`` is given
+    ``prefix`` so that several figures on one page never share an id.
+
+    Parameters
+    ----------
+    figure : matplotlib.figure.Figure
+    prefix : str
+        Letters, digits and hyphens, unique on the page.
+    """
+    import matplotlib
+
+    buffer = io.StringIO()
+    with matplotlib.rc_context(STYLE):
+        figure.savefig(buffer, format="svg", metadata={"Creator": None, "Date": None, "Format": None, "Type": None})
+    text = _XML_PROLOGUE.sub("", buffer.getvalue(), count=1)
+    text = _NAMESPACE.sub("", text).replace("xlink:href=", "href=")
+    text = re.sub(r'\bid="', f'id="{prefix}-', text)
+    text = text.replace('href="#', f'href="#{prefix}-').replace("url(#", f"url(#{prefix}-")
+    return text.strip()
+
+
+def write_png(figure, path: str | Path, dpi: int = 150) -> Path:
+    """Rasterise the figure to a PNG file with the Agg backend; returns the path."""
+    import matplotlib
+
+    path = Path(path)
+    with matplotlib.rc_context(STYLE):
+        figure.savefig(path, format="png", dpi=dpi, metadata={"Software": None})
+    return path
