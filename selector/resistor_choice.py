@@ -5,9 +5,13 @@ between 1 Ω and 10 MΩ (narrowed by the spec's resistor range), among feasible 
 the least ``error_v``; ties within 1 nV go to the larger R.
 
 Only values inside each stack's provable resistor range
-(:func:`selector.stack_bounds.bound_stacks`, point 7) can be feasible, so only those are
-solved — every one of them, so the choice needs no assumption about the shape of
-``error_v(R)``. A stack with no feasible value gets the least-error design among those
+(:func:`selector.stack_bounds.bound_stacks`, point 7) can be feasible. Each of them gets
+a provable lower bound on its error (:func:`selector.design_bounds.design_bounds`); the
+values are solved per stack in order of that bound, in rounds of growing size, and a
+value is left unsolved only once a feasible design of the same stack has an error more
+than the tie window below its bound — it can then neither win nor tie, so the choice
+needs no assumption about the shape of ``error_v(R)``. Values the bounds prove infeasible
+are never solved. A stack with no feasible value gets the least-error design among those
 solved (the values nearest its range when the range is empty), so callers can report
 why it fails.
 """
@@ -19,6 +23,7 @@ import dataclasses
 import numpy as np
 
 from selector.corners import evaluate_designs
+from selector.design_bounds import CellBoundTables, cell_bound_tables, design_bounds
 from selector.errors import SearchError
 from selector.eseries import series_values
 from selector.partset import PartSet
@@ -136,7 +141,84 @@ def pick_per_stack(stack_of_design: np.ndarray, resistor_ohm: np.ndarray, feasib
     return chosen
 
 
-def choose_resistors(parts: PartSet, stacks: np.ndarray, spec: RailSpec, *, bounds: StackBounds | None = None):
+def bounded_designs(cell_tables: CellBoundTables, stacks: np.ndarray, bounds: StackBounds, spec: RailSpec):
+    """Each stack's series values in its provable range, with their error bounds.
+
+    Returns
+    -------
+    stack_of_design : int array (d,)
+        Row in ``stacks`` of each design, ascending.
+    resistor_ohm : array (d,) [Ω]
+    error_lower_v : array (d,) [V]
+        Lower bound on each design's ``error_v``; inf where the bounds prove it infeasible.
+    """
+    values = candidate_resistors(spec)
+    first, last = resistor_slots(bounds, values)
+    stack_of_design, slot = design_slots(first, last, values.size)
+    resistor = values[slot]
+    error_lower, infeasible = design_bounds(cell_tables, stacks[stack_of_design], resistor, spec)
+    return stack_of_design, resistor, np.where(infeasible, np.inf, error_lower)
+
+
+def choose_bounded(parts: PartSet, stacks: np.ndarray, spec: RailSpec, stack_of_design, resistor_ohm, error_lower_v):
+    """DESIGN §3 choice among given designs, solving only those whose bound can still win.
+
+    Per stack, designs are solved in order of ``error_lower_v`` (ties: larger R first),
+    1, 2, 4, … per round, while the bound is within :data:`TIE_WINDOW_V` of the least
+    feasible error found for the stack (module docstring). Designs with an infinite
+    bound are never solved; a stack all of whose designs have one is left out.
+
+    Returns
+    -------
+    rows : int array
+        Stacks (rows of ``stacks``) with a chosen design, ascending.
+    resistor_ohm : array [Ω]
+        Their chosen values.
+    evaluation : DesignEvaluation
+        Their chosen designs' evaluation.
+    designs_solved : int
+    """
+    count = stacks.shape[0]
+    keep = np.isfinite(error_lower_v)
+    stack_of_design, resistor_ohm, error_lower_v = stack_of_design[keep], resistor_ohm[keep], error_lower_v[keep]
+    order = np.lexsort((-resistor_ohm, error_lower_v, stack_of_design))
+    stack_of_design, resistor_ohm, error_lower_v = stack_of_design[order], resistor_ohm[order], error_lower_v[order]
+    start = np.searchsorted(stack_of_design, np.arange(count))
+    rank = np.arange(stack_of_design.size) - start[stack_of_design]
+    best = np.full(count, np.inf)
+    done_below = np.zeros(count, dtype=np.intp)
+    pieces, solved_rows = [], []
+    budget = 1
+    while True:
+        pending = (rank >= done_below[stack_of_design]) & (error_lower_v <= best[stack_of_design] + TIE_WINDOW_V)
+        chosen = np.flatnonzero(pending & (rank < done_below[stack_of_design] + budget))
+        if chosen.size == 0:
+            break
+        done_below += budget
+        evaluation = evaluate_in_calls(parts, stacks[stack_of_design[chosen]], resistor_ohm[chosen], spec)
+        feasible_error = np.where(evaluation.feasible, evaluation.error_v, np.inf)
+        np.minimum.at(best, stack_of_design[chosen], feasible_error)
+        pieces.append(evaluation)
+        solved_rows.append(chosen)
+        budget *= 2
+    if not pieces:
+        return np.zeros(0, dtype=np.intp), np.zeros(0), None, 0
+    solved = np.concatenate(solved_rows)
+    evaluation = concatenate_designs(pieces) if len(pieces) > 1 else pieces[0]
+    picked = pick_per_stack(stack_of_design[solved], resistor_ohm[solved], evaluation.feasible, evaluation.error_v, count)
+    rows = np.flatnonzero(picked >= 0)
+    picked = picked[rows]
+    return rows, resistor_ohm[solved][picked], take_designs(evaluation, picked), int(solved.size)
+
+
+def choose_resistors(
+    parts: PartSet,
+    stacks: np.ndarray,
+    spec: RailSpec,
+    *,
+    bounds: StackBounds | None = None,
+    cell_tables: CellBoundTables | None = None,
+):
     """Choose each stack's series resistor per DESIGN §3 and evaluate the result.
 
     Parameters
@@ -148,13 +230,17 @@ def choose_resistors(parts: PartSet, stacks: np.ndarray, spec: RailSpec, *, boun
         Series, resistor range or fixed value, and everything the corners need.
     bounds : StackBounds, optional
         Bounds already computed for these stacks (the search passes them).
+    cell_tables : CellBoundTables, optional
+        Per-design bound tables already computed for these parts and spec.
 
     Returns
     -------
     resistor_ohm : array (n,) [Ω]
         The chosen value (for an infeasible stack: the value of the design returned).
     evaluation : DesignEvaluation
-        The chosen designs' evaluation, one per stack, in order.
+        The chosen designs' evaluation, one per stack, in order. A stack whose every
+        value the bounds prove infeasible gets its nearest-range design solved, so it
+        still has a reason.
     """
     stacks = np.atleast_2d(np.asarray(stacks, dtype=np.intp))
     count = stacks.shape[0]
@@ -164,8 +250,17 @@ def choose_resistors(parts: PartSet, stacks: np.ndarray, spec: RailSpec, *, boun
         return resistor, evaluate_in_calls(parts, stacks, resistor, spec)
     if bounds is None:
         bounds = bound_stacks(part_bound_tables(parts, spec), stacks, spec)
-    stack_of_design, slot = design_slots(*resistor_slots(bounds, values), values.size)
-    resistor_of_design = values[slot]
-    evaluation = evaluate_in_calls(parts, stacks[stack_of_design], resistor_of_design, spec)
-    chosen = pick_per_stack(stack_of_design, resistor_of_design, evaluation.feasible, evaluation.error_v, count)
-    return resistor_of_design[chosen], take_designs(evaluation, chosen)
+    if cell_tables is None:
+        cell_tables = cell_bound_tables(parts, spec, float(values[0]))
+    stack_of_design, resistor_of_design, error_lower = bounded_designs(cell_tables, stacks, bounds, spec)
+    rows, resistor, evaluation, _ = choose_bounded(parts, stacks, spec, stack_of_design, resistor_of_design, error_lower)
+    missing = np.setdiff1d(np.arange(count), rows)
+    if missing.size:
+        # Every value of these is proven infeasible; solve the first one to name why.
+        first_design = np.searchsorted(stack_of_design, missing)
+        fallback = evaluate_in_calls(parts, stacks[missing], resistor_of_design[first_design], spec)
+        rows = np.concatenate([rows, missing])
+        resistor = np.concatenate([resistor, resistor_of_design[first_design]])
+        evaluation = fallback if evaluation is None else concatenate_designs([evaluation, fallback])
+    order = np.argsort(rows)
+    return resistor[order], take_designs(evaluation, order)

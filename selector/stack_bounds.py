@@ -101,6 +101,8 @@ def voltage_range_fixed_current(
     ambient_c: np.ndarray,
     junction_high_c: np.ndarray,
     tolerance_sign: np.ndarray,
+    junction_low_c: np.ndarray | None = None,
+    temperature_slices: int = TEMPERATURE_SLICES,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Sound bounds on an element's voltage at a fixed current over its junction range.
 
@@ -117,6 +119,10 @@ def voltage_range_fixed_current(
     junction_high_c : array (m,) [°C]
         Top of the junction range.
     tolerance_sign : array (m,) [1]
+    junction_low_c : array (m,) [°C], optional
+        Bottom of the junction range when a tighter one than point 1's is known.
+    temperature_slices : int
+        Slices ``K`` of a forward element's junction range (point 4).
 
     Returns
     -------
@@ -127,7 +133,10 @@ def voltage_range_fixed_current(
     part_index, current, ambient, t_high, sign = np.broadcast_arrays(
         np.asarray(part_index, dtype=np.intp), current_a, ambient_c, junction_high_c, tolerance_sign
     )
-    t_low = ambient - parts.theta_ja_k_per_w[part_index] * parts.vf_tol_v[part_index] * current
+    if junction_low_c is None:
+        t_low = ambient - parts.theta_ja_k_per_w[part_index] * parts.vf_tol_v[part_index] * current
+    else:
+        t_low = np.broadcast_to(np.asarray(junction_low_c, dtype=float), current.shape)
     # Only absurd currents (far past any power limit) reach this; keep the model defined.
     t_low = np.maximum(t_low, LOWEST_JUNCTION_C)
     t_high = np.maximum(t_high, t_low)
@@ -138,7 +147,8 @@ def voltage_range_fixed_current(
     forward = ~parts.is_zener[part_index]
     if forward.any():
         f_low, f_high = _forward_temperature_range(
-            parts, part_index[forward], current[forward], t_low[forward], t_high[forward], sign[forward]
+            parts, part_index[forward], current[forward], t_low[forward], t_high[forward], sign[forward],
+            temperature_slices,
         )
         low[forward], high[forward] = f_low, f_high
     zener = parts.is_zener[part_index]
@@ -147,8 +157,7 @@ def voltage_range_fixed_current(
     return low, high
 
 
-def _forward_temperature_range(parts, index, current, t_low, t_high, sign):
-    slices = TEMPERATURE_SLICES
+def _forward_temperature_range(parts, index, current, t_low, t_high, sign, slices=TEMPERATURE_SLICES):
     fraction = np.linspace(0.0, 1.0, slices + 1)
     temperature = t_low[:, None] + (t_high - t_low)[:, None] * fraction[None, :]
     shape = temperature.shape
