@@ -170,23 +170,48 @@ def solve_operating_points(
     vout = np.zeros(count)
     worst_margin = np.zeros(count)
     hottest = np.zeros(count)
-    slots = family_slots(parts, stacks, element_sign if per_element else None)
-    # Points with the same number of distinct forward and breakdown parts share a layout,
-    # so each block computes no empty slot.
-    signature = _slot_signature(slots[1], slots[4])
-    order = np.argsort(signature, kind="stable")
-    boundaries = np.flatnonzero(np.diff(signature[order])) + 1
-    for group in np.split(order, boundaries):
-        for start in range(0, group.size, chunk_points):
-            chosen = group[start : start + chunk_points]
-            if not per_element:
-                slots[2][chosen] = element_sign[chosen]
-                slots[5][chosen] = element_sign[chosen]
-            block = [slot[chosen] for slot in slots] + [c[chosen] for c in conditions]
-            outcome = _newton_block(parts, *block)
+    width = stacks.shape[1]
+    merge = not per_element
+    point_sign = None if per_element else np.broadcast_to(tolerance_sign.reshape(-1), (count,))
+    keys, signature = _stack_layout(parts, stacks, merge)
+    tables: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+    # Points of one layout have their distinct parts in the same columns with the same
+    # multiplicities, so each block computes no empty slot.
+    for layout, group in _layout_groups(signature):
+        slots = _decode_layout(layout, width, merge)
+        for multiplicity in {m for family in slots for _, m in family} - tables.keys():
+            tables[multiplicity] = _key_tables(parts, multiplicity)
+        size = count if isinstance(group, slice) else group.size
+        for start in range(0, size, chunk_points):
+            chosen = slice(start, min(start + chunk_points, size)) if isinstance(group, slice) else group[start : start + chunk_points]
+            block = [c[chosen] for c in conditions]
+            signs = [
+                [element_sign[chosen, column] if per_element else point_sign[chosen] for column, _ in family]
+                for family in slots
+            ]
+            forward, breakdown = [], []
+            for column, multiplicity in slots[0]:
+                forward.append(np.take(tables[multiplicity][0], keys[column][chosen], axis=1))
+                forward[-1][_F_OFFSET] *= signs[0][len(forward) - 1]
+            for column, multiplicity in slots[1]:
+                constants = np.take(tables[multiplicity][1], keys[column][chosen], axis=1)
+                constants[_Z_OFFSET] += signs[1][len(breakdown)] * constants[_Z_TOL_V] + constants[_Z_TC] * block[2]
+                breakdown.append(constants)
+            outcome = _newton_block(forward, breakdown, *block)
             hard = outcome[2] < 0
             if hard.any():
-                rescued = _solve_block(parts, *(value[hard] for value in block))
+                arrays = []
+                for family, (family_slots_, family_signs) in enumerate(zip(slots, signs, strict=True)):
+                    shape = (int(hard.sum()), len(family_slots_))
+                    part = np.zeros(shape, dtype=np.intp)
+                    multiplicity = np.zeros(shape, dtype=np.intp)
+                    sign = np.zeros(shape)
+                    for slot, ((column, m), slot_sign) in enumerate(zip(family_slots_, family_signs, strict=True)):
+                        part[:, slot] = keys[column][chosen][hard] - family * len(parts)
+                        multiplicity[:, slot] = m
+                        sign[:, slot] = slot_sign[hard]
+                    arrays += [part, multiplicity, sign]
+                rescued = _solve_block(parts, *arrays, *(value[hard] for value in block))
                 for value, fallback in zip(outcome, rescued, strict=True):
                     value[hard] = fallback
             log_current[chosen], vout[chosen], status[chosen], worst_margin[chosen], hottest[chosen] = outcome
@@ -236,6 +261,7 @@ def family_slots(parts: PartSet, stacks: np.ndarray, element_sign: np.ndarray | 
     Equal parts in one stack carry one current at one ambient, so they share one junction
     temperature and one voltage: solving each distinct part once is exact. With
     per-element tolerance signs (``element_sign``) equal parts differ and are kept apart.
+    This is the solver's own layout (:func:`_stack_layout`), spelled out per row.
 
     Parameters
     ----------
@@ -250,26 +276,39 @@ def family_slots(parts: PartSet, stacks: np.ndarray, element_sign: np.ndarray | 
     breakdown_part, breakdown_count, breakdown_sign : arrays (n, max_len)
         The same for breakdown parts.
     """
-    if element_sign is None:
-        return _distinct_family_slots(parts, stacks)
-    ordered, sign = stacks, np.asarray(element_sign, dtype=float)
-    first = ordered >= 0
-    multiplicity = first.astype(np.intp)
-    safe_part = np.maximum(ordered, 0)
-    zener = parts.is_zener[safe_part]
+    stacks = np.atleast_2d(np.asarray(stacks, dtype=np.intp))
+    merge = element_sign is None
+    keys, signature = _stack_layout(parts, stacks, merge)
+    sign = None if merge else np.broadcast_to(np.asarray(element_sign, dtype=float), stacks.shape)
     result = []
-    for chosen in (first & ~zener, first & zener):
-        column = np.cumsum(chosen, axis=1) - 1
-        rows, slots = np.nonzero(chosen)
-        part_out = np.zeros(ordered.shape, dtype=np.intp)
-        count_out = np.zeros(ordered.shape, dtype=np.intp)
-        sign_out = np.zeros(ordered.shape)
-        target = column[rows, slots]
-        part_out[rows, target] = safe_part[rows, slots]
-        count_out[rows, target] = multiplicity[rows, slots]
-        sign_out[rows, target] = sign[rows, slots]
-        result += [part_out, count_out, sign_out]
+    for _ in range(2):
+        result += [np.zeros(stacks.shape, dtype=np.intp), np.zeros(stacks.shape, dtype=np.intp), np.zeros(stacks.shape)]
+    for layout, rows in _layout_groups(signature):
+        for family, slots in enumerate(_decode_layout(layout, stacks.shape[1], merge)):
+            part_out, count_out, sign_out = result[3 * family : 3 * family + 3]
+            for slot, (column, multiplicity) in enumerate(slots):
+                part_out[rows, slot] = keys[column][rows] - family * len(parts)
+                count_out[rows, slot] = multiplicity
+                if sign is not None:
+                    sign_out[rows, slot] = sign[rows, column]
     return tuple(result)
+
+
+def _layout_groups(signature: np.ndarray):
+    """Yield ``(signature, points)`` for each layout; ``points`` is a slice when all share one."""
+    if signature.size == 0:
+        return
+    first, last = int(signature.min()), int(signature.max())
+    if first == last:
+        yield first, slice(0, signature.size)
+        return
+    # A stable sort on 16-bit keys is a radix sort: linear in the number of points.
+    narrow = signature.astype(np.uint16) if last < 1 << 16 else signature
+    order = np.argsort(narrow, kind="stable")
+    ordered = narrow[order]
+    boundaries = np.flatnonzero(ordered[1:] != ordered[:-1]) + 1
+    for begin, end in zip(np.r_[0, boundaries], np.r_[boundaries, order.size], strict=True):
+        yield int(ordered[begin]), order[begin:end]
 
 
 def _sort_columns(columns: list[np.ndarray]) -> None:
@@ -282,51 +321,6 @@ def _sort_columns(columns: list[np.ndarray]) -> None:
             low = np.minimum(columns[i], columns[i + 1])
             np.maximum(columns[i], columns[i + 1], out=columns[i + 1])
             columns[i] = low
-
-
-def _distinct_family_slots(parts: PartSet, stacks: np.ndarray) -> tuple[np.ndarray, ...]:
-    """:func:`family_slots` for one tolerance sign per point, column by column.
-
-    Sorting each row's part keys puts equal parts side by side; the first of each run
-    carries the run's length, and a second sort per family moves those firsts to the front.
-    Whole columns are sorted with a network, so no per-row work is done in Python or by a
-    per-row sort call.
-    """
-    count, width = stacks.shape
-    part_count = len(parts.is_zener)
-    pad = 2 * part_count
-    # Index −1 (padding) reads the last entry.
-    key_of_part = np.append(np.arange(part_count) + parts.is_zener * part_count, pad)
-    columns = [key_of_part[stacks[:, j]] for j in range(width)]
-    _sort_columns(columns)
-    first = [columns[0] < pad] + [(columns[j] < pad) & (columns[j] != columns[j - 1]) for j in range(1, width)]
-    boundary = np.full(count, width)
-    runs = [boundary] * width
-    for j in range(width - 1, -1, -1):
-        runs[j] = boundary - j
-        boundary = np.where(first[j] | (columns[j] == pad), j, boundary)
-    shift = width.bit_length()
-    result = []
-    for is_breakdown in (False, True):
-        encoded = []
-        for j in range(width):
-            wanted = first[j] & ((columns[j] >= part_count) if is_breakdown else (columns[j] < part_count))
-            encoded.append(np.where(wanted, (columns[j] << shift) | runs[j], pad << shift))
-        _sort_columns(encoded)
-        key = np.stack(encoded, axis=1)
-        part = key >> shift
-        present = part < pad
-        result += [
-            np.where(present, part - part_count * is_breakdown, 0),
-            np.where(present, key & ((1 << shift) - 1), 0),
-            np.zeros(stacks.shape),
-        ]
-    return tuple(result)
-
-
-def _slot_signature(forward_count: np.ndarray, breakdown_count: np.ndarray) -> np.ndarray:
-    width = forward_count.shape[1] + 1
-    return (forward_count > 0).sum(axis=1) * width + (breakdown_count > 0).sum(axis=1)
 
 
 class _Family:
@@ -543,95 +537,145 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
 FAST_EVALUATIONS = 8
 #: Zener loop gain ``θ·tc·I`` the fast path stays below, so ``1/(1 − g)`` stays modest.
 _FAST_LOOP_GAIN = 0.999
-#: Current at which the fast path's starting stack voltage is taken [A].
-_REFERENCE_CURRENT_A = 1e-3
+#: Blended Newton steps on the cold stack's load line that give the fast path its start.
+_START_STEPS = 3
+
+# Rows of the per-key constant tables (one element with multiplicity m folded in).
+_F_LOG_IS, _F_XTI_N, _F_EG_NKQ, _F_NKQ, _F_XTI_KQ, _F_EG, _F_RS, _F_OFFSET, _F_THETA, _F_PD, _F_TJ_MAX = range(11)
+_Z_OFFSET, _Z_TOL_V, _Z_TC, _Z_A, _Z_RZ, _Z_LOOP, _Z_THETA, _Z_PD, _Z_TJ_MAX = range(9)
 
 
-def _inverse_allowed_power(parts, part, multiplicity, ambient):
-    """``1/(m·P_max)`` per slot, ``P_max = min(pd, (Tjmax − Ta)/θ)`` (DESIGN §3); 0 for empty slots."""
-    allowed = np.minimum(parts.pd_w[part], (parts.tj_max_c[part] - ambient) / parts.theta_ja_k_per_w[part])
-    scaled = multiplicity * np.where(allowed > 0, allowed, 1e-300)
-    return np.divide(1.0, scaled, out=np.zeros(part.shape), where=multiplicity > 0)
+def _key_tables(parts: PartSet, multiplicity: int) -> tuple[np.ndarray, np.ndarray]:
+    """Per-key constants of ``multiplicity`` equal elements in series, forward and breakdown.
 
+    Keys are those of :func:`_stack_layout`: key ``k`` names part ``k mod P`` (``P`` parts;
+    forward parts ``0…P−1``, breakdown parts ``P…2P−1``, padding ``2P``), so one column
+    gather gives a slot every constant it needs.
 
-def _forward_slot_constants(parts, part, count, sign, ambient):
-    """Forward constants per slot with the multiplicity ``m`` folded in, shape (10, slots, points).
+    Forward rows (SPICE3 scaling rearranged, as in :class:`_Family`):
+    ``ln Is(T) = log_is + (xti/n)·ln T − eg·q/(n·k)/T`` per element; then m·n·k/q,
+    m·xti·k/q, m·eg, m·rs, m·vf_tol (signed later), θ/m (one element's heating from the
+    slot's voltage), m·pd, tj_max.
 
-    Rows: ``ln Is`` offset, xti/n, eg·q/(n·k) (per element, SPICE3 scaling rearranged as in
-    :class:`_Family`); m·n·k/q, m·xti·k/q, m·eg, m·rs, m·s·vf_tol (whole slot); θ/m (one
-    element's heating from the slot's voltage); 1/(m·P_max).
+    Breakdown rows (DESIGN §3 breakdown element): m·(vz − tc·tnom − a·ln Izt − rz·Izt),
+    m·vz·vz_tol/100, m·tc, m·a, m·rz, θ·tc (per element), θ/m, m·pd, tj_max. With
+    ``c = row0 + s·row1 + row2·Ta`` the slot voltage at ``Tj = Ta + θ·I·V/m`` is
+    ``(c + m·a·ln I + m·rz·I)/(1 − θ·tc·I)`` (``V`` is linear in ``Tj``).
     """
-    m = count.T.astype(float)
-    p = part.T
-    n = parts.n[p]
-    nominal_k = parts.tnom_c[p] + ZERO_CELSIUS_K
-    xti_over_n = parts.xti[p] / n
-    eg_over_nkq = parts.eg_ev[p] / (n * BOLTZMANN_OVER_CHARGE_V_PER_K)
-    out = np.empty((10,) + p.shape)
-    out[0] = np.log(parts.is_a[p]) - xti_over_n * np.log(nominal_k) + eg_over_nkq / nominal_k
-    out[1] = xti_over_n
-    out[2] = eg_over_nkq
-    out[3] = m * n * BOLTZMANN_OVER_CHARGE_V_PER_K
-    out[4] = m * parts.xti[p] * BOLTZMANN_OVER_CHARGE_V_PER_K
-    out[5] = m * parts.eg_ev[p]
-    out[6] = m * parts.rs_ohm[p]
-    out[7] = m * sign.T * parts.vf_tol_v[p]
-    out[8] = np.divide(parts.theta_ja_k_per_w[p], m, out=np.zeros(p.shape), where=m > 0)
-    out[9] = _inverse_allowed_power(parts, p, m, ambient)
-    return out
+    part = np.arange(2 * len(parts) + 1) % len(parts)
+    m = float(multiplicity)
+    n = parts.n[part]
+    nkq = n * BOLTZMANN_OVER_CHARGE_V_PER_K
+    nominal_k = parts.tnom_c[part] + ZERO_CELSIUS_K
+    xti_over_n = parts.xti[part] / n
+    eg_over_nkq = parts.eg_ev[part] / nkq
+    theta = parts.theta_ja_k_per_w[part]
+    forward = np.stack([
+        np.log(parts.is_a[part]) - xti_over_n * np.log(nominal_k) + eg_over_nkq / nominal_k,
+        xti_over_n,
+        eg_over_nkq,
+        m * nkq,
+        m * parts.xti[part] * BOLTZMANN_OVER_CHARGE_V_PER_K,
+        m * parts.eg_ev[part],
+        m * parts.rs_ohm[part],
+        m * parts.vf_tol_v[part],
+        theta / m,
+        m * parts.pd_w[part],
+        parts.tj_max_c[part],
+    ])  # fmt: skip
+    izt = parts.izt_a[part]
+    tc = parts.tc_v_per_k[part]
+    a = parts.zener_a_v[part]
+    rz = parts.zener_rz_ohm[part]
+    breakdown = np.stack([
+        m * (parts.vz_v[part] - tc * parts.tnom_c[part] - a * np.log(izt) - rz * izt),
+        m * parts.vz_v[part] * parts.vz_tol_pct[part] / 100.0,
+        m * tc,
+        m * a,
+        m * rz,
+        theta * tc,
+        theta / m,
+        m * parts.pd_w[part],
+        parts.tj_max_c[part],
+    ])  # fmt: skip
+    return forward, breakdown
 
 
-def _breakdown_slot_constants(parts, part, count, sign, ambient):
-    """Zener constants per slot with the multiplicity ``m`` folded in, shape (6, slots, points).
+def _stack_layout(parts: PartSet, stacks: np.ndarray, merge: bool) -> tuple[np.ndarray, np.ndarray]:
+    """Element keys per stack position and a layout signature per point.
 
-    The slot voltage at junction ``Tj = Ta + θ·I·V/m`` is ``(c + a'·ln I + rz'·I)/(1 − k·I)``
-    (DESIGN §3 breakdown element; ``V`` is linear in ``Tj``). Rows: ``c`` (the voltage at
-    1 A with the junction at the ambient, ``a'·ln I`` and ``rz'·I`` left out), ``a' = m·a``,
-    ``rz' = m·rz``, ``k = θ·tc``, θ/m, 1/(m·P_max).
+    Keys: forward part ``p`` → ``p``, breakdown part ``p`` → ``P + p``, padding → ``2P``.
+    With ``merge`` each row's keys are sorted (forward, then breakdown, then padding) and
+    the signature packs the forward count, the breakdown count and where each run of
+    equal keys starts, so every point of one signature has its distinct parts in the same
+    columns with the same multiplicities. Without ``merge`` (one tolerance sign per
+    element) the columns stay in place and the signature is their family pattern.
+
+    Returns
+    -------
+    keys : int array (max_len, n)
+    signature : int array (n,)
     """
-    m = count.T.astype(float)
-    p = part.T
-    izt = parts.izt_a[p]
-    tc = parts.tc_v_per_k[p]
-    a = parts.zener_a_v[p]
-    rz = parts.zener_rz_ohm[p]
-    vz = parts.vz_v[p] * (1.0 + sign.T * parts.vz_tol_pct[p] / 100.0)
-    theta = parts.theta_ja_k_per_w[p] * (m > 0)
-    out = np.empty((6,) + p.shape)
-    out[0] = m * (vz + tc * (ambient - parts.tnom_c[p]) - a * np.log(izt) - rz * izt)
-    out[1] = m * a
-    out[2] = m * rz
-    out[3] = theta * tc
-    out[4] = np.divide(theta, m, out=np.zeros(p.shape), where=m > 0)
-    out[5] = _inverse_allowed_power(parts, p, m, ambient)
-    return out
+    count, width = stacks.shape
+    part_count = len(parts)
+    pad = 2 * part_count
+    key_of_part = np.append(np.arange(part_count) + parts.is_zener * part_count, pad).astype(np.int32)
+    columns = [key_of_part[stacks[:, j]] for j in range(width)]
+    if merge:
+        _sort_columns(columns)
+        forward = sum((column < part_count).astype(np.int32) for column in columns)
+        filled = sum((column < pad).astype(np.int32) for column in columns)
+        signature = (forward * (width + 1) + filled) << (width - 1)
+        for j in range(1, width):
+            signature |= (columns[j] != columns[j - 1]).astype(np.int32) << (j - 1)
+    else:
+        signature = np.zeros(count, dtype=np.int64)
+        for j in range(width):
+            signature += ((columns[j] >= part_count).astype(np.int64) + (columns[j] == pad)) * 3**j
+    return np.stack(columns), signature
 
 
-def _newton_block(parts, forward_part, forward_count, forward_sign, breakdown_part, breakdown_count,
-                  breakdown_sign, supply, resistor, ambient, load_fixed, load_conductance):  # fmt: skip
+def _decode_layout(signature: int, width: int, merge: bool) -> tuple[list[tuple[int, int]], list[tuple[int, int]]]:
+    """(column, multiplicity) of each forward and each breakdown slot of a signature."""
+    if not merge:
+        codes = [(signature // 3**j) % 3 for j in range(width)]
+        return [(j, 1) for j in range(width) if codes[j] == 0], [(j, 1) for j in range(width) if codes[j] == 1]
+    forward, filled = divmod(signature >> (width - 1), width + 1)
+    starts = [0] + [j for j in range(1, width) if signature >> (j - 1) & 1]
+    slots = []
+    for begin, end in ((0, forward), (forward, filled)):
+        heads = [begin] + [j for j in starts if begin < j < end] if end > begin else []
+        slots.append([(j, following - j) for j, following in zip(heads, heads[1:] + [end][: len(heads)], strict=True)])
+    return slots[0], slots[1]
+
+
+def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load_conductance):
     """Fast path: coupled Newton without a bracket, from a close start; keeps what it verifies.
 
-    The equations, the coupled thermal step and the acceptance test are those of
-    :func:`_solve_block`. The current step is Newton's for the resistor's exponential term
-    and the stack's linear one blended to second order: with ``δ = F/|F'|`` and ``p`` the
-    resistor's share of ``|F'|``, ``Δu = (1 − p)·δ + p·ln(1 + δ)``, exact to second order
-    when ``F = K − R·e^u − S·u`` (Taylor expansion of ``R·I·(e^Δu − 1) + S·Δu = F``).
-    Points not verified within :data:`FAST_EVALUATIONS` come back with status −1.
+    ``forward`` and ``breakdown`` hold one constant array per slot (rows as in
+    :func:`_key_tables`, signs applied, shape (rows, points)). The equations, the coupled
+    thermal step and the acceptance test are those of :func:`_solve_block`. The current
+    step is Newton's for the resistor's exponential term and the stack's linear one
+    blended to second order: with ``δ = F/|F'|`` and ``p`` the resistor's share of
+    ``|F'|``, ``Δu = (1 − p)·δ + p·ln(1 + δ)``, exact to second order when
+    ``F = K − R·e^u − S·u`` (Taylor expansion of ``R·I·(e^Δu − 1) + S·Δu = F``).
+
+    The start solves that same form for the stack with every junction at the ambient —
+    ``V ≈ A + B·ln I + C·I`` (each forward element conducting, SPICE3 diode; each zener's
+    curve of DESIGN §3 exactly) — and the first evaluation is taken there, so it needs no
+    logarithm per slot. Points not verified within :data:`FAST_EVALUATIONS` come back with
+    status −1.
     """
     count = supply.shape[0]
-    lf = int((forward_count > 0).sum(axis=1).max(initial=0))
-    lz = int((breakdown_count > 0).sum(axis=1).max(initial=0))
-    fw = _forward_slot_constants(parts, forward_part[:, :lf], forward_count[:, :lf], forward_sign[:, :lf], ambient)
-    zn = _breakdown_slot_constants(
-        parts, breakdown_part[:, :lz], breakdown_count[:, :lz], breakdown_sign[:, :lz], ambient
-    )
     ambient_k = ambient + ZERO_CELSIUS_K
     drive = supply - resistor * load_fixed
     load_gain = 1.0 + resistor * load_conductance
     current_cap = drive / resistor
-    for j in range(lz):
-        cap = np.divide(_FAST_LOOP_GAIN, zn[3, j], out=np.full(count, np.inf), where=zn[3, j] > 0)
-        np.minimum(current_cap, cap, out=current_cap)
+    for z in breakdown:
+        loop = z[_Z_LOOP]
+        if (loop > 0).any():
+            np.minimum(current_cap, np.divide(_FAST_LOOP_GAIN, loop, out=np.full(count, np.inf), where=loop > 0),
+                       out=current_cap)  # fmt: skip
     status = np.full(count, -1, dtype=np.int8)
     out_u = np.zeros(count)
     out_v = np.zeros(count)
@@ -640,126 +684,188 @@ def _newton_block(parts, forward_part, forward_count, forward_sign, breakdown_pa
 
     index = np.flatnonzero(current_cap > 2 * LEAST_CURRENT_A)
     if index.size < count:
-        fw, zn = fw[:, :, index], zn[:, :, index]
+        forward = [f[:, index] for f in forward]
+        breakdown = [z[:, index] for z in breakdown]
         ambient_k, drive, load_gain, current_cap = ambient_k[index], drive[index], load_gain[index], current_cap[index]
         resistor = resistor[index]
+    else:
+        index = slice(None)
     lo = np.log(LEAST_CURRENT_A)
     hi = np.log(current_cap)
 
-    # Start: the stack voltage at 1 mA with every junction at the ambient, then two
-    # fixed-point steps of the resistor line on the stack's log-linear slope there.
-    reference_u = np.log(_REFERENCE_CURRENT_A)
-    log_ambient_k = np.log(ambient_k)
-    stack_v = np.zeros(index.size)
-    stack_slope = np.zeros(index.size)
-    for j in range(lf):
-        x = reference_u - (fw[0, j] + fw[1, j] * log_ambient_k - fw[2, j] / ambient_k)
-        n_vt = fw[3, j] * ambient_k
-        stack_v += n_vt * np.maximum(x, 0.0) + fw[6, j] * _REFERENCE_CURRENT_A + fw[7, j]
-        stack_slope += n_vt * (x > 0.0)
-    for j in range(lz):
-        stack_v += zn[0, j] + zn[1, j] * reference_u + zn[2, j] * _REFERENCE_CURRENT_A
-        stack_slope += zn[1, j]
-    u = np.full(index.size, reference_u)
-    for _ in range(2):
-        guess_v = stack_v + stack_slope * (u - reference_u)
-        current = (drive - load_gain * guess_v) / resistor
-        u = np.log(np.clip(current, 2 * LEAST_CURRENT_A, current_cap))
-    current = np.exp(u)
-    junction = np.empty((lf, index.size))
-    for j in range(lf):
-        junction[j] = ambient_k + fw[8, j] * current * (fw[3, j] * ambient_k * np.maximum(u - reference_u, 0.0)
-                                                        + fw[6, j] * current + fw[7, j])  # fmt: skip
-    np.maximum(junction, ambient_k, out=junction)
+    log_ambient = np.log(ambient_k)
+    inverse_ambient = 1.0 / ambient_k
+    cold_v = np.zeros_like(drive)
+    cold_log_slope = np.zeros_like(drive)
+    cold_ohmic = np.zeros_like(drive)
+    for f in forward:
+        n_vt = f[_F_NKQ] * ambient_k
+        log_is = f[_F_LOG_IS] + f[_F_XTI_N] * log_ambient - f[_F_EG_NKQ] * inverse_ambient
+        cold_v += f[_F_OFFSET] - n_vt * log_is
+        cold_log_slope += n_vt
+        cold_ohmic += f[_F_RS]
+    for z in breakdown:
+        cold_v += z[_Z_OFFSET]
+        cold_log_slope += z[_Z_A]
+        cold_ohmic += z[_Z_RZ]
+    # Load line K − P·e^u − Q·u = 0 of that cold stack.
+    line_k = drive - load_gain * cold_v
+    line_p = resistor + load_gain * cold_ohmic
+    line_q = load_gain * cold_log_slope
+    u = np.clip(np.log(np.maximum(line_k, 1e-3 * drive) / line_p), lo, hi)
+    for _ in range(_START_STEPS):
+        exponential = line_p * np.exp(u)
+        falling = np.maximum(exponential + line_q, 0.5 * exponential)
+        delta = (line_k - exponential - line_q * u) / falling
+        share = exponential / falling
+        u += delta + share * (np.log1p(np.maximum(delta, -0.9)) - delta)
+        np.clip(u, lo, hi, out=u)
 
-    residual_t = np.empty((lf, index.size))
-    dr_du = np.empty((lf, index.size))
-    inverse_headroom = np.empty((lf, index.size))
-    settled_v = np.empty((lf, index.size))
-    zener_v = np.empty((lz, index.size))
+    junction = [ambient_k.copy() for _ in forward]
+    thermal = [None] * len(forward)  # per slot: residual, its u-slope, 1/(1 − g), settled voltage
+    zener_v = [None] * len(breakdown)
+    pending = np.ones(u.shape, dtype=bool)
     for evaluation in range(FAST_EVALUATIONS):
+        checking = evaluation > 0
         current = np.exp(u)
-        stack_v = np.zeros(index.size)
-        stack_slope = np.zeros(index.size)
-        worst_residual_t = np.zeros(index.size)
-        worst_gain = np.zeros(index.size)
-        for j in range(lf):
-            log_is_offset, xti_over_n, eg_over_nkq, nkq, xti_kq, eg, rs, offset, theta, _ = fw[:, j]
+        stack_v = np.zeros_like(u)
+        stack_slope = np.zeros_like(u)
+        worst_residual_t = np.zeros_like(u)
+        worst_gain = np.zeros_like(u)
+        for j, f in enumerate(forward):
             temperature = junction[j]
-            inverse_t = 1.0 / temperature
-            minus_x = log_is_offset + xti_over_n * np.log(temperature) - eg_over_nkq * inverse_t - u
+            if checking:
+                log_t = np.log(temperature)
+                inverse_t = 1.0 / temperature
+            else:
+                log_t, inverse_t = log_ambient, inverse_ambient
+            minus_x = f[_F_XTI_N] * log_t
+            minus_x -= f[_F_EG_NKQ] * inverse_t
+            minus_x += f[_F_LOG_IS]
+            minus_x -= u
             np.clip(minus_x, -700.0, 700.0, out=minus_x)
             tail = np.exp(minus_x)
-            fraction = 1.0 / (1.0 + tail)
-            n_vt = nkq * temperature
-            n_vt_log = n_vt * (np.log1p(tail) - minus_x)
-            ohmic = rs * current
-            voltage = n_vt_log + ohmic + offset
-            dv_du = n_vt * fraction + ohmic
-            dv_dt = (n_vt_log - fraction * (xti_kq * temperature + eg)) * inverse_t
-            heating = theta * current
-            r = temperature - ambient_k - heating * voltage
-            gain = heating * dv_dt
-            np.maximum(worst_gain, gain, out=worst_gain)
-            np.maximum(worst_residual_t, np.abs(r), out=worst_residual_t)
-            inverse = 1.0 / np.maximum(1.0 - gain, 1.0 - RUNAWAY_LOOP_GAIN)
-            slope_r = -heating * (voltage + dv_du)
-            settled = voltage - dv_dt * r * inverse
-            stack_v += settled
-            stack_slope += dv_du - dv_dt * slope_r * inverse
-            residual_t[j], dr_du[j], inverse_headroom[j], settled_v[j] = r, slope_r, inverse, settled
-        for j in range(lz):
-            offset, a, rz, k, _, _ = zn[:, j]
-            ohmic = rz * current
-            loop = k * current
-            inverse = 1.0 / (1.0 - loop)
-            voltage = (offset + a * u + ohmic) * inverse
+            log_term = np.log1p(tail)
+            log_term -= minus_x
+            fraction = np.add(tail, 1.0, out=tail)
+            np.divide(1.0, fraction, out=fraction)
+            n_vt = f[_F_NKQ] * temperature
+            ohmic = f[_F_RS] * current
+            voltage = n_vt * log_term
+            voltage += ohmic
+            voltage += f[_F_OFFSET]
+            dv_du = np.multiply(n_vt, fraction, out=n_vt)
+            dv_du += ohmic
+            dv_dt = f[_F_EG] * inverse_t
+            dv_dt += f[_F_XTI_KQ]
+            dv_dt *= fraction
+            np.subtract(np.multiply(f[_F_NKQ], log_term, out=log_term), dv_dt, out=dv_dt)
+            heating = f[_F_THETA] * current
+            residual_t = temperature - ambient_k
+            residual_t -= np.multiply(heating, voltage, out=ohmic)
+            gain = np.multiply(heating, dv_dt, out=fraction)
+            if checking:
+                np.maximum(worst_gain, gain, out=worst_gain)
+                np.maximum(worst_residual_t, np.abs(residual_t, out=minus_x), out=worst_residual_t)
+            inverse = np.subtract(1.0, gain, out=gain)
+            np.maximum(inverse, 1.0 - RUNAWAY_LOOP_GAIN, out=inverse)
+            np.divide(1.0, inverse, out=inverse)
+            weight = np.multiply(dv_dt, inverse, out=dv_dt)
+            slope_r = voltage + dv_du
+            slope_r *= heating
+            voltage -= np.multiply(weight, residual_t, out=minus_x)
             stack_v += voltage
-            stack_slope += (a + ohmic + voltage * loop) * inverse
+            dv_du += np.multiply(weight, slope_r, out=minus_x)
+            stack_slope += dv_du
+            thermal[j] = residual_t, slope_r, inverse, voltage
+        for j, z in enumerate(breakdown):
+            ohmic = z[_Z_RZ] * current
+            loop = z[_Z_LOOP] * current
+            inverse = np.subtract(1.0, loop)
+            np.divide(1.0, inverse, out=inverse)
+            voltage = z[_Z_A] * u
+            voltage += z[_Z_OFFSET]
+            voltage += ohmic
+            voltage *= inverse
+            stack_v += voltage
+            ohmic += z[_Z_A]
+            ohmic += np.multiply(voltage, loop, out=loop)
+            ohmic *= inverse
+            stack_slope += ohmic
             zener_v[j] = voltage
         resistor_slope = resistor * current
-        residual = drive - resistor_slope - load_gain * stack_v
-        falling = resistor_slope + load_gain * stack_slope
-        done = (np.abs(residual) <= KCL_TOLERANCE_V) & (worst_residual_t <= THERMAL_TOLERANCE_K)
-        done &= (worst_gain < RUNAWAY_LOOP_GAIN) & (falling > 0.0)
+        residual = drive - resistor_slope
+        residual -= load_gain * stack_v
+        falling = np.multiply(load_gain, stack_slope, out=stack_slope)
+        falling += resistor_slope
         last = evaluation == FAST_EVALUATIONS - 1
-        if done.any() or last:
-            where = index[done]
-            out_u[where] = u[done]
-            out_v[where] = stack_v[done]
-            status[where] = STATUS_SOLVED
-            power = np.zeros(where.size)
-            hottest = ambient_k[done]
-            for j in range(lf):
-                np.maximum(power, settled_v[j, done] * fw[9, j, done], out=power)
-                np.maximum(hottest, junction[j, done] - residual_t[j, done] * inverse_headroom[j, done], out=hottest)
-            for j in range(lz):
-                np.maximum(power, zener_v[j, done] * zn[5, j, done], out=power)
-                np.maximum(hottest, ambient_k[done] + zn[4, j, done] * current[done] * zener_v[j, done], out=hottest)
-            out_margin[where] = 1.0 - power * current[done]
-            out_hottest[where] = hottest - ZERO_CELSIUS_K
-            if last:
-                break
-            keep = ~done
-            index, u, current, residual, falling, hi = (a[keep] for a in (index, u, current, residual, falling, hi))
-            ambient_k, drive, load_gain, resistor, resistor_slope = (
-                a[keep] for a in (ambient_k, drive, load_gain, resistor, resistor_slope)
-            )
-            fw, zn = fw[:, :, keep], zn[:, :, keep]
-            junction, residual_t, dr_du, inverse_headroom = (
-                a[:, keep] for a in (junction, residual_t, dr_du, inverse_headroom)
-            )
-            settled_v, zener_v = settled_v[:, keep], zener_v[:, keep]
-            if index.size == 0:
-                break
+        if checking:
+            done = np.abs(residual) <= KCL_TOLERANCE_V
+            done &= worst_residual_t <= THERMAL_TOLERANCE_K
+            done &= worst_gain < RUNAWAY_LOOP_GAIN
+            done &= falling > 0.0
+            done &= pending
+            if done.any():
+                _record(done, index, u, current, stack_v, ambient_k, forward, breakdown, junction, thermal, zener_v,
+                        out_u, out_v, status, out_margin, out_hottest)  # fmt: skip
+                pending &= ~done
+                if not pending.any():
+                    break
+                if pending.sum() < 0.5 * pending.size:
+                    keep = pending
+                    index = (np.arange(count)[index] if isinstance(index, slice) else index)[keep]
+                    u, residual, falling, resistor_slope, current = (
+                        a[keep] for a in (u, residual, falling, resistor_slope, current)
+                    )
+                    ambient_k, drive, load_gain, resistor, hi = (
+                        a[keep] for a in (ambient_k, drive, load_gain, resistor, hi)
+                    )
+                    forward = [f[:, keep] for f in forward]
+                    breakdown = [z[:, keep] for z in breakdown]
+                    junction = [t[keep] for t in junction]
+                    thermal = [tuple(a[keep] for a in state) for state in thermal]
+                    pending = np.ones(u.shape, dtype=bool)
+        if last:
+            break
         denominator = np.maximum(falling, 0.5 * resistor_slope)
-        delta = residual / denominator
-        share = np.minimum(resistor_slope / denominator, 1.0)
-        step = delta + share * (np.log1p(np.maximum(delta, -0.9)) - delta)
-        new_u = np.clip(u + step, lo, hi)
-        step = new_u - u
-        u = new_u
-        for j in range(lf):
-            junction[j] -= (residual_t[j] + dr_du[j] * step) * inverse_headroom[j]
-        np.maximum(junction, ambient_k, out=junction)
+        delta = np.divide(residual, denominator, out=residual)
+        share = np.divide(resistor_slope, denominator, out=resistor_slope)
+        np.minimum(share, 1.0, out=share)
+        step = np.log1p(np.maximum(delta, -0.9))
+        step -= delta
+        step *= share
+        step += delta
+        step += u
+        np.clip(step, lo, hi, out=step)
+        u, step = step, np.subtract(step, u, out=u)
+        for j, (residual_t, slope_r, inverse, _) in enumerate(thermal):
+            residual_t -= np.multiply(slope_r, step, out=slope_r)
+            residual_t *= inverse
+            temperature = junction[j]
+            temperature -= residual_t
+            np.maximum(temperature, ambient_k, out=temperature)
     return out_u, out_v, status, out_margin, out_hottest
+
+
+def _record(done, index, u, current, stack_v, ambient_k, forward, breakdown, junction, thermal, zener_v,
+            out_u, out_v, status, out_margin, out_hottest):  # fmt: skip
+    """Store the verified points: rail voltage, element margin ``1 − V·I/P_max`` with
+    ``P_max = min(pd, (Tjmax − Ta)/θ)`` (DESIGN §3), and the hottest junction."""
+    where = (np.arange(status.size)[index] if isinstance(index, slice) else index)[done]
+    i_done = current[done]
+    ambient_done = ambient_k[done]
+    load = np.zeros(where.size)
+    hottest = ambient_done.copy()
+    for f, temperature, (residual_t, _, inverse, settled_v) in zip(forward, junction, thermal, strict=True):
+        allowed = np.minimum(f[_F_PD, done], (f[_F_TJ_MAX, done] - (ambient_done - ZERO_CELSIUS_K)) / f[_F_THETA, done])
+        np.maximum(load, settled_v[done] / np.maximum(allowed, 1e-300), out=load)
+        np.maximum(hottest, temperature[done] - residual_t[done] * inverse[done], out=hottest)
+    for z, voltage in zip(breakdown, zener_v, strict=True):
+        allowed = np.minimum(z[_Z_PD, done], (z[_Z_TJ_MAX, done] - (ambient_done - ZERO_CELSIUS_K)) / z[_Z_THETA, done])
+        np.maximum(load, voltage[done] / np.maximum(allowed, 1e-300), out=load)
+        np.maximum(hottest, ambient_done + z[_Z_THETA, done] * i_done * voltage[done], out=hottest)
+    out_u[where] = u[done]
+    out_v[where] = stack_v[done]
+    status[where] = STATUS_SOLVED
+    out_margin[where] = 1.0 - load * i_done
+    out_hottest[where] = hottest - ZERO_CELSIUS_K
