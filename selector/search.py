@@ -4,10 +4,13 @@ Every multiset of up to ``max_parts`` usable parts is a candidate
 (:mod:`selector.candidates`). Each is bounded by gathers and sums
 (:mod:`selector.stack_bounds`) and dropped only where the bounds prove that no series
 resistor makes it feasible, or — once the shortlist is full — that its rank key cannot
-beat the shortlist's last entry (:func:`selector.ranking.beats_threshold`). Every other
-candidate is solved exactly at all 32 corners with its resistor chosen per DESIGN §3
-(:mod:`selector.resistor_choice`). Survivors are solved in order of their lower-bound
-key, so the shortlist fills with good designs early and the threshold tightens fast.
+beat the shortlist's last entry (:func:`selector.ranking.beats_threshold`). Survivors
+are taken in order of their lower-bound key, so the shortlist fills with good designs
+early and the threshold tightens fast. Each series value of a survivor then gets its own
+bounds by table look-ups (:mod:`selector.design_bounds`): the stack is dropped when every
+value is proven infeasible or its best bound cannot beat the shortlist, and otherwise
+only the values whose bound can still win are solved exactly at all 32 corners, with the
+resistor chosen per DESIGN §3 (:mod:`selector.resistor_choice`).
 """
 
 from __future__ import annotations
@@ -26,7 +29,8 @@ import numpy as np
 import pandas as pd
 
 from selector.candidates import check_search_size, iterate_multisets, usable_parts
-from selector.errors import OptionError
+from selector.design_bounds import cell_bound_tables
+from selector.errors import OptionError, SearchError
 from selector.partset import PartSet
 from selector.ranking import (
     DEFAULT_RESOLUTION_V,
@@ -37,10 +41,11 @@ from selector.ranking import (
     sort_designs,
 )
 from selector.resistor_choice import (
+    bounded_designs,
     candidate_resistors,
-    choose_resistors,
+    choose_bounded,
     concatenate_designs,
-    design_slots,
+    evaluate_in_calls,
     resistor_slots,
     take_designs,
 )
@@ -57,6 +62,10 @@ PARALLEL_THRESHOLD = 4 * BATCH_STACKS
 REASON_WINDOW = "no current is both enough and within a part's power or current limit"
 REASON_RESISTOR = "no series-resistor value can give every corner enough current within limits"
 REASON_RANK = "cannot rank above the shortlist (error bound)"
+REASON_DESIGN = "every series value proven short of current at some corner"
+
+#: Tables the worker processes inherit when forked (set just before the pool starts).
+_WORKER_TABLES: dict = {}
 
 
 @dataclass
@@ -181,15 +190,30 @@ def lower_bound_keys(error_lower_v, parts, spec: RailSpec, order, resolution_v) 
     return [(error_lower_v > spec.tolerance_v).astype(float)] + [by_name[name] for name in order]
 
 
-def _solve_batch(parts: PartSet, spec: RailSpec, stacks: np.ndarray, tables):
-    """Choose and evaluate the resistor of each stack; also the number of designs solved."""
-    bounds = bound_stacks(tables, stacks, spec)
-    resistor, evaluation = choose_resistors(parts, stacks, spec, bounds=bounds)
+def _solve_batch(parts: PartSet, spec: RailSpec, stacks: np.ndarray, threshold, order, resolution_v):
+    """Bound, prune and solve one batch of stacks (module docstring).
+
+    Returns ``(rows, resistor, evaluation, designs_solved, pruned)``: the rows of
+    ``stacks`` solved, their chosen values and evaluation, and the stacks pruned per reason.
+    """
+    tables, cell_tables = _WORKER_TABLES["stack"], _WORKER_TABLES["cell"]
     if spec.resistor_fixed_ohm is not None:
-        return resistor, evaluation, len(stacks)
-    values = candidate_resistors(spec)
-    designs = design_slots(*resistor_slots(bounds, values), values.size)[0].size
-    return resistor, evaluation, designs
+        resistor = np.full(len(stacks), candidate_resistors(spec)[0])
+        return np.arange(len(stacks)), resistor, evaluate_in_calls(parts, stacks, resistor, spec), len(stacks), {}
+    bounds = bound_stacks(tables, stacks, spec)
+    stack_of_design, resistor, error_lower = bounded_designs(cell_tables, stacks, bounds, spec)
+    stack_lower = np.full(len(stacks), np.inf)
+    np.minimum.at(stack_lower, stack_of_design, error_lower)
+    proven = ~np.isfinite(stack_lower)
+    beaten = np.zeros(len(stacks), dtype=bool)
+    if threshold is not None:
+        keys = lower_bound_keys(np.where(proven, 0.0, stack_lower), (stacks >= 0).sum(axis=1), spec, order, resolution_v)
+        beaten = ~proven & beats_threshold(keys, threshold)
+    wanted = ~beaten[stack_of_design]
+    rows, chosen, evaluation, designs = choose_bounded(
+        parts, stacks, spec, stack_of_design[wanted], resistor[wanted], error_lower[wanted]
+    )
+    return rows, chosen, evaluation, designs, {REASON_DESIGN: int(proven.sum()), REASON_RANK: int(beaten.sum())}
 
 
 def _reason_texts(evaluation) -> np.ndarray:
@@ -265,6 +289,7 @@ def search_library(
     summary = SearchSummary(spec=spec, part_count=len(parts))
     check_search_size(len(parts), spec.max_parts, force=force)
     tables = part_bound_tables(parts, spec)
+    _WORKER_TABLES.update(stack=tables, cell=cell_bound_tables(parts, spec, float(candidate_resistors(spec)[0])))
     stacks, error_lower = survey_candidates(parts, spec, tables, summary)
     part_counts = (stacks >= 0).sum(axis=1)
     lower_keys = lower_bound_keys(error_lower, part_counts, spec, order, resolution_v)
@@ -278,7 +303,7 @@ def search_library(
     pool = None
     if worker_count > 1 and len(stacks) >= PARALLEL_THRESHOLD:
         pool = ProcessPoolExecutor(worker_count, mp_context=multiprocessing.get_context("fork"))
-    rank_pruned = 0
+    pruned = Counter()
     try:
         position = 0
         while position < len(batches):
@@ -289,17 +314,22 @@ def search_library(
                 keep = np.ones(piece.stop - piece.start, dtype=bool)
                 if shortlist.full:
                     keep = ~beats_threshold([k[piece] for k in lower_keys], shortlist.threshold())
-                rank_pruned += int((~keep).sum())
+                pruned[REASON_RANK] += int((~keep).sum())
                 if keep.any():
                     selected.append(stacks[piece][keep])
+            threshold = shortlist.threshold() if shortlist.full else None
+            arguments = [(parts, spec, chosen, threshold, order, resolution_v) for chosen in selected]
             if pool is not None and len(selected) > 1:
-                count = len(selected)
-                results = list(pool.map(_solve_batch, [parts] * count, [spec] * count, selected, [tables] * count))
+                results = list(pool.map(_solve_batch, *zip(*arguments, strict=True)))
             else:
-                results = [_solve_batch(parts, spec, s, tables) for s in selected]
-            for batch_stacks, (resistor, evaluation, designs) in zip(selected, results, strict=True):
-                summary.solved += len(batch_stacks)
+                results = [_solve_batch(*call) for call in arguments]
+            for batch_stacks, (rows, resistor, evaluation, designs, batch_pruned) in zip(selected, results, strict=True):
+                pruned.update(batch_pruned)
+                summary.solved += len(rows)
                 summary.designs_solved += designs
+                if evaluation is None:
+                    continue
+                batch_stacks = batch_stacks[rows]
                 feasible = np.asarray(evaluation.feasible, dtype=bool)
                 infeasible.update(_reason_texts(evaluation)[~feasible].tolist())
                 summary.feasible += int(feasible.sum())
@@ -312,8 +342,8 @@ def search_library(
     finally:
         if pool is not None:
             pool.shutdown()
-    if rank_pruned:
-        summary.pruned[REASON_RANK] = rank_pruned
+        _WORKER_TABLES.clear()
+    summary.pruned.update({reason: count for reason, count in pruned.items() if count})
     summary.infeasible = dict(infeasible)
     summary.elapsed_s = time.perf_counter() - started
     return shortlist, usable, summary
@@ -328,13 +358,33 @@ class SeekResult(NamedTuple):
 
 def library_partset(library) -> PartSet:
     """Parts of a library given as a PartSet, a catalog ``Library``, or a db path/URL."""
+    return _library_parts(library, None, None, None)[0]
+
+
+def _library_parts(library, list_name, statuses, usable_mask):
+    """The library's PartSet and, when a list is named, its usable mask and conditions.
+
+    A list needs the library itself: a bare PartSet with a list name and no
+    ``usable_mask`` is refused rather than searched unfiltered.
+    """
     if isinstance(library, PartSet):
-        return library
+        if list_name is not None and usable_mask is None:
+            raise SearchError(
+                f"the spec names the approved-parts list '{list_name}': pass the library "
+                "(not a PartSet), or a usable_mask"
+            )
+        return library, usable_mask, None
     if isinstance(library, (str, Path)):
         from selector.catalog.store import open_library
 
         library = open_library(str(library))
-    return library.load_partset()
+    parts = library.load_partset()
+    if list_name is None or usable_mask is not None:
+        return parts, usable_mask, None
+    from selector.catalog.approved_lists import list_view
+
+    view = list_view(library, parts, list_name, statuses)
+    return parts, view.usable, view.condition
 
 
 def seek(
@@ -356,6 +406,9 @@ def seek(
     ----------
     spec : RailSpec or path of a spec TOML
     library : PartSet, ``selector.catalog.store.Library``, or a db path/URL
+        When the spec names an approved-parts list (``[search] list``), only the parts
+        of the usable statuses on it are searched, and conditional parts' conditions
+        come with the rows that use them; this needs a Library or a db path/URL.
     top : int
         Shortlist length; when fewer designs meet, the closest feasible ones fill it.
     rank_by, resolution_v, usable_mask, conditions, force, workers, progress
@@ -377,9 +430,11 @@ def seek(
 
     if not isinstance(spec, RailSpec):
         spec = load_spec(spec, {})
+    parts, usable_mask, list_conditions = _library_parts(library, spec.list_name, spec.statuses, usable_mask)
     shortlist, usable, summary = search_library(
-        library_partset(library), spec, top=top, rank_by=rank_by, resolution_v=resolution_v,
-        usable_mask=usable_mask, conditions=conditions, force=force, workers=workers, progress=progress,
+        parts, spec, top=top, rank_by=rank_by, resolution_v=resolution_v, usable_mask=usable_mask,
+        conditions=conditions if conditions is not None else list_conditions,
+        force=force, workers=workers, progress=progress,
     )
     frame = shortlist_frame(usable.parts, shortlist.stacks, shortlist.resistor_ohm, shortlist.evaluation, usable.condition)
     return SeekResult(frame, summary)

@@ -280,6 +280,29 @@ def list_view(library, parts: PartSet, list_name: str, statuses: Sequence[str] |
     return ListView(list_name, usable_statuses, status, condition, reason, usable)
 
 
+def stack_notes(view: ListView, parts: PartSet, stack: Sequence[int]) -> tuple[list[str], list[str]]:
+    """What a list says about a stack's parts: warnings for each part a design may not
+    use (naming its status), and ``PART: condition`` for each conditional part.
+
+    Parameters
+    ----------
+    view : ListView
+        The list's view of ``parts``.
+    parts : PartSet
+    stack : sequence of int
+        Positions in ``parts`` of the stack's elements (repeats allowed).
+    """
+    warnings, conditions = [], []
+    for position in dict.fromkeys(int(index) for index in stack if index >= 0):
+        name = str(parts.part[position])
+        message = view.unusable_message(position, name)
+        if message:
+            warnings.append(message)
+        elif view.condition[position]:
+            conditions.append(f"{name}: {view.condition[position]}")
+    return warnings, conditions
+
+
 def compare_lists(library, first: str, second: str) -> list[dict[str, str]]:
     """Parts whose status (or condition) differs between two lists, sorted by part.
 

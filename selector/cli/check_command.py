@@ -6,6 +6,7 @@ import json
 
 import click
 
+from selector.catalog.approved_lists import list_view, stack_notes
 from selector.check_view import CheckedDesign, check_json, check_lines
 from selector.cli.spec_options import SPEC_OPTIONS_EPILOG, spec_options
 from selector.corners import design_metrics
@@ -43,15 +44,24 @@ def check(state, stack_text, as_json, samples, seed, derating, spec):
     """Solve one stack and series resistor at all 32 worst-case corners and report.
 
     Without --resistor the resistor is chosen from the spec's series by the least
-    worst-case error among feasible values.
+    worst-case error among feasible values. With --list (or [search] list) a part the
+    list does not allow is warned about, naming its status, and the condition of each
+    conditional part is shown.
     """
     if samples is not None and not (1 <= samples <= MAX_MONTE_CARLO_SAMPLES):
         raise OptionError(f"--monte-carlo: {samples} is not between 1 and {MAX_MONTE_CARLO_SAMPLES}")
     if not (0.0 < derating <= 1.0):
         raise OptionError(f"--derating: {derating:g} is not in (0, 1]")
     elements = expand_stack(parse_stack(stack_text))
-    parts = state.library().load_partset()
+    library = state.library()
+    parts = library.load_partset()
     stack = parts.index_of(elements)
+    warnings, conditions = [], []
+    if spec.list_name is not None:
+        view = list_view(library, parts, spec.list_name, spec.statuses)
+        warnings, conditions = stack_notes(view, parts, stack)
+    for warning in warnings:
+        click.echo(f"Warning: {warning}", err=True)
     if spec.resistor_fixed_ohm is not None:
         resistor = float(spec.resistor_fixed_ohm)
     else:
@@ -68,9 +78,14 @@ def check(state, stack_text, as_json, samples, seed, derating, spec):
         else None,
     )
     if as_json:
-        click.echo(json.dumps(check_json(design), indent=2, ensure_ascii=False))
+        document = check_json(design)
+        if spec.list_name is not None:
+            document["approved_list"] = {"list": spec.list_name, "warnings": warnings, "conditions": conditions}
+        click.echo(json.dumps(document, indent=2, ensure_ascii=False))
     else:
         click.echo("\n".join(check_lines(design)))
+        for condition in conditions:
+            click.echo(f"Condition of use (list '{spec.list_name}'): {condition}")
 
 
 COMMANDS = [check]

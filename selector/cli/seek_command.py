@@ -58,7 +58,9 @@ def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool
 
     Every candidate is either solved at all 32 worst-case corners with its series
     resistor chosen from the spec's E-series, or dropped by a bound that proves it
-    cannot be feasible or cannot enter the shortlist.
+    cannot be feasible or cannot enter the shortlist. With --list (or [search] list)
+    only the list's usable parts are searched (approved and conditional, or
+    --statuses), and each conditional part's condition is shown with its rows.
     """
     from selector.errors import OptionError, QuantityError
 
@@ -87,6 +89,9 @@ def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool
         click.echo(f"No feasible design. Most candidates were rejected because: {reason or 'no candidate'}.")
     else:
         click.echo(terminal_table(frame))
+        for rank, conditions in zip(frame["rank"], frame["conditions"], strict=True):
+            if conditions:
+                click.echo(f"  #{rank} conditions of use (list '{spec.list_name}'): {conditions}")
         near = int((frame["margin"] < NEAR_LIMIT_MARGIN).sum())
         if near:
             click.echo(
