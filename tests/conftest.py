@@ -64,6 +64,17 @@ def backend_db(request, tmp_path) -> str:
 
 
 @pytest.fixture
+def postgres_db() -> str:
+    """The throwaway PostgreSQL database, emptied before and after the test (or a skip)."""
+    url = postgres_url()
+    if url is None:
+        pytest.skip(PG_SKIP_REASON)
+    reset_postgres(url)
+    yield url
+    reset_postgres(url)
+
+
+@pytest.fixture
 def backend_library(backend_db) -> Library:
     """A fresh library holding the invented demo sets, on each backend in turn."""
     library = open_library(backend_db, create_with_demo=True)

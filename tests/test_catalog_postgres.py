@@ -30,13 +30,8 @@ pytestmark = [
 
 
 @pytest.fixture
-def pg_url() -> str:
-    engine = create_engine(PG_URL)
-    with engine.begin() as connection:
-        connection.execute(text("DROP SCHEMA public CASCADE"))
-        connection.execute(text("CREATE SCHEMA public"))
-    engine.dispose()
-    return PG_URL
+def pg_url(postgres_db) -> str:
+    return postgres_db
 
 
 def test_a_new_database_becomes_an_empty_library(pg_url):

@@ -126,7 +126,8 @@ def test_in_memory_sqlite_url_works():
     assert len(library.load_partset()) >= 72
 
 
-def test_load_partset_is_sorted_filtered_and_may_be_empty(demo_library):
+def test_load_partset_is_sorted_filtered_and_may_be_empty(backend_library):
+    demo_library = backend_library
     everything = demo_library.load_partset()
     assert list(everything.part) == sorted(everything.part)
     zeners = demo_library.load_partset(["zener"])
@@ -143,7 +144,8 @@ def test_load_partset_is_sorted_filtered_and_may_be_empty(demo_library):
     assert everything.theta_ja_k_per_w[index] == pytest.approx((150 - 25) / 2.5)
 
 
-def test_part_record_and_remove(demo_library):
+def test_part_record_and_remove(backend_library):
+    demo_library = backend_library
     assert demo_library.part_record("Z5V1-A")["vz_v"] == 5.1
     demo_library.remove_part("Z5V1-A")
     with pytest.raises(UnknownPartError) as caught:
@@ -153,7 +155,8 @@ def test_part_record_and_remove(demo_library):
         demo_library.remove_part("Z5V1-A")
 
 
-def test_the_family_check_constraint_guards_the_table(empty_library):
+def test_the_family_check_constraint_guards_the_table(backend_db):
+    empty_library = open_library(backend_db)
     with pytest.raises(LibraryError, match="refused by the database"), empty_library.session() as session:
         session.execute(
             text(
@@ -164,7 +167,8 @@ def test_the_family_check_constraint_guards_the_table(empty_library):
     assert empty_library.part_records() == []
 
 
-def test_a_failed_write_rolls_back_everything(empty_library):
+def test_a_failed_write_rolls_back_everything(backend_db):
+    empty_library = open_library(backend_db)
     # The duplicate D-0 (which file validation would have caught) makes the insert fail.
     records = [
         {"part": f"D-{i}", "family": "signal", "is_a": 1e-9, "n": 2.0, "pd_w": 0.5} for i in range(3)
@@ -174,6 +178,10 @@ def test_a_failed_write_rolls_back_everything(empty_library):
         empty_library.import_records(records, kind="parts csv", file_name="x.csv", file_sha256="0" * 64)
     assert empty_library.part_records() == []
     assert empty_library.import_history() == []
+    from selector.catalog.audit import history
+
+    assert history(empty_library) == []  # the audit events of the failed import are gone too
+    empty_library.close()
 
 
 def test_concurrent_imports_both_succeed(demo_library, library_path):
