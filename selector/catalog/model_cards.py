@@ -238,7 +238,9 @@ def _zener_cells(card: ModelCard, overrides: Mapping[str, object]) -> dict[str, 
     if izt_a <= 0 or izk_a <= 0:
         return {"vz_v": card.values["BV"], "tnom_c": tnom_c}
     return {
-        "vz_v": card.values["BV"] + slope_v * math.log(izt_a / ibv_a) + rs_ohm * izt_a,
+        # ln(izt) − ln(IBV), not ln(izt/IBV): the quotient of far-apart values can
+        # underflow to 0 (a math domain error) or overflow.
+        "vz_v": card.values["BV"] + slope_v * (math.log(izt_a) - math.log(ibv_a)) + rs_ohm * izt_a,
         "izt_a": izt_a,
         "izk_a": izk_a,
         "zzt_ohm": slope_v / izt_a + rs_ohm,
