@@ -175,6 +175,7 @@ def solve_operating_points(
     point_sign = None if per_element else np.broadcast_to(tolerance_sign.reshape(-1), (count,))
     keys, signature = _stack_layout(parts, stacks, merge)
     tables: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+    work = _Workspace(min(chunk_points, count))
     # Points of one layout have their distinct parts in the same columns with the same
     # multiplicities, so each block computes no empty slot.
     for layout, group in _layout_groups(signature):
@@ -197,7 +198,7 @@ def solve_operating_points(
                 constants = np.take(tables[multiplicity][1], keys[column][chosen], axis=1)
                 constants[_Z_OFFSET] += signs[1][len(breakdown)] * constants[_Z_TOL_V] + constants[_Z_TC] * block[2]
                 breakdown.append(constants)
-            outcome = _newton_block(forward, breakdown, *block)
+            outcome = _newton_block(forward, breakdown, *block, work)
             hard = outcome[2] < 0
             if hard.any():
                 arrays = []
@@ -216,20 +217,29 @@ def solve_operating_points(
                     value[hard] = fallback
             log_current[chosen], vout[chosen], status[chosen], worst_margin[chosen], hottest[chosen] = outcome
     solved = status == STATUS_SOLVED
+    unsolved = np.flatnonzero(~solved)
     supply, resistor, ambient, load_fixed, load_conductance = conditions
-    current = np.where(solved, np.exp(log_current), 0.0)
-    vout = np.where(solved, vout, 0.0)
-    load = np.where(solved, load_fixed + load_conductance * vout, 0.0)
-    residual = np.where(solved, supply - resistor * (current + load) - vout, 0.0)
+    log_current[unsolved] = 0.0
+    current = np.exp(log_current)
+    vout[unsolved] = 0.0
+    load = load_conductance * vout
+    load += load_fixed
+    through_resistor = current + load
+    residual = supply - resistor * through_resistor
+    residual -= vout
+    for value in (current, load, through_resistor, residual):
+        value[unsolved] = 0.0
+    worst_margin[unsolved] = -np.inf
+    hottest[unsolved] = ambient[unsolved]
     result = dict(
         vout_v=vout,
         stack_current_a=current,
         load_current_a=load,
-        resistor_power_w=resistor * (current + load) ** 2,
+        resistor_power_w=resistor * through_resistor**2,
         kcl_residual_v=residual,
         status=status,
-        worst_element_margin=np.where(solved, worst_margin, -np.inf),
-        hottest_junction_c=np.where(solved, hottest, ambient),
+        worst_element_margin=worst_margin,
+        hottest_junction_c=hottest,
     )
     if detail:
         result.update(_element_detail(parts, stacks, log_current, ambient, element_sign, solved))
@@ -545,6 +555,21 @@ _F_LOG_IS, _F_XTI_N, _F_EG_NKQ, _F_NKQ, _F_XTI_KQ, _F_EG, _F_RS, _F_OFFSET, _F_T
 _Z_OFFSET, _Z_TOL_V, _Z_TC, _Z_A, _Z_RZ, _Z_LOOP, _Z_THETA, _Z_PD, _Z_TJ_MAX = range(9)
 
 
+class _Workspace:
+    """Named work rows reused by every block of one solve: arithmetic into fresh memory costs
+    about twice as much as into memory already in cache."""
+
+    def __init__(self, length: int):
+        self.length = length
+        self.rows: dict[object, np.ndarray] = {}
+
+    def __call__(self, name: object, size: int) -> np.ndarray:
+        row = self.rows.get(name)
+        if row is None:
+            row = self.rows[name] = np.empty(self.length)
+        return row[:size]
+
+
 def _key_tables(parts: PartSet, multiplicity: int) -> tuple[np.ndarray, np.ndarray]:
     """Per-key constants of ``multiplicity`` equal elements in series, forward and breakdown.
 
@@ -649,7 +674,7 @@ def _decode_layout(signature: int, width: int, merge: bool) -> tuple[list[tuple[
     return slots[0], slots[1]
 
 
-def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load_conductance):
+def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load_conductance, work):
     """Fast path: coupled Newton without a bracket, from a close start; keeps what it verifies.
 
     ``forward`` and ``breakdown`` hold one constant array per slot (rows as in
@@ -672,10 +697,8 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
     load_gain = 1.0 + resistor * load_conductance
     current_cap = drive / resistor
     for z in breakdown:
-        loop = z[_Z_LOOP]
-        if (loop > 0).any():
-            np.minimum(current_cap, np.divide(_FAST_LOOP_GAIN, loop, out=np.full(count, np.inf), where=loop > 0),
-                       out=current_cap)  # fmt: skip
+        # Where θ·tc ≤ 0 the bound is beyond any current (1e-300 stands in for 0).
+        np.minimum(current_cap, _FAST_LOOP_GAIN / np.maximum(z[_Z_LOOP], 1e-300), out=current_cap)
     status = np.full(count, -1, dtype=np.int8)
     out_u = np.zeros(count)
     out_v = np.zeros(count)
@@ -727,51 +750,60 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
     pending = np.ones(u.shape, dtype=bool)
     for evaluation in range(FAST_EVALUATIONS):
         checking = evaluation > 0
-        current = np.exp(u)
-        stack_v = np.zeros_like(u)
-        stack_slope = np.zeros_like(u)
-        worst_residual_t = np.zeros_like(u)
-        worst_gain = np.zeros_like(u)
+        size = u.size
+        minus_x, tail, log_term, n_vt, ohmic, dv_dt, heating, log_t, inverse_t, scratch = (
+            work(name, size) for name in range(10)
+        )
+        current = np.exp(u, out=work("current", size))
+        stack_v = work("stack_v", size)
+        stack_slope = work("stack_slope", size)
+        worst_residual_t = work("worst_residual_t", size)
+        worst_gain = work("worst_gain", size)
+        for buffer in (stack_v, stack_slope, worst_residual_t, worst_gain):
+            buffer.fill(0.0)
         for j, f in enumerate(forward):
             temperature = junction[j]
             if checking:
-                log_t = np.log(temperature)
-                inverse_t = 1.0 / temperature
+                np.log(temperature, out=log_t)
+                np.divide(1.0, temperature, out=inverse_t)
+                log_tj, inverse_tj = log_t, inverse_t
             else:
-                log_t, inverse_t = log_ambient, inverse_ambient
-            minus_x = f[_F_XTI_N] * log_t
-            minus_x -= f[_F_EG_NKQ] * inverse_t
+                log_tj, inverse_tj = log_ambient, inverse_ambient
+            np.multiply(f[_F_XTI_N], log_tj, out=minus_x)
+            minus_x -= np.multiply(f[_F_EG_NKQ], inverse_tj, out=scratch)
             minus_x += f[_F_LOG_IS]
             minus_x -= u
-            np.clip(minus_x, -700.0, 700.0, out=minus_x)
-            tail = np.exp(minus_x)
-            log_term = np.log1p(tail)
+            np.maximum(minus_x, -700.0, out=minus_x)
+            np.minimum(minus_x, 700.0, out=minus_x)
+            np.exp(minus_x, out=tail)
+            np.log1p(tail, out=log_term)
             log_term -= minus_x
             fraction = np.add(tail, 1.0, out=tail)
             np.divide(1.0, fraction, out=fraction)
-            n_vt = f[_F_NKQ] * temperature
-            ohmic = f[_F_RS] * current
-            voltage = n_vt * log_term
+            np.multiply(f[_F_NKQ], temperature, out=n_vt)
+            np.multiply(f[_F_RS], current, out=ohmic)
+            residual_t, slope_r, inverse, voltage = (work((j, name), size) for name in range(4))
+            np.multiply(n_vt, log_term, out=voltage)
             voltage += ohmic
             voltage += f[_F_OFFSET]
             dv_du = np.multiply(n_vt, fraction, out=n_vt)
             dv_du += ohmic
-            dv_dt = f[_F_EG] * inverse_t
+            np.multiply(f[_F_EG], inverse_tj, out=dv_dt)
             dv_dt += f[_F_XTI_KQ]
             dv_dt *= fraction
             np.subtract(np.multiply(f[_F_NKQ], log_term, out=log_term), dv_dt, out=dv_dt)
-            heating = f[_F_THETA] * current
-            residual_t = temperature - ambient_k
+            np.multiply(f[_F_THETA], current, out=heating)
+            np.subtract(temperature, ambient_k, out=residual_t)
             residual_t -= np.multiply(heating, voltage, out=ohmic)
             gain = np.multiply(heating, dv_dt, out=fraction)
             if checking:
                 np.maximum(worst_gain, gain, out=worst_gain)
                 np.maximum(worst_residual_t, np.abs(residual_t, out=minus_x), out=worst_residual_t)
-            inverse = np.subtract(1.0, gain, out=gain)
+            np.subtract(1.0, gain, out=inverse)
             np.maximum(inverse, 1.0 - RUNAWAY_LOOP_GAIN, out=inverse)
             np.divide(1.0, inverse, out=inverse)
             weight = np.multiply(dv_dt, inverse, out=dv_dt)
-            slope_r = voltage + dv_du
+            np.add(voltage, dv_du, out=slope_r)
             slope_r *= heating
             voltage -= np.multiply(weight, residual_t, out=minus_x)
             stack_v += voltage
@@ -779,11 +811,11 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
             stack_slope += dv_du
             thermal[j] = residual_t, slope_r, inverse, voltage
         for j, z in enumerate(breakdown):
-            ohmic = z[_Z_RZ] * current
-            loop = z[_Z_LOOP] * current
-            inverse = np.subtract(1.0, loop)
+            np.multiply(z[_Z_RZ], current, out=ohmic)
+            loop = np.multiply(z[_Z_LOOP], current, out=heating)
+            inverse = np.subtract(1.0, loop, out=scratch)
             np.divide(1.0, inverse, out=inverse)
-            voltage = z[_Z_A] * u
+            voltage = np.multiply(z[_Z_A], u, out=work(("z", j), size))
             voltage += z[_Z_OFFSET]
             voltage += ohmic
             voltage *= inverse
@@ -793,14 +825,14 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
             ohmic *= inverse
             stack_slope += ohmic
             zener_v[j] = voltage
-        resistor_slope = resistor * current
-        residual = drive - resistor_slope
-        residual -= load_gain * stack_v
+        resistor_slope = np.multiply(resistor, current, out=work("resistor_slope", size))
+        residual = np.subtract(drive, resistor_slope, out=work("residual", size))
+        residual -= np.multiply(load_gain, stack_v, out=scratch)
         falling = np.multiply(load_gain, stack_slope, out=stack_slope)
         falling += resistor_slope
         last = evaluation == FAST_EVALUATIONS - 1
         if checking:
-            done = np.abs(residual) <= KCL_TOLERANCE_V
+            done = np.abs(residual, out=scratch) <= KCL_TOLERANCE_V
             done &= worst_residual_t <= THERMAL_TOLERANCE_K
             done &= worst_gain < RUNAWAY_LOOP_GAIN
             done &= falling > 0.0
@@ -812,7 +844,8 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
                 if not pending.any():
                     break
                 if pending.sum() < 0.5 * pending.size:
-                    keep = pending
+                    # Integer indices: each copy below costs only the points kept.
+                    keep = np.flatnonzero(pending)
                     index = (np.arange(count)[index] if isinstance(index, slice) else index)[keep]
                     u, residual, falling, resistor_slope, current = (
                         a[keep] for a in (u, residual, falling, resistor_slope, current)
@@ -827,17 +860,21 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
                     pending = np.ones(u.shape, dtype=bool)
         if last:
             break
-        denominator = np.maximum(falling, 0.5 * resistor_slope)
+        denominator = np.multiply(resistor_slope, 0.5, out=work(0, u.size))
+        np.maximum(falling, denominator, out=denominator)
         delta = np.divide(residual, denominator, out=residual)
         share = np.divide(resistor_slope, denominator, out=resistor_slope)
         np.minimum(share, 1.0, out=share)
-        step = np.log1p(np.maximum(delta, -0.9))
+        step = np.maximum(delta, -0.9, out=work(1, u.size))
+        np.log1p(step, out=step)
         step -= delta
         step *= share
         step += delta
-        step += u
-        np.clip(step, lo, hi, out=step)
-        u, step = step, np.subtract(step, u, out=u)
+        new_u = np.add(u, step, out=work(("u", evaluation % 2), u.size))
+        np.maximum(new_u, lo, out=new_u)
+        np.minimum(new_u, hi, out=new_u)
+        np.subtract(new_u, u, out=step)
+        u = new_u
         for j, (residual_t, slope_r, inverse, _) in enumerate(thermal):
             residual_t -= np.multiply(slope_r, step, out=slope_r)
             residual_t *= inverse
@@ -850,22 +887,42 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
 def _record(done, index, u, current, stack_v, ambient_k, forward, breakdown, junction, thermal, zener_v,
             out_u, out_v, status, out_margin, out_hottest):  # fmt: skip
     """Store the verified points: rail voltage, element margin ``1 − V·I/P_max`` with
-    ``P_max = min(pd, (Tjmax − Ta)/θ)`` (DESIGN §3), and the hottest junction."""
-    where = (np.arange(status.size)[index] if isinstance(index, slice) else index)[done]
-    i_done = current[done]
-    ambient_done = ambient_k[done]
-    load = np.zeros(where.size)
-    hottest = ambient_done.copy()
+    ``P_max = min(pd, (Tjmax − Ta)/θ)`` (DESIGN §3), and the hottest junction.
+
+    Margin and junction are worked out for every point of the block (whole-array
+    arithmetic is cheaper than picking the verified points first) and stored for those.
+    """
+    ambient_c = ambient_k - ZERO_CELSIUS_K
+    load = np.zeros_like(u)
+    hottest = ambient_k.copy()
+    scratch = np.empty_like(u)
     for f, temperature, (residual_t, _, inverse, settled_v) in zip(forward, junction, thermal, strict=True):
-        allowed = np.minimum(f[_F_PD, done], (f[_F_TJ_MAX, done] - (ambient_done - ZERO_CELSIUS_K)) / f[_F_THETA, done])
-        np.maximum(load, settled_v[done] / np.maximum(allowed, 1e-300), out=load)
-        np.maximum(hottest, temperature[done] - residual_t[done] * inverse[done], out=hottest)
+        allowed = np.subtract(f[_F_TJ_MAX], ambient_c, out=scratch)
+        allowed /= f[_F_THETA]
+        np.minimum(allowed, f[_F_PD], out=allowed)
+        np.maximum(allowed, 1e-300, out=allowed)
+        np.maximum(load, np.divide(settled_v, allowed, out=allowed), out=load)
+        np.maximum(hottest, temperature - residual_t * inverse, out=hottest)
     for z, voltage in zip(breakdown, zener_v, strict=True):
-        allowed = np.minimum(z[_Z_PD, done], (z[_Z_TJ_MAX, done] - (ambient_done - ZERO_CELSIUS_K)) / z[_Z_THETA, done])
-        np.maximum(load, voltage[done] / np.maximum(allowed, 1e-300), out=load)
-        np.maximum(hottest, ambient_done + z[_Z_THETA, done] * i_done * voltage[done], out=hottest)
-    out_u[where] = u[done]
-    out_v[where] = stack_v[done]
+        allowed = np.subtract(z[_Z_TJ_MAX], ambient_c, out=scratch)
+        allowed /= z[_Z_THETA]
+        np.minimum(allowed, z[_Z_PD], out=allowed)
+        np.maximum(allowed, 1e-300, out=allowed)
+        np.maximum(load, np.divide(voltage, allowed, out=allowed), out=load)
+        rise = np.multiply(z[_Z_THETA], current, out=scratch)
+        rise *= voltage
+        rise += ambient_k
+        np.maximum(hottest, rise, out=hottest)
+    load *= current
+    np.subtract(1.0, load, out=load)
+    hottest -= ZERO_CELSIUS_K
+    if isinstance(index, slice) and done.all():
+        where, chosen = index, slice(None)
+    else:
+        chosen = np.flatnonzero(done)
+        where = chosen if isinstance(index, slice) else index[chosen]
+    out_u[where] = u[chosen]
+    out_v[where] = stack_v[chosen]
     status[where] = STATUS_SOLVED
-    out_margin[where] = 1.0 - load * i_done
-    out_hottest[where] = hottest - ZERO_CELSIUS_K
+    out_margin[where] = load[chosen]
+    out_hottest[where] = hottest[chosen]
