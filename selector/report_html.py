@@ -152,7 +152,7 @@ def _stack_indices(parts: PartSet, stack_text: str) -> np.ndarray:
 
 
 def _now() -> datetime.datetime:
-    return datetime.datetime.now(datetime.timezone.utc).replace(microsecond=0)
+    return datetime.datetime.now(datetime.UTC).replace(microsecond=0)
 
 
 def search_review(
@@ -588,7 +588,7 @@ def _cautions_section(report: ReviewReport) -> str:
 
 
 def _footer(report: ReviewReport) -> str:
-    when = report.generated.astimezone(datetime.timezone.utc).strftime("%Y-%m-%d %H:%M:%S UTC")
+    when = report.generated.astimezone(datetime.UTC).strftime("%Y-%m-%d %H:%M:%S UTC")
     return (
         f'<footer id="footer"><p>Library: <span data-field="library">{_e(report.library_location)}</span>; '
         f'schema revision <span data-field="schema">{_e(report.schema_revision or "none")}</span>. '
