@@ -195,6 +195,17 @@ def _crossings(envelope, elements, currents, intercept, slope, lower_side: bool)
     """
     cells = envelope.shape[1]
     count = intercept.shape[0]
+    flat = envelope.ravel()
+    # Row offsets of each element in the flattened table: one take per column is far
+    # cheaper than a fancy-indexed 2-d gather and a sum over a short axis.
+    offsets = [elements[:, column] * cells for column in range(elements.shape[1])]
+
+    def summed_at(cell):
+        total = flat.take(offsets[0] + cell)
+        for offset in offsets[1:]:
+            total += flat.take(offset + cell)
+        return total
+
     if lower_side:
         good, bad = np.full(count, -1), np.full(count, cells)
     else:
@@ -205,7 +216,7 @@ def _crossings(envelope, elements, currents, intercept, slope, lower_side: bool)
             break
         middle = (good + bad) // 2
         safe = np.clip(middle, 0, cells - 1)
-        summed = envelope[elements, safe[:, None]].sum(axis=1)
+        summed = summed_at(safe)
         edge = currents[safe] if lower_side else currents[safe + 1]
         line = intercept - slope * edge
         holds = line >= summed if lower_side else line <= summed
@@ -213,7 +224,7 @@ def _crossings(envelope, elements, currents, intercept, slope, lower_side: bool)
         bad = np.where(open_ & ~holds, middle, bad)
     safe = np.clip(good, 0, cells - 1)
     inside = (good >= 0) & (good < cells)
-    summed = np.where(inside, envelope[elements, safe[:, None]].sum(axis=1), -np.inf if lower_side else np.inf)
+    summed = np.where(inside, summed_at(safe), -np.inf if lower_side else np.inf)
     return good, summed
 
 

@@ -206,10 +206,16 @@ def _solve_batch(parts: PartSet, spec: RailSpec, stacks: np.ndarray, threshold, 
     np.minimum.at(stack_lower, stack_of_design, error_lower)
     proven = ~np.isfinite(stack_lower)
     beaten = np.zeros(len(stacks), dtype=bool)
+    wanted = np.ones(stack_of_design.size, dtype=bool)
     if threshold is not None:
-        keys = lower_bound_keys(np.where(proven, 0.0, stack_lower), (stacks >= 0).sum(axis=1), spec, order, resolution_v)
+        part_count = (stacks >= 0).sum(axis=1)
+        keys = lower_bound_keys(np.where(proven, 0.0, stack_lower), part_count, spec, order, resolution_v)
         beaten = ~proven & beats_threshold(keys, threshold)
-    wanted = ~beaten[stack_of_design]
+        # A value whose own key bound is beaten need not be solved: were it the stack's
+        # choice, any other value reported instead has an error at least as large, so it
+        # is beaten too and never enters the shortlist.
+        design_keys = lower_bound_keys(error_lower, part_count[stack_of_design], spec, order, resolution_v)
+        wanted = ~beats_threshold(design_keys, threshold)
     rows, chosen, evaluation, designs = choose_bounded(
         parts, stacks, spec, stack_of_design[wanted], resistor[wanted], error_lower[wanted]
     )

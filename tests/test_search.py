@@ -121,3 +121,85 @@ def test_bad_inputs_raise_one_line_errors():
     with pytest.raises(SearchError, match=r"^max_parts 12 over 300 parts makes 1\.43e\+21 candidate stacks \(limit 5e\+07\)"):
         check_search_size(300, 12)
     assert check_search_size(300, 12, force=True) > 10**16
+
+
+def random_invented_library(seed: int) -> PartSet:
+    """A small random library of invented forward parts and zeners (no real part's data)."""
+    rng = np.random.default_rng(seed)
+    records = []
+    for i in range(int(rng.integers(1, 3))):
+        records.append(dict(part=f"RF-{i}", family=str(rng.choice(["signal", "rectifier", "schottky"])),
+                            description="invented", is_a=float(10 ** rng.uniform(-10, -7)), n=float(rng.uniform(1.0, 2.0)),
+                            rs_ohm=float(rng.uniform(0, 2)), pd_w=float(rng.choice([0.2, 0.5])),
+                            vf_tol_v=float(rng.choice([0.0, 0.02]))))
+    for i in range(int(rng.integers(2, 4))):
+        izt = float(rng.choice([2e-3, 5e-3]))
+        records.append(dict(part=f"RZ-{i}", family="zener", description="invented", vz_v=float(rng.uniform(1.8, 6.2)),
+                            izt_a=izt, zzt_ohm=float(rng.uniform(5, 40)), izk_a=izt / 10, zzk_ohm=float(rng.uniform(200, 900)),
+                            vz_tol_pct=float(rng.choice([1.0, 5.0])), tc_v_per_k=float(rng.uniform(-3e-3, 3e-3)),
+                            pd_w=float(rng.choice([0.25, 0.5]))))
+    return PartSet.from_records(records)
+
+
+def brute_force_shortlist(parts: PartSet, spec: RailSpec, top: int):
+    """Plain reference: each stack's DESIGN §3 resistor by a loop over every value, then the rank order."""
+    from selector.ranking import sort_designs
+    from selector.resistor_choice import candidate_resistors
+
+    stacks = np.concatenate(list(iterate_multisets(len(parts), spec.max_parts)))
+    values = candidate_resistors(spec)
+    evaluation = evaluate_designs(parts, np.repeat(stacks, values.size, axis=0), np.tile(values, len(stacks)), spec)
+    rows, resistors = [], []
+    for row in range(len(stacks)):
+        span = slice(row * values.size, (row + 1) * values.size)
+        errors = np.where(evaluation.feasible[span], evaluation.error_v[span], np.inf)
+        if np.isfinite(errors).any():
+            # Least error; ties within 1 nV go to the larger R (DESIGN §3).
+            rows.append(row * values.size + np.flatnonzero(errors <= errors.min() + 1e-9).max())
+            resistors.append(values[rows[-1] - row * values.size])
+    rows = np.array(rows, dtype=int)
+    chosen = stacks[rows // values.size]
+    ties = [chosen[:, column] for column in range(chosen.shape[1])] + [np.array(resistors)]
+    order = sort_designs(evaluation.meets[rows], evaluation.error_v[rows], evaluation.margin[rows],
+                         (chosen >= 0).sum(axis=1), ties)[:top]
+    return chosen[order], np.array(resistors)[order], evaluation.error_v[rows][order]
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_random_libraries_shortlist_equals_brute_force(seed):
+    rng = np.random.default_rng(100 + seed)
+    changes = dict(target_v=float(rng.uniform(2.5, 7.0)), tolerance_v=float(rng.choice([0.05, 0.2, 0.5])),
+                   max_parts=int(rng.choice([2, 3])), resistor_series="E12")
+    if seed % 2:
+        changes.update(load_kind="resistance", load_min=800.0, load_max=5000.0)
+    if seed % 3 == 1:
+        changes.update(min_margin=0.2)
+    if seed == 2:
+        changes.update(resistor_min_ohm=100.0, resistor_max_ohm=2200.0)
+    if seed == 4:
+        changes.update(resistor_fixed_ohm=680.0)
+    parts, spec = random_invented_library(seed), rail(**changes)
+    expected_stacks, expected_r, expected_error = brute_force_shortlist(parts, spec, top=5)
+    shortlist, _, _ = search_library(parts, spec, top=5, workers=1)
+    found = 0 if shortlist.evaluation is None else len(shortlist.resistor_ohm)
+    assert found == len(expected_r)
+    if found:
+        np.testing.assert_array_equal(shortlist.stacks, expected_stacks)
+        np.testing.assert_array_equal(shortlist.resistor_ohm, expected_r)
+        np.testing.assert_allclose(shortlist.evaluation.error_v, expected_error, rtol=0, atol=1e-12)
+
+
+def test_design_bounds_hold_for_every_feasible_design():
+    from selector.design_bounds import cell_bound_tables, design_bounds
+
+    for changes in ({}, {"load_kind": "resistance", "load_min": 1000.0, "load_max": 5000.0}, {"min_margin": 0.3, "ambient_max_c": 85.0}):
+        parts, spec = invented_parts(), rail(**changes)
+        stacks, values, error, evaluation = brute_force(parts, spec)
+        tables = cell_bound_tables(parts, spec, float(values[0]))
+        lower, infeasible = design_bounds(tables, np.repeat(stacks, values.size, axis=0), np.tile(values, len(stacks)), spec)
+        feasible = evaluation.feasible
+        assert not (feasible & infeasible).any()
+        assert np.all(lower[feasible] <= evaluation.error_v[feasible])
+        # The bounds must also be useful: most infeasible designs proven so, feasible ones within 50 mV.
+        assert infeasible.sum() > 0.4 * (~feasible).sum()
+        assert np.median(evaluation.error_v[feasible] - lower[feasible]) < 0.05
