@@ -186,17 +186,22 @@ def solve_operating_points(
         for start in range(0, size, chunk_points):
             chosen = slice(start, min(start + chunk_points, size)) if isinstance(group, slice) else group[start : start + chunk_points]
             block = [c[chosen] for c in conditions]
-            signs = [
-                [element_sign[chosen, column] if per_element else point_sign[chosen] for column, _ in family]
-                for family in slots
-            ]
+            if per_element:
+                signs = [[element_sign[chosen, column] for column, _ in family] for family in slots]
+            else:
+                chunk_sign = point_sign[chosen]
+                signs = [[chunk_sign] * len(family) for family in slots]
             forward, breakdown = [], []
-            for column, multiplicity in slots[0]:
-                forward.append(np.take(tables[multiplicity][0], keys[column][chosen], axis=1))
-                forward[-1][_F_OFFSET] *= signs[0][len(forward) - 1]
-            for column, multiplicity in slots[1]:
+            for (column, multiplicity), sign in zip(slots[0], signs[0], strict=True):
+                constants = np.take(tables[multiplicity][0], keys[column][chosen], axis=1)
+                constants[_F_OFFSET] *= sign
+                forward.append(constants)
+            for (column, multiplicity), sign in zip(slots[1], signs[1], strict=True):
                 constants = np.take(tables[multiplicity][1], keys[column][chosen], axis=1)
-                constants[_Z_OFFSET] += signs[1][len(breakdown)] * constants[_Z_TOL_V] + constants[_Z_TC] * block[2]
+                tolerance_v, offset = constants[_Z_TOL_V], constants[_Z_OFFSET]
+                tolerance_v *= sign
+                offset += tolerance_v
+                offset += np.multiply(constants[_Z_TC], block[2], out=tolerance_v)
                 breakdown.append(constants)
             outcome = _newton_block(forward, breakdown, *block, work)
             hard = outcome[2] < 0
@@ -548,7 +553,7 @@ FAST_EVALUATIONS = 8
 #: Zener loop gain ``θ·tc·I`` the fast path stays below, so ``1/(1 − g)`` stays modest.
 _FAST_LOOP_GAIN = 0.999
 #: Blended Newton steps on the cold stack's load line that give the fast path its start.
-_START_STEPS = 3
+_START_STEPS = 1
 
 # Rows of the per-key constant tables (one element with multiplicity m folded in).
 _F_LOG_IS, _F_XTI_N, _F_EG_NKQ, _F_NKQ, _F_XTI_KQ, _F_EG, _F_RS, _F_OFFSET, _F_THETA, _F_PD, _F_TJ_MAX = range(11)
@@ -692,39 +697,47 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
     status −1.
     """
     count = supply.shape[0]
-    ambient_k = ambient + ZERO_CELSIUS_K
-    drive = supply - resistor * load_fixed
-    load_gain = 1.0 + resistor * load_conductance
-    current_cap = drive / resistor
+    drive = np.multiply(resistor, load_fixed, out=work("drive", count))
+    np.subtract(supply, drive, out=drive)
+    load_gain = np.multiply(resistor, load_conductance, out=work("load_gain", count))
+    load_gain += 1.0
+    current_cap = np.divide(drive, resistor, out=work("hi", count))
     for z in breakdown:
         # Where θ·tc ≤ 0 the bound is beyond any current (1e-300 stands in for 0).
-        np.minimum(current_cap, _FAST_LOOP_GAIN / np.maximum(z[_Z_LOOP], 1e-300), out=current_cap)
+        bound = np.maximum(z[_Z_LOOP], 1e-300, out=work(0, count))
+        np.minimum(current_cap, np.divide(_FAST_LOOP_GAIN, bound, out=bound), out=current_cap)
     status = np.full(count, -1, dtype=np.int8)
     out_u = np.zeros(count)
     out_v = np.zeros(count)
     out_margin = np.full(count, -np.inf)
     out_hottest = ambient.copy()
 
-    index = np.flatnonzero(current_cap > 2 * LEAST_CURRENT_A)
-    if index.size < count:
+    viable = current_cap > 2 * LEAST_CURRENT_A
+    if viable.all():
+        index = slice(None)
+    else:
+        index = np.flatnonzero(viable)
         forward = [f[:, index] for f in forward]
         breakdown = [z[:, index] for z in breakdown]
-        ambient_k, drive, load_gain, current_cap = ambient_k[index], drive[index], load_gain[index], current_cap[index]
+        ambient, drive, load_gain, current_cap = ambient[index], drive[index], load_gain[index], current_cap[index]
         resistor = resistor[index]
-    else:
-        index = slice(None)
+    size = current_cap.size
+    ambient_k = np.add(ambient, ZERO_CELSIUS_K, out=work("ambient_k", size))
     lo = np.log(LEAST_CURRENT_A)
-    hi = np.log(current_cap)
+    hi = np.log(current_cap, out=current_cap)
 
-    log_ambient = np.log(ambient_k)
-    inverse_ambient = 1.0 / ambient_k
-    cold_v = np.zeros_like(drive)
-    cold_log_slope = np.zeros_like(drive)
-    cold_ohmic = np.zeros_like(drive)
+    log_ambient = np.log(ambient_k, out=work("log_ambient", size))
+    inverse_ambient = np.divide(1.0, ambient_k, out=work("inverse_ambient", size))
+    cold_v, cold_log_slope, cold_ohmic, n_vt, log_is, scratch = (work(name, size) for name in range(6))
+    for buffer in (cold_v, cold_log_slope, cold_ohmic):
+        buffer.fill(0.0)
     for f in forward:
-        n_vt = f[_F_NKQ] * ambient_k
-        log_is = f[_F_LOG_IS] + f[_F_XTI_N] * log_ambient - f[_F_EG_NKQ] * inverse_ambient
-        cold_v += f[_F_OFFSET] - n_vt * log_is
+        np.multiply(f[_F_NKQ], ambient_k, out=n_vt)
+        np.multiply(f[_F_XTI_N], log_ambient, out=log_is)
+        log_is -= np.multiply(f[_F_EG_NKQ], inverse_ambient, out=scratch)
+        log_is += f[_F_LOG_IS]
+        cold_v += f[_F_OFFSET]
+        cold_v -= np.multiply(n_vt, log_is, out=log_is)
         cold_log_slope += n_vt
         cold_ohmic += f[_F_RS]
     for z in breakdown:
@@ -732,17 +745,33 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
         cold_log_slope += z[_Z_A]
         cold_ohmic += z[_Z_RZ]
     # Load line K − P·e^u − Q·u = 0 of that cold stack.
-    line_k = drive - load_gain * cold_v
-    line_p = resistor + load_gain * cold_ohmic
-    line_q = load_gain * cold_log_slope
-    u = np.clip(np.log(np.maximum(line_k, 1e-3 * drive) / line_p), lo, hi)
+    line_k = np.subtract(drive, np.multiply(load_gain, cold_v, out=cold_v), out=cold_v)
+    line_p = np.add(resistor, np.multiply(load_gain, cold_ohmic, out=cold_ohmic), out=cold_ohmic)
+    line_q = np.multiply(load_gain, cold_log_slope, out=cold_log_slope)
+    u = np.multiply(drive, 1e-3, out=work(("u", 1), size))
+    np.maximum(line_k, u, out=u)
+    u /= line_p
+    np.log(u, out=u)
+    np.maximum(u, lo, out=u)
+    np.minimum(u, hi, out=u)
+    exponential, falling, delta = n_vt, log_is, scratch
     for _ in range(_START_STEPS):
-        exponential = line_p * np.exp(u)
-        falling = np.maximum(exponential + line_q, 0.5 * exponential)
-        delta = (line_k - exponential - line_q * u) / falling
-        share = exponential / falling
-        u += delta + share * (np.log1p(np.maximum(delta, -0.9)) - delta)
-        np.clip(u, lo, hi, out=u)
+        np.exp(u, out=exponential)
+        exponential *= line_p
+        np.add(exponential, line_q, out=falling)
+        np.maximum(falling, np.multiply(exponential, 0.5, out=delta), out=falling)
+        np.subtract(line_k, exponential, out=delta)
+        delta -= np.multiply(line_q, u, out=work(6, size))
+        delta /= falling
+        share = np.divide(exponential, falling, out=exponential)
+        u += delta
+        np.maximum(delta, -0.9, out=falling)
+        np.log1p(falling, out=falling)
+        falling -= delta
+        falling *= share
+        u += falling
+        np.maximum(u, lo, out=u)
+        np.minimum(u, hi, out=u)
 
     junction = [ambient_k.copy() for _ in forward]
     thermal = [None] * len(forward)  # per slot: residual, its u-slope, 1/(1 − g), settled voltage
