@@ -50,6 +50,8 @@ STYLE: dict[str, object] = {
     "axes.titlesize": 10.0,
     "axes.titleweight": "bold",
     "axes.titlelocation": "left",
+    # A fixed title place: placing it automatically measures every tick label again.
+    "axes.titley": 1.02,
     "axes.labelsize": 9.0,
     "axes.edgecolor": "#333333",
     "axes.linewidth": 0.8,
@@ -189,11 +191,15 @@ def ambient_sweep(parts: PartSet, stack: np.ndarray, resistor_ohm: float, spec: 
 
 def _figure():
     from matplotlib.figure import Figure
+    from matplotlib.ticker import MaxNLocator
 
     figure = Figure(figsize=FIGURE_SIZE)
     # Fixed margins: a layout engine costs more than drawing the figure.
     figure.subplots_adjust(**FIGURE_MARGINS)
-    return figure, figure.add_subplot()
+    axes = figure.add_subplot()
+    for axis in (axes.xaxis, axes.yaxis):
+        axis.set_major_locator(MaxNLocator(nbins=6))
+    return figure, axes
 
 
 def _styled(make):

@@ -1,0 +1,58 @@
+"""The report rendered by headless Chromium with the network off: the screenshot is not blank.
+
+Skipped, with the reason printed, when Chromium is not installed (Debian package
+``chromium``).
+"""
+
+from __future__ import annotations
+
+import shutil
+import subprocess
+from pathlib import Path
+
+import matplotlib.image
+import pytest
+from test_report_html import SPEC_OPTIONS, make_library
+
+from selector.report_html import search_review, write_report
+from selector.spec import load_spec
+
+CHROMIUM = next((found for name in ("chromium", "chromium-browser") if (found := shutil.which(name))), None)
+if CHROMIUM is None and Path("/usr/bin/chromium").exists():
+    CHROMIUM = "/usr/bin/chromium"
+
+
+def screenshot(page: Path, tmp_path: Path) -> Path:
+    shot = tmp_path / "shot.png"
+    command = [
+        CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+        "--disable-background-networking", "--disable-component-update", "--disable-sync",
+        # Every host resolves nowhere, so any attempt to fetch from the network would fail.
+        "--host-resolver-rules=MAP * ~NOTFOUND", "--proxy-server=127.0.0.1:9",
+        f"--user-data-dir={tmp_path / 'profile'}", f"--screenshot={shot}", "--window-size=1200,2000",
+        page.resolve().as_uri(),
+    ]
+    completed = subprocess.run(command, capture_output=True, text=True, timeout=120, check=False)
+    assert shot.exists(), f"no screenshot; chromium said: {completed.stderr[-800:]}"
+    return shot
+
+
+def test_report_renders_in_headless_chromium(tmp_path):
+    if CHROMIUM is None:
+        print("skipped: Chromium is not installed (Debian package 'chromium')")
+        pytest.skip("Chromium is not installed (Debian package 'chromium')")
+    library = make_library(tmp_path / "lib.sqlite")
+    try:
+        review = search_review(load_spec(None, SPEC_OPTIONS), library, top=2, samples=2000)
+    finally:
+        library.close()
+    page = tmp_path / "review.html"
+    write_report(review, page)
+    pixels = matplotlib.image.imread(screenshot(page, tmp_path))[..., :3]
+    assert pixels.shape[:2] == (2000, 1200)
+    # A blank page is one flat colour; text, tables and plots give spread in every band.
+    assert pixels.std() > 0.05
+    for band in (pixels[:600], pixels[600:1300], pixels[1300:]):
+        assert band.std() > 0.02
+    dark = (pixels.mean(axis=2) < 0.35).mean()
+    assert 0.005 < dark < 0.5  # some ink, not a black screen
