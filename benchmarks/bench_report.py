@@ -26,7 +26,12 @@ import time
 from pathlib import Path
 
 from selector.catalog.store import open_library
-from selector.report_html import DEFAULT_SCATTER_DESIGNS, DEFAULT_SWEEP_DESIGNS, search_review, write_report
+from selector.report_html import (
+    DEFAULT_SCATTER_DESIGNS,
+    DEFAULT_SWEEP_DESIGNS,
+    search_review,
+    write_report,
+)
 from selector.search import seek
 from selector.spec import load_spec
 
@@ -59,7 +64,8 @@ def main() -> None:
             finished, finished_cpu = time.perf_counter(), time.process_time()
             beyond = finished - started - search_s
             print(f"report ({label}): search of {max(TOP, arguments.scatter)} designs {search_s:.2f} s; "
-                  f"designs proved and sampled {gathered - started - search_s:.2f} s; figures and HTML "
+                  f"designs proved and sampled {gathered - started - search_s:.2f} s "
+                  f"(search and designs CPU {gathered_cpu - started_cpu:.2f} s); figures and HTML "
                   f"{finished - gathered:.2f} s (CPU {finished_cpu - gathered_cpu:.2f} s); beyond the search {beyond:.2f} s; "
                   f"beyond seek --top {TOP} {finished - started - seek_s:.2f} s; "
                   f"{out.stat().st_size / 1e6:.2f} MB HTML, {len(written)} PNG")
