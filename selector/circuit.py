@@ -331,11 +331,12 @@ def _sort_columns(columns: list[np.ndarray]) -> None:
     network: ``width`` passes of compare-exchange; D. E. Knuth, *The Art of Computer
     Programming* vol. 3, 2nd ed., §5.3.4)."""
     width = len(columns)
+    spare = np.empty_like(columns[0]) if width > 1 else None
     for rank in range(width):
         for i in range(rank % 2, width - 1, 2):
-            low = np.minimum(columns[i], columns[i + 1])
+            low = np.minimum(columns[i], columns[i + 1], out=spare)
             np.maximum(columns[i], columns[i + 1], out=columns[i + 1])
-            columns[i] = low
+            spare, columns[i] = columns[i], low
 
 
 class _Family:
@@ -649,15 +650,23 @@ def _stack_layout(parts: PartSet, stacks: np.ndarray, merge: bool) -> tuple[np.n
     count, width = stacks.shape
     part_count = len(parts)
     pad = 2 * part_count
-    key_of_part = np.append(np.arange(part_count) + parts.is_zener * part_count, pad).astype(np.int32)
+    # Narrow integers: this pass touches every element of every stack.
+    key_type = np.int16 if pad < 1 << 15 else np.int32
+    key_of_part = np.append(np.arange(part_count) + parts.is_zener * part_count, pad).astype(key_type)
     columns = [key_of_part[stacks[:, j]] for j in range(width)]
     if merge:
         _sort_columns(columns)
-        forward = sum((column < part_count).astype(np.int32) for column in columns)
-        filled = sum((column < pad).astype(np.int32) for column in columns)
-        signature = (forward * (width + 1) + filled) << (width - 1)
+        forward = np.zeros(count, dtype=np.int32)
+        filled = np.zeros(count, dtype=np.int32)
+        for column in columns:
+            forward += column < part_count
+            filled += column < pad
+        forward *= width + 1
+        forward += filled
+        signature = np.left_shift(forward, width - 1, out=forward)
         for j in range(1, width):
-            signature |= (columns[j] != columns[j - 1]).astype(np.int32) << (j - 1)
+            head = (columns[j] != columns[j - 1]).astype(np.int32)
+            signature |= np.left_shift(head, j - 1, out=head)
     else:
         signature = np.zeros(count, dtype=np.int64)
         for j in range(width):
