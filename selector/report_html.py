@@ -554,7 +554,8 @@ def _candidate_section(candidate: CandidateReview, svg: dict[str, str]) -> str:
         '<p>All 32 worst-case corners; the lowest and highest rail are in bold.</p>',
         _corner_table(candidate),
         "<h3>Margin per part</h3>",
-        '<p>Worst power over the corners against the part\'s allowed power at that corner\'s ambient.</p>',
+        '<p>Worst power over the corners and the rated power; the margin is taken against the power allowed '
+        "at each corner's ambient, min(rated, (Tj max − Ta)/θ).</p>",
         _margin_table(candidate),
         "<h3>Plots</h3>",
         "" if f"{key}-supply" in svg else "<p>Sweeps are drawn for the first designs only (--sweeps).</p>",
