@@ -8,12 +8,16 @@ events), and no process may see "database is locked".
 from __future__ import annotations
 
 import multiprocessing
+import sqlite3
 
 import pytest
+from sqlalchemy.exc import OperationalError
 
 from selector.catalog import approved_lists as lists
+from selector.catalog import store
 from selector.catalog.audit import history
 from selector.catalog.store import open_library
+from selector.errors import LibraryError
 
 WORKERS = 4
 CHANGES = 50
@@ -66,3 +70,37 @@ def test_four_processes_fifty_status_changes_each(backend_db):
     final = {row["part"]: row["status"] for row in lists.list_entries(library, "shared")}
     assert final == last_new
     library.close()
+
+
+def test_a_busy_database_is_retried_with_a_bounded_number_of_tries(empty_library, monkeypatch):
+    pauses: list[float] = []
+    monkeypatch.setattr(store.time, "sleep", pauses.append)
+    tries = []
+
+    def busy_twice(session):
+        tries.append(1)
+        if len(tries) <= 2:
+            raise OperationalError("BEGIN IMMEDIATE", {}, sqlite3.OperationalError("database is locked"))
+        return "done"
+
+    assert empty_library.write(busy_twice) == "done"
+    assert len(tries) == 3 and len(pauses) == 2
+    # randomised ±50 % around 0.05 s, then 0.1 s
+    assert 0.025 <= pauses[0] <= 0.075 and 0.05 <= pauses[1] <= 0.15
+
+    def always_busy(session):
+        raise OperationalError("BEGIN IMMEDIATE", {}, sqlite3.OperationalError("database is locked"))
+
+    with pytest.raises(LibraryError) as caught:
+        empty_library.write(always_busy)
+    assert str(caught.value) == (
+        f"{empty_library.location_text()}: still busy with other writers after {store.WRITE_ATTEMPTS} tries; "
+        "try again in a moment"
+    )
+
+    def other_failure(session):
+        raise OperationalError("SELECT", {}, sqlite3.OperationalError("disk I/O error"))
+
+    tries.clear()
+    with pytest.raises(LibraryError, match="disk I/O error$"):
+        empty_library.write(other_failure)

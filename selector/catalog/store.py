@@ -229,7 +229,8 @@ class Library:
 
     @contextmanager
     def session(self) -> Iterator[Session]:
-        """A reading session inside one transaction, closed (rolled back) at the end.
+        """A reading session inside one transaction (committed at the end, rolled back
+        on an error).
 
         Database failures surface as :class:`LibraryError` naming the library. Writes
         go through :meth:`write`.
