@@ -15,6 +15,12 @@ thermal equations and then every ``Tj``. Breakdown elements' junctions are close
 ``I``. Each point keeps a bracket ``[u_lo, u_hi]`` with ``F(u_lo) > 0 > F(u_hi)``; a Newton
 step that leaves it is replaced by bisection, so every point converges or is flagged.
 
+Most points never need the bracket: a fast path (:func:`_newton_block`) groups the points
+by stack layout (distinct parts in the same columns with the same multiplicities), starts
+from the cold stack's load line, takes the same coupled Newton steps without a bracket and
+keeps each point only once it passes the same acceptance test; the rest go to the
+bracketed solver.
+
 Points without a physical solution are flagged, never NaN: the load draws more than the
 supply can give through ``R``; the stack current would be below 1 fA; an element reaches
 electro-thermal loop gain ``θ·I·∂V/∂T ≥ 1`` (thermal runaway); or the iteration did not
@@ -184,39 +190,22 @@ def solve_operating_points(
             tables[multiplicity] = _key_tables(parts, multiplicity)
         size = count if isinstance(group, slice) else group.size
         for start in range(0, size, chunk_points):
-            chosen = slice(start, min(start + chunk_points, size)) if isinstance(group, slice) else group[start : start + chunk_points]
+            if isinstance(group, slice):
+                chosen = slice(start, min(start + chunk_points, size))
+            else:
+                chosen = group[start : start + chunk_points]
             block = [c[chosen] for c in conditions]
             if per_element:
                 signs = [[element_sign[chosen, column] for column, _ in family] for family in slots]
             else:
                 chunk_sign = point_sign[chosen]
                 signs = [[chunk_sign] * len(family) for family in slots]
-            forward, breakdown = [], []
-            for (column, multiplicity), sign in zip(slots[0], signs[0], strict=True):
-                constants = np.take(tables[multiplicity][0], keys[column][chosen], axis=1)
-                constants[_F_OFFSET] *= sign
-                forward.append(constants)
-            for (column, multiplicity), sign in zip(slots[1], signs[1], strict=True):
-                constants = np.take(tables[multiplicity][1], keys[column][chosen], axis=1)
-                tolerance_v, offset = constants[_Z_TOL_V], constants[_Z_OFFSET]
-                tolerance_v *= sign
-                offset += tolerance_v
-                offset += np.multiply(constants[_Z_TC], block[2], out=tolerance_v)
-                breakdown.append(constants)
+            part_keys = [[keys[column][chosen] for column, _ in family] for family in slots]
+            forward, breakdown = _block_constants(tables, slots, part_keys, signs, block[2])
             outcome = _newton_block(forward, breakdown, *block, work)
             hard = outcome[2] < 0
             if hard.any():
-                arrays = []
-                for family, (family_slots_, family_signs) in enumerate(zip(slots, signs, strict=True)):
-                    shape = (int(hard.sum()), len(family_slots_))
-                    part = np.zeros(shape, dtype=np.intp)
-                    multiplicity = np.zeros(shape, dtype=np.intp)
-                    sign = np.zeros(shape)
-                    for slot, ((column, m), slot_sign) in enumerate(zip(family_slots_, family_signs, strict=True)):
-                        part[:, slot] = keys[column][chosen][hard] - family * len(parts)
-                        multiplicity[:, slot] = m
-                        sign[:, slot] = slot_sign[hard]
-                    arrays += [part, multiplicity, sign]
+                arrays = _slot_arrays(len(parts), slots, part_keys, signs, hard)
                 rescued = _solve_block(parts, *arrays, *(value[hard] for value in block))
                 for value, fallback in zip(outcome, rescued, strict=True):
                     value[hard] = fallback
@@ -632,6 +621,40 @@ def _key_tables(parts: PartSet, multiplicity: int) -> tuple[np.ndarray, np.ndarr
     return forward, breakdown
 
 
+def _block_constants(tables, slots, part_keys, signs, ambient_c):
+    """Each slot's constant rows for one block (:func:`_key_tables`), tolerance signs applied
+    and each zener's voltage offset taken to the ambient ``ambient_c`` [°C]."""
+    forward, breakdown = [], []
+    for (_, multiplicity), key, sign in zip(slots[0], part_keys[0], signs[0], strict=True):
+        constants = np.take(tables[multiplicity][0], key, axis=1)
+        constants[_F_OFFSET] *= sign
+        forward.append(constants)
+    for (_, multiplicity), key, sign in zip(slots[1], part_keys[1], signs[1], strict=True):
+        constants = np.take(tables[multiplicity][1], key, axis=1)
+        tolerance_v, offset = constants[_Z_TOL_V], constants[_Z_OFFSET]
+        tolerance_v *= sign
+        offset += tolerance_v
+        offset += np.multiply(constants[_Z_TC], ambient_c, out=tolerance_v)
+        breakdown.append(constants)
+    return forward, breakdown
+
+
+def _slot_arrays(part_count, slots, part_keys, signs, chosen):
+    """The chosen points' slots as :func:`family_slots` rows, for :func:`_solve_block`."""
+    arrays = []
+    rows = int(np.count_nonzero(chosen))
+    for family, (family_slots, family_keys, family_signs) in enumerate(zip(slots, part_keys, signs, strict=True)):
+        part = np.zeros((rows, len(family_slots)), dtype=np.intp)
+        multiplicity = np.zeros(part.shape, dtype=np.intp)
+        sign = np.zeros(part.shape)
+        for slot, ((_, m), key, slot_sign) in enumerate(zip(family_slots, family_keys, family_signs, strict=True)):
+            part[:, slot] = key[chosen] - family * part_count
+            multiplicity[:, slot] = m
+            sign[:, slot] = slot_sign[chosen]
+        arrays += [part, multiplicity, sign]
+    return arrays
+
+
 def _stack_layout(parts: PartSet, stacks: np.ndarray, merge: bool) -> tuple[np.ndarray, np.ndarray]:
     """Element keys per stack position and a layout signature per point.
 
@@ -681,10 +704,11 @@ def _decode_layout(signature: int, width: int, merge: bool) -> tuple[list[tuple[
         return [(j, 1) for j in range(width) if codes[j] == 0], [(j, 1) for j in range(width) if codes[j] == 1]
     forward, filled = divmod(signature >> (width - 1), width + 1)
     starts = [0] + [j for j in range(1, width) if signature >> (j - 1) & 1]
-    slots = []
-    for begin, end in ((0, forward), (forward, filled)):
-        heads = [begin] + [j for j in starts if begin < j < end] if end > begin else []
-        slots.append([(j, following - j) for j, following in zip(heads, heads[1:] + [end][: len(heads)], strict=True)])
+    slots: list[list[tuple[int, int]]] = [[], []]
+    for family, (begin, end) in enumerate(((0, forward), (forward, filled))):
+        if end > begin:
+            heads = [begin] + [j for j in starts if begin < j < end]
+            slots[family] = [(j, following - j) for j, following in zip(heads, heads[1:] + [end], strict=True)]
     return slots[0], slots[1]
 
 

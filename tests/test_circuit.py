@@ -195,3 +195,63 @@ def test_family_slots_match_a_plain_count_per_stack(parts):
             filled = multiplicity[row] > 0
             assert filled.tolist() == [True] * len(family) + [False] * (stacks.shape[1] - len(family))
             assert dict(zip(part[row][filled].tolist(), multiplicity[row][filled].tolist(), strict=True)) == family
+
+
+@pytest.mark.parametrize("width", [1, 3, 8])
+def test_family_slots_match_a_plain_count_at_other_widths(parts, width):
+    rng = np.random.default_rng(width)
+    stacks = rng.integers(-1, 5, (300, width))
+    fp, fc, _, zp, zc, _ = family_slots(parts, stacks)
+    for row, stack in enumerate(stacks):
+        for family, part, multiplicity in ((False, fp, fc), (True, zp, zc)):
+            wanted = {int(p): int(np.sum(stack == p)) for p in set(stack[stack >= 0]) if parts.is_zener[p] == family}
+            filled = multiplicity[row] > 0
+            assert dict(zip(part[row][filled].tolist(), multiplicity[row][filled].tolist(), strict=True)) == wanted
+
+
+def test_family_slots_keep_elements_apart_with_per_element_signs(parts):
+    stacks = np.array([[1, 2, 1, -1], [3, 3, 0, 4]])
+    signs = np.array([[1.0, -1.0, -0.5, 0.0], [0.25, -1.0, 1.0, 0.0]])
+    fp, fc, fs, zp, zc, zs = family_slots(parts, stacks, signs)
+    assert fp[0, :2].tolist() == [1, 1] and fc[0].tolist() == [1, 1, 0, 0] and fs[0, :2].tolist() == [1.0, -0.5]
+    assert zp[0, :1].tolist() == [2] and zs[0, :1].tolist() == [-1.0]
+    assert fp[1, :3].tolist() == [3, 3, 0] and fs[1, :3].tolist() == [0.25, -1.0, 1.0]
+    assert zp[1, :1].tolist() == [4] and zc[1].tolist() == [1, 0, 0, 0]
+
+
+def _random_points(count, seed):
+    rng = np.random.default_rng(seed)
+    stacks = rng.integers(-1, 5, (count, 4))
+    stacks[:, 0] = rng.integers(0, 5, count)
+    return (stacks, rng.uniform(3, 40, count), rng.uniform(10, 5000, count), rng.uniform(-55, 125, count),
+            rng.uniform(-1, 1, (count, 4)), rng.uniform(0, 3e-3, count))  # fmt: skip
+
+
+def test_fast_path_with_per_element_signs_agrees_with_the_safeguarded_solver(parts, monkeypatch):
+    # Plain reference: the bracketed solver alone, as in the one-sign test above.
+    args = _random_points(2000, 13)
+    with np.errstate(all="raise"):
+        fast = circuit.solve_operating_points(parts, *args)
+        monkeypatch.setattr(circuit, "FAST_EVALUATIONS", 0)
+        safe = circuit.solve_operating_points(parts, *args)
+    np.testing.assert_array_equal(fast.status, safe.status)
+    ok = safe.solved
+    assert ok.mean() > 0.5
+    np.testing.assert_allclose(fast.stack_current_a[ok], safe.stack_current_a[ok], rtol=1e-8, atol=1e-15)
+    np.testing.assert_allclose(fast.vout_v, safe.vout_v, rtol=0, atol=1e-9)
+    np.testing.assert_allclose(fast.worst_element_margin[ok], safe.worst_element_margin[ok], rtol=0, atol=1e-9)
+
+
+def test_block_size_and_layout_order_do_not_change_the_answer(parts):
+    stacks, supply, resistor, ambient, signs, load = _random_points(1500, 17)
+    sign = signs[:, 0].round()
+    whole = solve_operating_points(parts, stacks, supply, resistor, ambient, sign, load)
+    small = solve_operating_points(parts, stacks, supply, resistor, ambient, sign, load, chunk_points=7)
+    np.testing.assert_array_equal(whole.status, small.status)
+    np.testing.assert_allclose(small.vout_v, whole.vout_v, rtol=0, atol=1e-12)
+    # One layout only (the whole input is one block run): each point as if solved alone.
+    one = np.repeat(stacks[:1], 40, axis=0)
+    together = solve_operating_points(parts, one, supply[:40], resistor[:40], ambient[:40], sign[:40], load[:40])
+    alone = [solve_operating_points(parts, one[i : i + 1], supply[i], resistor[i], ambient[i], sign[i], load[i])
+             for i in range(40)]  # fmt: skip
+    np.testing.assert_allclose(together.vout_v, [a.vout_v[0] for a in alone], rtol=0, atol=1e-12)
