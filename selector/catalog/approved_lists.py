@@ -124,6 +124,7 @@ def check_statuses(statuses: Sequence[str] | None) -> tuple[str, ...]:
 
 
 def _find_list(session: Session, name: str, *, lock: bool = False) -> ApprovedList:
+    name = name.strip()
     query = select(ApprovedList).where(ApprovedList.name == name)
     found = session.scalar(query.with_for_update() if lock else query)
     if found is None:
