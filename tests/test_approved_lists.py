@@ -11,6 +11,7 @@ from alembic import command
 from sqlalchemy import create_engine, insert, inspect, select
 
 from selector.catalog import approved_lists as lists
+from selector.catalog import list_changes as changes
 from selector.catalog.approved_list_csv import (
     EXPORT_COLUMNS,
     import_list_file,
@@ -28,12 +29,12 @@ from selector.errors import InputDataError, LibraryError, OptionError, UnknownPa
 
 @pytest.fixture
 def line_a(backend_library):
-    lists.create_list(backend_library, "line-a", description="12 V boards (invented)", by="A. Tester")
+    changes.create_list(backend_library, "line-a", description="12 V boards (invented)", by="A. Tester")
     return backend_library
 
 
 def _set(library, part, status, condition=None, reason="test reason"):
-    return lists.set_status(library, "line-a", part, status, reason=reason, by="A. Tester", condition=condition)
+    return changes.set_status(library, "line-a", part, status, reason=reason, by="A. Tester", condition=condition)
 
 
 def test_each_status_is_kept_with_reason_condition_and_signer(line_a):
@@ -93,14 +94,14 @@ def test_usable_parts_follow_the_statuses(line_a):
 def test_bad_status_changes_are_refused_and_write_nothing(line_a, status, reason, condition, message):
     before = history(line_a)
     with pytest.raises(OptionError) as caught:
-        lists.set_status(line_a, "line-a", "Z5V1-A", status, reason=reason, condition=condition)
+        changes.set_status(line_a, "line-a", "Z5V1-A", status, reason=reason, condition=condition)
     assert str(caught.value) == message
     assert lists.list_entries(line_a, "line-a") == [] and history(line_a) == before
 
 
 def test_unknown_list_and_part_are_named(line_a):
     with pytest.raises(lists.UnknownListError) as caught:
-        lists.set_status(line_a, "line-b", "Z5V1-A", "approved", reason="x")
+        changes.set_status(line_a, "line-b", "Z5V1-A", "approved", reason="x")
     assert str(caught.value) == (
         "unknown list 'line-b' (known lists: line-a); create it with 'railwright approved create NAME'"
     )
@@ -108,13 +109,13 @@ def test_unknown_list_and_part_are_named(line_a):
         _set(line_a, "NO-SUCH", "approved")
     assert str(caught.value) == f"unknown part 'NO-SUCH' (not in the library {line_a.location_text()})"
     with pytest.raises(InputDataError, match="^the list 'line-a' already exists$"):
-        lists.create_list(line_a, "line-a")
+        changes.create_list(line_a, "line-a")
 
 
 def test_removing_a_listed_part_is_refused_naming_the_lists(line_a):
-    lists.create_list(line_a, "line-b")
+    changes.create_list(line_a, "line-b")
     _set(line_a, "D-SIG1", "banned")
-    lists.set_status(line_a, "line-b", "D-SIG1", "approved", reason="fine there")
+    changes.set_status(line_a, "line-b", "D-SIG1", "approved", reason="fine there")
     with pytest.raises(LibraryError) as caught:
         line_a.remove_part("D-SIG1")
     assert str(caught.value) == (
@@ -122,8 +123,8 @@ def test_removing_a_listed_part_is_refused_naming_the_lists(line_a):
         "take it off each first with 'railwright approved drop LIST D-SIG1 --reason TEXT'"
     )
     assert line_a.part_record("D-SIG1")["part"] == "D-SIG1"
-    lists.drop_entry(line_a, "line-a", "D-SIG1", reason="obsolete")
-    lists.drop_entry(line_a, "line-b", "D-SIG1", reason="obsolete")
+    changes.drop_entry(line_a, "line-a", "D-SIG1", reason="obsolete")
+    changes.drop_entry(line_a, "line-b", "D-SIG1", reason="obsolete")
     line_a.remove_part("D-SIG1", by="A. Tester", reason="obsolete")
     with pytest.raises(UnknownPartError):
         line_a.part_record("D-SIG1")
@@ -133,20 +134,20 @@ def test_removing_a_listed_part_is_refused_naming_the_lists(line_a):
 
 
 def test_rename_and_compare(line_a):
-    lists.create_list(line_a, "line-b")
+    changes.create_list(line_a, "line-b")
     _set(line_a, "Z5V1-A", "approved")
     _set(line_a, "D-SIG1", "banned")
-    lists.set_status(line_a, "line-b", "Z5V1-A", "approved", reason="test reason")
-    lists.set_status(line_a, "line-b", "D-SIG2", "evaluating", reason="test reason")
+    changes.set_status(line_a, "line-b", "Z5V1-A", "approved", reason="test reason")
+    changes.set_status(line_a, "line-b", "D-SIG2", "evaluating", reason="test reason")
     assert lists.compare_lists(line_a, "line-a", "line-b") == [
         {"part": "D-SIG1", "line-a": "banned", "line-b": ""},
         {"part": "D-SIG2", "line-a": "", "line-b": "evaluating"},
     ]
-    lists.rename_list(line_a, "line-a", "chargers", reason="product line renamed")
+    changes.rename_list(line_a, "line-a", "chargers", reason="product line renamed")
     assert [row["list"] for row in lists.lists_summary(line_a)] == ["chargers", "line-b"]
     assert lists.lists_summary(line_a)[0]["banned"] == 1
     with pytest.raises(OptionError, match="--reason: missing"):
-        lists.rename_list(line_a, "chargers", "x", reason="")
+        changes.rename_list(line_a, "chargers", "x", reason="")
 
 
 def test_list_csv_round_trip_and_dry_run(line_a, tmp_path):
@@ -157,7 +158,7 @@ def test_list_csv_round_trip_and_dry_run(line_a, tmp_path):
     header = exported.read_text(encoding="utf-8").splitlines()[0]
     assert header == ",".join(EXPORT_COLUMNS)
     assert "'=qualified" in exported.read_text(encoding="utf-8")
-    lists.create_list(line_a, "copy")
+    changes.create_list(line_a, "copy")
     plan = import_list_file(line_a, "copy", load_list_csv(exported), dry_run=True)
     assert plan.summary() == "2 added, 0 changed, 0 unchanged"
     assert lists.list_entries(line_a, "copy") == []
@@ -230,7 +231,7 @@ def test_upgrading_a_full_revision_1_library_keeps_everything(backend_db):
         assert [tuple(row) for row in connection.execute(select(Part.__table__).order_by(Part.id))] == before_parts
         assert [tuple(row) for row in connection.execute(select(ImportLog.__table__))] == before_log
     assert history(library) == [] and lists.lists_summary(library) == []
-    lists.create_list(library, "line-a")
-    lists.set_status(library, "line-a", "Z5V1-A", "approved", reason="after upgrade")
+    changes.create_list(library, "line-a")
+    changes.set_status(library, "line-a", "Z5V1-A", "approved", reason="after upgrade")
     assert np.count_nonzero(library.load_partset(list_name="line-a").part == "Z5V1-A") == 1
     library.close()

@@ -8,7 +8,7 @@ import json
 import numpy as np
 import pytest
 
-from selector.catalog import approved_lists as lists
+from selector.catalog import list_changes as changes
 from selector.errors import SearchError
 from selector.search import seek
 from selector.spec import load_spec
@@ -28,9 +28,9 @@ STATUSES = {"Z5V1-A": "approved", "Z4V7-A": "approved", "D-SIG2": "conditional",
 
 @pytest.fixture
 def listed(backend_library):
-    lists.create_list(backend_library, "line-a", by="C. Lead")
+    changes.create_list(backend_library, "line-a", by="C. Lead")
     for part, status in STATUSES.items():
-        lists.set_status(backend_library, "line-a", part, status, reason=f"{status} for the test", by="C. Lead",
+        changes.set_status(backend_library, "line-a", part, status, reason=f"{status} for the test", by="C. Lead",
                          condition="ambient at most 40 °C" if status == "conditional" else None)
     return backend_library
 

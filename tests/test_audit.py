@@ -9,7 +9,7 @@ from datetime import UTC, datetime, timedelta
 import pytest
 from sqlalchemy import text
 
-from selector.catalog import approved_lists as lists
+from selector.catalog import list_changes as changes
 from selector.catalog.audit import HISTORY_COLUMNS, history, parse_since
 from selector.catalog.parts_import import RawRow, validate_rows
 from selector.catalog.store import open_library
@@ -27,11 +27,11 @@ def test_import_edit_status_and_removal_events(backend_db):
     library.import_records(_records("500m"), kind="parts csv", file_name="audit.csv", file_sha256="0" * 64)
     library.import_records(_records("250m"), kind="parts csv", file_name="audit.csv", file_sha256="1" * 64)
     library.import_records(_records("250m"), kind="parts csv", file_name="audit.csv", file_sha256="1" * 64)
-    lists.create_list(library, "line-a", by="C. Lead")
-    lists.set_status(library, "line-a", "D-AU1", "evaluating", reason="samples ordered", by="C. Lead")
-    lists.set_status(library, "line-a", "D-AU1", "conditional", reason="passed at 25 °C", by="D. Eng",
+    changes.create_list(library, "line-a", by="C. Lead")
+    changes.set_status(library, "line-a", "D-AU1", "evaluating", reason="samples ordered", by="C. Lead")
+    changes.set_status(library, "line-a", "D-AU1", "conditional", reason="passed at 25 °C", by="D. Eng",
                      condition="ambient at most 50 °C")
-    lists.drop_entry(library, "line-a", "D-AU1", reason="line cancelled", by="C. Lead")
+    changes.drop_entry(library, "line-a", "D-AU1", reason="line cancelled", by="C. Lead")
     library.remove_part("D-AU1", by="C. Lead", reason="line cancelled")
     events = history(library, part="D-AU1")
     assert [(e["action"], e["who"]) for e in events] == [
@@ -61,7 +61,7 @@ def test_import_edit_status_and_removal_events(backend_db):
                                        "DELETE FROM audit_events"])
 def test_the_database_refuses_to_change_or_delete_events(backend_db, statement):
     library = open_library(backend_db)
-    lists.create_list(library, "line-a", by="C. Lead")
+    changes.create_list(library, "line-a", by="C. Lead")
     before = history(library)
     with pytest.raises(LibraryError) as caught, library.session() as session:
         session.execute(text(statement))
@@ -73,7 +73,7 @@ def test_the_database_refuses_to_change_or_delete_events(backend_db, statement):
 def test_history_csv_columns(backend_library, tmp_path):
     from selector.csv_safety import write_rows
 
-    lists.create_list(backend_library, "line-a", by="=HYPERLINK(x)")
+    changes.create_list(backend_library, "line-a", by="=HYPERLINK(x)")
     path = tmp_path / "history.csv"
     write_rows(path, HISTORY_COLUMNS, history(backend_library, list_name="line-a"))
     rows = list(csv.DictReader(path.open(encoding="utf-8")))

@@ -14,6 +14,7 @@ import pytest
 from sqlalchemy.exc import OperationalError
 
 from selector.catalog import approved_lists as lists
+from selector.catalog import list_changes as changes
 from selector.catalog import store
 from selector.catalog.audit import history
 from selector.catalog.store import open_library
@@ -31,7 +32,7 @@ def _worker(db: str, worker: int, barrier, failures) -> None:
         library = open_library(db)
         barrier.wait(timeout=60)
         for change in range(CHANGES):
-            lists.set_status(
+            changes.set_status(
                 library, "shared", PARTS[(worker + change) % len(PARTS)], STATUSES[(worker + change) % len(STATUSES)],
                 reason=f"worker {worker} change {change}", by=f"worker-{worker}",
             )
@@ -43,7 +44,7 @@ def _worker(db: str, worker: int, barrier, failures) -> None:
 @pytest.mark.slow
 def test_four_processes_fifty_status_changes_each(backend_db):
     library = open_library(backend_db, create_with_demo=True)
-    lists.create_list(library, "shared", by="setup")
+    changes.create_list(library, "shared", by="setup")
     context = multiprocessing.get_context("spawn")
     barrier = context.Barrier(WORKERS)
     failures = context.Queue()

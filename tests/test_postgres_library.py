@@ -9,7 +9,7 @@ import threading
 import pytest
 from sqlalchemy import text
 
-from selector.catalog import approved_lists as lists
+from selector.catalog import list_changes as changes
 from selector.catalog.audit import history
 from selector.catalog.store import head_revision, open_library
 from selector.errors import LibraryError
@@ -32,7 +32,7 @@ def test_unsupported_databases_are_refused_by_name(run_cli):
 
 def test_truncate_of_the_audit_trail_is_refused(postgres_db):
     library = open_library(postgres_db)
-    lists.create_list(library, "line-a", by="C. Lead")
+    changes.create_list(library, "line-a", by="C. Lead")
     with pytest.raises(LibraryError, match="audit events are append-only"), library.session() as session:
         session.execute(text("TRUNCATE audit_events"))
     assert len(history(library)) == 1

@@ -18,14 +18,8 @@ import io
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from selector.catalog.approved_lists import (
-    KEY_PARAMETERS,
-    Entry,
-    ListPlan,
-    apply_entries,
-    entry_problems,
-    missing_parts,
-)
+from selector.catalog.approved_lists import KEY_PARAMETERS, Entry, entry_problems, missing_parts
+from selector.catalog.list_changes import ListPlan, apply_entries
 from selector.catalog.parts_import import MAX_ROWS, decode_text, file_digest, read_input_bytes
 from selector.csv_safety import restore_cell, write_rows
 from selector.errors import InputDataError

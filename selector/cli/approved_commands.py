@@ -6,7 +6,7 @@ import sys
 
 import click
 
-from selector.catalog import approved_lists
+from selector.catalog import approved_lists, list_changes
 from selector.catalog.approved_list_csv import import_list_file, load_list_csv, write_list_csv
 from selector.catalog.part_sheet import format_table
 from selector.errors import InputDataError
@@ -73,7 +73,7 @@ def create_command(state, list_name: str, description: str, by: str | None) -> N
     Example:
       railwright approved create line-a --description "12 V controller boards"
     """
-    approved_lists.create_list(state.library(), list_name, description=description, by=by)
+    list_changes.create_list(state.library(), list_name, description=description, by=by)
     click.echo(f"created the list '{list_name.strip()}'")
 
 
@@ -90,7 +90,7 @@ def rename_command(state, old: str, new: str, reason: str | None, by: str | None
     Example:
       railwright approved rename line-a chargers --reason "product line renamed"
     """
-    approved_lists.rename_list(state.library(), old, new, reason=reason, by=by)
+    list_changes.rename_list(state.library(), old, new, reason=reason, by=by)
     click.echo(f"renamed the list '{old}' to '{new.strip()}'")
 
 
@@ -112,7 +112,7 @@ def set_command(state, list_name, part, status, reason, by, condition) -> None:
           --condition "only below 40 °C ambient"
       railwright approved set line-a D-REC1 banned --reason "supplier discontinued" --by "J. Roe"
     """
-    plan = approved_lists.set_status(
+    plan = list_changes.set_status(
         state.library(), list_name, part, status, reason=reason, by=by, condition=condition
     )
     for line in plan.lines():
@@ -132,7 +132,7 @@ def drop_command(state, list_name, part, reason, by) -> None:
     Example:
       railwright approved drop line-a D-OLD1 --reason "entered by mistake"
     """
-    approved_lists.drop_entry(state.library(), list_name, part.strip(), reason=reason, by=by)
+    list_changes.drop_entry(state.library(), list_name, part.strip(), reason=reason, by=by)
     click.echo(f"{list_name}: dropped {part.strip()}")
 
 
