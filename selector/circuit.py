@@ -56,7 +56,7 @@ THERMAL_TOLERANCE_K = 1e-7
 #: Iterations before a point is given up as not converged.
 MAX_ITERATIONS = 120
 #: Points solved together; keeps the working set in cache and memory proportional to it.
-DEFAULT_CHUNK_POINTS = 16384
+DEFAULT_CHUNK_POINTS = 8192
 
 #: Status codes of :class:`OperatingPoints`.
 STATUS_SOLVED = 0
@@ -209,7 +209,12 @@ def solve_operating_points(
                 rescued = _solve_block(parts, *arrays, *(value[hard] for value in block))
                 for value, fallback in zip(outcome, rescued, strict=True):
                     value[hard] = fallback
-            log_current[chosen], vout[chosen], status[chosen], worst_margin[chosen], hottest[chosen] = outcome
+            block_u, block_v, block_status, block_margin, block_hottest = outcome
+            log_current[chosen], vout[chosen], worst_margin[chosen], hottest[chosen] = (
+                block_u, block_v, block_margin, block_hottest
+            )
+            if block_status.any():  # status starts at STATUS_SOLVED (0)
+                status[chosen] = block_status
     solved = status == STATUS_SOLVED
     unsolved = np.flatnonzero(~solved)
     supply, resistor, ambient, load_fixed, load_conductance = conditions
@@ -739,11 +744,10 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
         # Where θ·tc ≤ 0 the bound is beyond any current (1e-300 stands in for 0).
         bound = np.maximum(z[_Z_LOOP], 1e-300, out=work(0, count))
         np.minimum(current_cap, np.divide(_FAST_LOOP_GAIN, bound, out=bound), out=current_cap)
+    # Every point is either stored by _record or left at status −1 for the safeguarded
+    # solver, which overwrites it, so the outputs need no initial values.
     status = np.full(count, -1, dtype=np.int8)
-    out_u = np.zeros(count)
-    out_v = np.zeros(count)
-    out_margin = np.full(count, -np.inf)
-    out_hottest = ambient.copy()
+    out_u, out_v, out_margin, out_hottest = (work(("out", name), count) for name in range(4))
 
     viable = current_cap > 2 * LEAST_CURRENT_A
     if viable.all():
@@ -901,7 +905,7 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
             done &= pending
             if done.any():
                 _record(done, index, u, current, stack_v, ambient_k, forward, breakdown, junction, thermal, zener_v,
-                        out_u, out_v, status, out_margin, out_hottest)  # fmt: skip
+                        out_u, out_v, status, out_margin, out_hottest, work)  # fmt: skip
                 pending &= ~done
                 if not pending.any():
                     break
@@ -947,24 +951,45 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
 
 
 def _record(done, index, u, current, stack_v, ambient_k, forward, breakdown, junction, thermal, zener_v,
-            out_u, out_v, status, out_margin, out_hottest):  # fmt: skip
+            out_u, out_v, status, out_margin, out_hottest, work):  # fmt: skip
     """Store the verified points: rail voltage, element margin ``1 − V·I/P_max`` with
     ``P_max = min(pd, (Tjmax − Ta)/θ)`` (DESIGN §3), and the hottest junction.
 
-    Margin and junction are worked out for every point of the block (whole-array
-    arithmetic is cheaper than picking the verified points first) and stored for those.
+    When most of the block is verified, margin and junction are worked out for every point
+    (whole-array arithmetic is cheaper than picking the verified points first) and stored
+    for those; when few are, for those alone.
     """
-    ambient_c = ambient_k - ZERO_CELSIUS_K
-    load = np.zeros_like(u)
-    hottest = ambient_k.copy()
-    scratch = np.empty_like(u)
+    if isinstance(index, slice) and done.all():
+        where, chosen = index, slice(None)
+    else:
+        chosen = np.flatnonzero(done)
+        where = chosen if isinstance(index, slice) else index[chosen]
+    out_u[where] = u[chosen]
+    out_v[where] = stack_v[chosen]
+    status[where] = STATUS_SOLVED
+    if not isinstance(chosen, slice) and 2 * chosen.size < u.size:
+        current, ambient_k = current[chosen], ambient_k[chosen]
+        forward = [f[:, chosen] for f in forward]
+        breakdown = [z[:, chosen] for z in breakdown]
+        junction = [t[chosen] for t in junction]
+        thermal = [tuple(a[chosen] for a in state) for state in thermal]
+        zener_v = [v[chosen] for v in zener_v]
+        chosen = slice(None)
+    size = current.size
+    ambient_c = np.subtract(ambient_k, ZERO_CELSIUS_K, out=work(("record", 0), size))
+    load = work(("record", 1), size)
+    load.fill(0.0)
+    hottest = work(("record", 2), size)
+    np.copyto(hottest, ambient_k)
+    scratch = work(("record", 3), size)
     for f, temperature, (residual_t, _, inverse, settled_v) in zip(forward, junction, thermal, strict=True):
         allowed = np.subtract(f[_F_TJ_MAX], ambient_c, out=scratch)
         allowed /= f[_F_THETA]
         np.minimum(allowed, f[_F_PD], out=allowed)
         np.maximum(allowed, 1e-300, out=allowed)
         np.maximum(load, np.divide(settled_v, allowed, out=allowed), out=load)
-        np.maximum(hottest, temperature - residual_t * inverse, out=hottest)
+        settled_t = np.multiply(residual_t, inverse, out=scratch)
+        np.maximum(hottest, np.subtract(temperature, settled_t, out=settled_t), out=hottest)
     for z, voltage in zip(breakdown, zener_v, strict=True):
         allowed = np.subtract(z[_Z_TJ_MAX], ambient_c, out=scratch)
         allowed /= z[_Z_THETA]
@@ -978,13 +1003,5 @@ def _record(done, index, u, current, stack_v, ambient_k, forward, breakdown, jun
     load *= current
     np.subtract(1.0, load, out=load)
     hottest -= ZERO_CELSIUS_K
-    if isinstance(index, slice) and done.all():
-        where, chosen = index, slice(None)
-    else:
-        chosen = np.flatnonzero(done)
-        where = chosen if isinstance(index, slice) else index[chosen]
-    out_u[where] = u[chosen]
-    out_v[where] = stack_v[chosen]
-    status[where] = STATUS_SOLVED
     out_margin[where] = load[chosen]
     out_hottest[where] = hottest[chosen]
