@@ -192,3 +192,12 @@ def test_missing_import_file_is_one_line(run_cli, library_path, tmp_path):
     result = run_cli("--db", library_path, "parts", "import", tmp_path / "nope.csv")
     assert result.exit_code == 1
     assert result.stderr == f"Error: {tmp_path / 'nope.csv'}: no such file\n"
+
+
+def test_remove_records_who_and_why_in_history(run_cli, library_path):
+    run_cli("--db", library_path, "init", "--demo")
+    removed = run_cli("--db", library_path, "parts", "remove", "D-SIG2", "--reason", "replaced by D-SIG1", "--by", "A. Tester")
+    assert removed.exit_code == 0
+    history = run_cli("--db", library_path, "history", "D-SIG2").stdout.splitlines()
+    assert "A. Tester  part removed  D-SIG2:" in history[-1]
+    assert history[-1].endswith("why: replaced by D-SIG1")

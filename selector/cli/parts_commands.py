@@ -210,16 +210,18 @@ def export_command(state, csv_file: str, families: tuple[str, ...]) -> None:
 
 @parts_group.command("remove")
 @click.argument("part")
+@click.option("--reason", default=None, help="Why the part goes; kept in 'railwright history'.")
+@click.option("--by", default=None, help="Who removes it (default: your login name).")
 @click.pass_obj
-def remove_command(state, part: str) -> None:
-    """Remove PART from the library.
+def remove_command(state, part: str, reason: str | None, by: str | None) -> None:
+    """Remove PART from the library (refused while an approved list names it).
 
     \b
     Example:
-      railwright parts remove D-OLD1
+      railwright parts remove D-OLD1 --reason "replaced by D-SIG2" --by "A. Tester"
     """
     library = state.library()
-    library.remove_part(part.strip())
+    library.remove_part(part.strip(), by=by, reason=reason)
     click.echo(f"removed {part.strip()} from {library.location_text()}")
 
 
