@@ -14,6 +14,22 @@ needs no assumption about the shape of ``error_v(R)``. Values the bounds prove i
 are never solved. A stack with no feasible value gets the least-error design among those
 solved (the values nearest its range when the range is empty), so callers can report
 why it fails.
+
+Corner screen
+-------------
+Before a value is solved at all 32 corners it is solved at the few corners of
+:data:`SCREEN_CORNERS`, and the table bound on its error is raised to the error over
+those corners. This needs no assumption about where the extremes lie: the screen's
+corners are some of the 32, so its highest rail is at most ``vout_high``, its lowest at
+least ``vout_low``, and since ``|v − target|`` is convex in ``v`` its largest value on
+``[vout_low, vout_high]`` is at an end, whence the screen's error is at most ``error_v``.
+Likewise a screened corner whose current is below the stack's need, above a forward
+element's ``if_max_a``, or whose margin is below ``min_margin`` proves the design
+infeasible (feasibility holds at every corner, DESIGN §3). A screened corner the solver
+does not solve is left out of the screen, never taken as proof. The corners are chosen
+where the rail's extremes and the current's least value usually sit (supply, load,
+resistor and tolerance all pushing one way, both ambients), so the screen's error is
+usually the exact ``error_v`` and only the value that wins is solved in full.
 """
 
 from __future__ import annotations
@@ -22,7 +38,8 @@ import dataclasses
 
 import numpy as np
 
-from selector.corners import evaluate_designs
+from selector.circuit import solve_operating_points
+from selector.corners import evaluate_designs, stack_current_limits, worst_case_corners
 from selector.design_bounds import CellBoundTables, cell_bound_tables, design_bounds
 from selector.errors import SearchError
 from selector.eseries import series_values
@@ -37,6 +54,17 @@ TIE_WINDOW_V = 1e-9
 CONTRACT_RESISTOR_RANGE_OHM = (1.0, 10e6)
 #: Designs per call of the corner evaluation (each is 32 operating points).
 DESIGNS_PER_CALL = 4096
+#: Corners of the screen (module docstring), by index into
+#: :func:`selector.corners.worst_case_corners` (16·supply + 8·load + 4·ambient + 2·resistor
+#: + sign): lowest rail (10, 14: supply min, most load, R high, parts low), least current
+#: (11, 15: the same with parts high), highest rail (17, 21: supply max, least load, R low,
+#: parts high) and most current (16, 20: the same with parts low), each at both ambients.
+SCREEN_CORNERS = (10, 14, 11, 15, 17, 21, 16, 20)
+#: Widening of the screen's error bound [V], far above the solver's residual (as
+#: :data:`selector.stack_bounds.VOLTAGE_SLACK_V`).
+SCREEN_SLACK_V = 1e-7
+#: Relative slack of the screen's current and margin tests [1].
+SCREEN_RELATIVE_SLACK = 1e-9
 
 
 def candidate_resistors(spec: RailSpec) -> np.ndarray:
@@ -96,6 +124,86 @@ def evaluate_in_calls(parts: PartSet, stacks: np.ndarray, resistor_ohm: np.ndarr
         for start in range(0, len(stacks), DESIGNS_PER_CALL)
     ]
     return pieces[0] if len(pieces) == 1 else concatenate_designs(pieces)
+
+
+def screen_designs(parts: PartSet, stacks: np.ndarray, resistor_ohm: np.ndarray, spec: RailSpec,
+                   corner_index=SCREEN_CORNERS) -> tuple[np.ndarray, np.ndarray]:
+    """Lower bound on ``error_v`` and proof of infeasibility from a few corners (module docstring).
+
+    Parameters
+    ----------
+    parts : PartSet
+    stacks : int array (n, max_len)
+        Part indices, padded with −1.
+    resistor_ohm : array (n,) [Ω]
+    spec : RailSpec
+    corner_index : sequence of int
+        Corners to solve, indices into :func:`selector.corners.worst_case_corners`.
+
+    Returns
+    -------
+    error_lower_v : array (n,) [V]
+        ``error_v ≥ error_lower_v`` for every design (0 where no screened corner solved).
+    infeasible : array (n,) of bool
+        A screened corner proves the design infeasible.
+    """
+    stacks = np.atleast_2d(np.asarray(stacks, dtype=np.intp))
+    count = stacks.shape[0]
+    if count == 0:
+        return np.zeros(0), np.zeros(0, dtype=bool)
+    corners = worst_case_corners(spec)
+    pick = np.asarray(corner_index, dtype=np.intp)
+    per = pick.size
+
+    def tiled(values):
+        return np.tile(values[pick], count)
+
+    points = solve_operating_points(
+        parts, np.repeat(stacks, per, axis=0), tiled(corners.supply_v),
+        np.repeat(np.asarray(resistor_ohm, dtype=float), per) * tiled(corners.resistor_factor),
+        tiled(corners.ambient_c), tiled(corners.tolerance_sign), tiled(corners.load_current_a),
+        tiled(corners.load_conductance_s),
+    )
+    solved = points.solved.reshape(count, per)
+    vout = points.vout_v.reshape(count, per)
+    current = points.stack_current_a.reshape(count, per)
+    high = np.where(solved, vout, -np.inf).max(axis=1)
+    low = np.where(solved, vout, np.inf).min(axis=1)
+    any_solved = solved.any(axis=1)
+    with np.errstate(invalid="ignore"):
+        error = np.maximum(np.abs(high - spec.target_v), np.abs(low - spec.target_v))
+    error = np.where(any_solved, np.maximum(error - SCREEN_SLACK_V, 0.0), 0.0)
+    need, limit = stack_current_limits(parts, stacks, spec)
+    slack = SCREEN_RELATIVE_SLACK
+    least = np.where(solved, current, np.inf).min(axis=1)
+    most = np.where(solved, current, -np.inf).max(axis=1)
+    element_margin = np.where(solved, points.worst_element_margin.reshape(count, per), np.inf).min(axis=1)
+    resistor_margin = 1.0 - np.where(solved, points.resistor_power_w.reshape(count, per), 0.0).max(axis=1) / spec.resistor_rating_w
+    margin = np.minimum(element_margin, resistor_margin)
+    infeasible = any_solved & (
+        (least < need * (1.0 - slack) - 1e-18)
+        | (most > limit * (1.0 + slack))
+        | (margin < spec.min_margin - slack)
+    )
+    return error, infeasible
+
+
+def screened_bounds(parts: PartSet, stacks: np.ndarray, spec: RailSpec, stack_of_design, resistor_ohm, error_lower_v, wanted=None):
+    """Design error bounds raised by the corner screen; inf where it proves infeasibility.
+
+    Only designs with a finite bound (and ``wanted``, when given) are screened; the others
+    keep their bound.
+    """
+    chosen = np.isfinite(error_lower_v)
+    if wanted is not None:
+        chosen &= wanted
+    rows = np.flatnonzero(chosen)
+    sharpened = np.array(error_lower_v, dtype=float, copy=True)
+    for start in range(0, rows.size, DESIGNS_PER_CALL):
+        piece = rows[start : start + DESIGNS_PER_CALL]
+        error, infeasible = screen_designs(parts, stacks[stack_of_design[piece]], resistor_ohm[piece], spec)
+        sharpened[piece] = np.where(infeasible, np.inf, np.maximum(sharpened[piece], error))
+    return sharpened
 
 
 def design_slots(first: np.ndarray, last: np.ndarray, value_count: int) -> tuple[np.ndarray, np.ndarray]:
@@ -253,6 +361,7 @@ def choose_resistors(
     if cell_tables is None:
         cell_tables = cell_bound_tables(parts, spec, float(values[0]))
     stack_of_design, resistor_of_design, error_lower = bounded_designs(cell_tables, stacks, bounds, spec)
+    error_lower = screened_bounds(parts, stacks, spec, stack_of_design, resistor_of_design, error_lower)
     rows, resistor, evaluation, _ = choose_bounded(parts, stacks, spec, stack_of_design, resistor_of_design, error_lower)
     missing = np.setdiff1d(np.arange(count), rows)
     if missing.size:

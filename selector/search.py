@@ -8,9 +8,11 @@ beat the shortlist's last entry (:func:`selector.ranking.beats_threshold`). Surv
 are taken in order of their lower-bound key, so the shortlist fills with good designs
 early and the threshold tightens fast. Each series value of a survivor then gets its own
 bounds by table look-ups (:mod:`selector.design_bounds`): the stack is dropped when every
-value is proven infeasible or its best bound cannot beat the shortlist, and otherwise
-only the values whose bound can still win are solved exactly at all 32 corners, with the
-resistor chosen per DESIGN §3 (:mod:`selector.resistor_choice`).
+value is proven infeasible or its best bound cannot beat the shortlist. The values left
+are solved at a few screening corners, which raise their bounds and prove more of them
+infeasible (:func:`selector.resistor_choice.screen_designs`); only the values whose
+bound can still win are then solved exactly at all 32 corners, with the resistor chosen
+per DESIGN §3 (:mod:`selector.resistor_choice`).
 """
 
 from __future__ import annotations
@@ -47,6 +49,7 @@ from selector.resistor_choice import (
     concatenate_designs,
     evaluate_in_calls,
     resistor_slots,
+    screened_bounds,
     take_designs,
 )
 from selector.spec import RailSpec
@@ -63,6 +66,7 @@ REASON_WINDOW = "no current is both enough and within a part's power or current 
 REASON_RESISTOR = "no series-resistor value can give every corner enough current within limits"
 REASON_RANK = "cannot rank above the shortlist (error bound)"
 REASON_DESIGN = "every series value proven short of current at some corner"
+REASON_SCREEN = "every series value proven infeasible at a screening corner"
 
 #: Tables the worker processes inherit when forked (set just before the pool starts).
 _WORKER_TABLES: dict = {}
@@ -202,24 +206,47 @@ def _solve_batch(parts: PartSet, spec: RailSpec, stacks: np.ndarray, threshold, 
         return np.arange(len(stacks)), resistor, evaluate_in_calls(parts, stacks, resistor, spec), len(stacks), {}
     bounds = bound_stacks(tables, stacks, spec)
     stack_of_design, resistor, error_lower = bounded_designs(cell_tables, stacks, bounds, spec)
-    stack_lower = np.full(len(stacks), np.inf)
-    np.minimum.at(stack_lower, stack_of_design, error_lower)
-    proven = ~np.isfinite(stack_lower)
+    part_count = (stacks >= 0).sum(axis=1)
+    proven_by_tables = _stack_minimum(error_lower, stack_of_design, len(stacks)) == np.inf
+    wanted = _wanted_designs(error_lower, part_count[stack_of_design], spec, threshold, order, resolution_v)
+    error_lower = screened_bounds(parts, stacks, spec, stack_of_design, resistor, error_lower, wanted)
+    stack_lower = _stack_minimum(error_lower, stack_of_design, len(stacks))
+    proven = stack_lower == np.inf
     beaten = np.zeros(len(stacks), dtype=bool)
-    wanted = np.ones(stack_of_design.size, dtype=bool)
     if threshold is not None:
-        part_count = (stacks >= 0).sum(axis=1)
         keys = lower_bound_keys(np.where(proven, 0.0, stack_lower), part_count, spec, order, resolution_v)
         beaten = ~proven & beats_threshold(keys, threshold)
-        # A value whose own key bound is beaten need not be solved: were it the stack's
-        # choice, any other value reported instead has an error at least as large, so it
-        # is beaten too and never enters the shortlist.
-        design_keys = lower_bound_keys(error_lower, part_count[stack_of_design], spec, order, resolution_v)
-        wanted = ~beats_threshold(design_keys, threshold)
+    wanted = _wanted_designs(error_lower, part_count[stack_of_design], spec, threshold, order, resolution_v)
     rows, chosen, evaluation, designs = choose_bounded(
         parts, stacks, spec, stack_of_design[wanted], resistor[wanted], error_lower[wanted]
     )
-    return rows, chosen, evaluation, designs, {REASON_DESIGN: int(proven.sum()), REASON_RANK: int(beaten.sum())}
+    pruned = {
+        REASON_DESIGN: int(proven_by_tables.sum()),
+        REASON_SCREEN: int((proven & ~proven_by_tables).sum()),
+        REASON_RANK: int(beaten.sum()),
+    }
+    return rows, chosen, evaluation, designs, pruned
+
+
+def _stack_minimum(design_values, stack_of_design, stack_count) -> np.ndarray:
+    """Least value over each stack's designs (inf for a stack with none)."""
+    least = np.full(stack_count, np.inf)
+    np.minimum.at(least, stack_of_design, design_values)
+    return least
+
+
+def _wanted_designs(error_lower, part_count, spec, threshold, order, resolution_v) -> np.ndarray:
+    """Designs worth solving: a finite bound whose key the shortlist's last entry does not beat.
+
+    A value whose own key bound is beaten need not be solved: were it the stack's choice,
+    any other value reported instead has an error at least as large, so it is beaten too
+    and never enters the shortlist.
+    """
+    wanted = np.isfinite(error_lower)
+    if threshold is not None:
+        keys = lower_bound_keys(np.where(wanted, error_lower, 0.0), part_count, spec, order, resolution_v)
+        wanted &= ~beats_threshold(keys, threshold)
+    return wanted
 
 
 def _reason_texts(evaluation) -> np.ndarray:
