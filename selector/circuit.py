@@ -785,6 +785,8 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
     line_k = np.subtract(drive, np.multiply(load_gain, cold_v, out=cold_v), out=cold_v)
     line_p = np.add(resistor, np.multiply(load_gain, cold_ohmic, out=cold_ohmic), out=cold_ohmic)
     line_q = np.multiply(load_gain, cold_log_slope, out=cold_log_slope)
+    # First guess: the line with the stack's log-current term left out (kept above 0 by
+    # a floor of 1e-3 of the drive where the cold stack alone would exceed the supply).
     u = np.multiply(drive, 1e-3, out=work(("u", 1), size))
     np.maximum(line_k, u, out=u)
     u /= line_p
