@@ -4,6 +4,11 @@ A stack is a multiset of parts (the order of elements in series does not change 
 circuit), written as a row of part indices in non-decreasing order and padded with −1.
 Enumeration yields the rows in chunks so that even millions of candidates never sit in
 memory at once, and never loops in Python per candidate.
+
+When each part has a number ``w_p`` and only stacks with ``Σ w_p ≤ limit`` can matter,
+:func:`iterate_bounded_multisets` yields just those: with the parts relabelled in
+ascending ``w``, the last element of a stack whose other elements are fixed runs over a
+contiguous range of labels, found by one ``searchsorted`` for all prefixes at once.
 """
 
 from __future__ import annotations
@@ -92,27 +97,100 @@ def iterate_multisets(
         Non-decreasing indices, padded with −1; smaller stacks come first.
     """
     for size in range(1, max_parts + 1):
-        if size == 1:
-            rows = np.arange(part_count, dtype=np.int32)[:, None]
-            yield _pad(rows, max_parts)
+        yield from multiset_chunks(part_count, size, max_parts, chunk_rows=chunk_rows)
+
+
+def bounded_multiset_count(weight: np.ndarray, size: int, limit: float) -> int:
+    """How many rows :func:`iterate_bounded_multisets` yields for these arguments."""
+    return int(_last_element_ranges(weight, size, limit)[3].sum())
+
+
+def _last_element_ranges(weight, size, limit):
+    """Relabelling, prefixes and each prefix's range of last labels (see the Notes above)."""
+    weight = np.nan_to_num(np.asarray(weight, dtype=float), nan=-np.inf, posinf=np.inf, neginf=-np.inf)
+    order = np.argsort(weight, kind="stable").astype(np.int32)
+    ascending = weight[order]
+    prefixes = _nondecreasing_tuples(weight.size, size - 1)
+    prefix_sum = ascending[prefixes].sum(axis=1) if size > 1 else np.zeros(1)
+    first_label = prefixes[:, -1] if size > 1 else np.zeros(1, dtype=np.int32)
+    with np.errstate(invalid="ignore"):
+        room = limit - prefix_sum
+    high = np.searchsorted(ascending, np.where(np.isnan(room), np.inf, room), side="right")
+    return order, prefixes, first_label, np.maximum(high - first_label, 0)
+
+
+def multiset_chunks(part_count: int, size: int, width: int, *, chunk_rows: int = DEFAULT_CHUNK_ROWS) -> Iterator[np.ndarray]:
+    """Every multiset of exactly ``size`` indices, in chunks of rows padded to ``width``."""
+    if size == 1:
+        yield _pad(np.arange(part_count, dtype=np.int32)[:, None], width)
+        return
+    tail = _nondecreasing_tuples(part_count, size - 1)
+    starts = np.searchsorted(tail[:, 0], np.arange(part_count))
+    pending: list[np.ndarray] = []
+    pending_rows = 0
+    for first in range(part_count):
+        suffix = tail[starts[first] :]
+        block = np.empty((len(suffix), size), dtype=np.int32)
+        block[:, 0] = first
+        block[:, 1:] = suffix
+        pending.append(block)
+        pending_rows += len(block)
+        if pending_rows >= chunk_rows:
+            yield _pad(np.concatenate(pending, axis=0), width)
+            pending, pending_rows = [], 0
+    if pending:
+        yield _pad(np.concatenate(pending, axis=0), width)
+
+
+def iterate_bounded_multisets(
+    weight: np.ndarray, size: int, limit: float, width: int, *, chunk_rows: int = DEFAULT_CHUNK_ROWS
+) -> Iterator[np.ndarray]:
+    """Every multiset of exactly ``size`` indices whose weights sum to at most ``limit``.
+
+    Parameters
+    ----------
+    weight : array (n,)
+        Per part weight; ``±inf`` allowed. A NaN weight, or a sum of ``−inf`` and ``+inf``,
+        counts as within the limit (the caller only ever loses pruning, never a stack).
+    size : int
+        Elements per multiset (at least 1).
+    limit : float
+        Largest allowed sum.
+    width : int
+        Row width; rows are padded with −1.
+    chunk_rows : int
+        Rows per chunk, about (a single prefix's range is never split).
+
+    Yields
+    ------
+    ndarray of int32, shape (rows, width)
+        Rows of non-decreasing part indices, each multiset once.
+
+    Notes
+    -----
+    Relabel the parts so that ``w`` ascends (label ``r`` is part ``order[r]``). A multiset
+    is one non-decreasing tuple of labels ``r₁ ≤ … ≤ r_size``; with the first ``size − 1``
+    fixed, the sum is within the limit exactly for ``r_size`` in
+    ``[r_{size−1}, hi)``, ``hi`` the count of labels with ``w ≤ limit − Σ`` of the prefix,
+    since ``w`` ascends. Labels map back to part indices and each row is sorted.
+    """
+    order, prefixes, first_label, widths = _last_element_ranges(weight, size, limit)
+    live = np.flatnonzero(widths)
+    if live.size == 0:
+        return
+    ends = np.cumsum(widths[live])
+    cuts = np.searchsorted(ends, np.arange(chunk_rows, ends[-1], chunk_rows), side="left") + 1
+    for piece in np.split(live, cuts):
+        if piece.size == 0:
             continue
-        tail = _nondecreasing_tuples(part_count, size - 1)
-        first_column = tail[:, 0]
-        starts = np.searchsorted(first_column, np.arange(part_count))
-        pending: list[np.ndarray] = []
-        pending_rows = 0
-        for first in range(part_count):
-            suffix = tail[starts[first] :]
-            block = np.empty((len(suffix), size), dtype=np.int32)
-            block[:, 0] = first
-            block[:, 1:] = suffix
-            pending.append(block)
-            pending_rows += len(block)
-            if pending_rows >= chunk_rows:
-                yield _pad(np.concatenate(pending, axis=0), max_parts)
-                pending, pending_rows = [], 0
-        if pending:
-            yield _pad(np.concatenate(pending, axis=0), max_parts)
+        counts = widths[piece]
+        owner = np.repeat(piece, counts)
+        offset = np.arange(owner.size) - np.repeat(np.cumsum(counts) - counts, counts)
+        labels = np.empty((owner.size, size), dtype=np.int32)
+        if size > 1:
+            labels[:, :-1] = prefixes[owner]
+        labels[:, -1] = first_label[owner] + offset
+        yield _pad(np.sort(order[labels], axis=1), width)
 
 
 def _pad(rows: np.ndarray, width: int) -> np.ndarray:

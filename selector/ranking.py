@@ -127,6 +127,25 @@ def beats_threshold(lower_keys: list[np.ndarray], threshold: Sequence[float]) ->
     return above
 
 
+def largest_unbeaten_error(threshold: Sequence[float], order: Sequence[str], tolerance_v: float, resolution_v: float) -> float:
+    """An error bound above which :func:`beats_threshold` holds whatever the other keys [V].
+
+    With the shortlist's last key ``threshold`` (meets flag first, then ``order``): when
+    that entry meets, a candidate whose error bound is above ``tolerance_v`` has the meets
+    bound 1 and is beaten. When the error is the first key after meets, a bound ``e`` with
+    ``floor(e/resolution) > threshold's error step q`` is beaten once its meets bound is no
+    better than the threshold's, which holds for ``e > tolerance`` if the entry does not
+    meet; ``e > (q + 1)·resolution`` (widened by a relative 1e−9 against rounding) gives
+    that floor. Returns inf when neither applies.
+    """
+    meets_flag = threshold[0]
+    limit = tolerance_v if meets_flag == 0 else np.inf
+    if order and order[0] == "error":
+        by_step = (threshold[1] + 1.0) * resolution_v * (1.0 + 1e-9)
+        limit = min(limit, by_step) if meets_flag == 0 else max(tolerance_v, by_step)
+    return float(limit)
+
+
 def pareto_front(error_v: np.ndarray, margin: np.ndarray, parts: np.ndarray) -> np.ndarray:
     """Designs no other design dominates on (error ↓, margin ↑, parts ↓).
 

@@ -17,6 +17,7 @@ per DESIGN §3 (:mod:`selector.resistor_choice`).
 
 from __future__ import annotations
 
+import itertools
 import multiprocessing
 import os
 import time
@@ -30,7 +31,14 @@ from typing import NamedTuple
 import numpy as np
 import pandas as pd
 
-from selector.candidates import check_search_size, iterate_multisets, usable_parts
+from selector.candidates import (
+    bounded_multiset_count,
+    check_search_size,
+    iterate_bounded_multisets,
+    multiset_chunks,
+    multiset_count,
+    usable_parts,
+)
 from selector.design_bounds import cell_bound_tables
 from selector.errors import OptionError, SearchError
 from selector.partset import PartSet
@@ -38,6 +46,7 @@ from selector.ranking import (
     DEFAULT_RESOLUTION_V,
     beats_threshold,
     key_columns,
+    largest_unbeaten_error,
     quantised_error,
     rank_order,
     sort_designs,
@@ -53,7 +62,7 @@ from selector.resistor_choice import (
     take_designs,
 )
 from selector.spec import RailSpec
-from selector.stack_bounds import bound_stacks, part_bound_tables
+from selector.stack_bounds import bound_stacks, part_bound_tables, separable_rail_bounds
 
 #: Stacks solved per batch; the pruning threshold is updated between batches.
 BATCH_STACKS = 3000
@@ -67,6 +76,9 @@ REASON_RESISTOR = "no series-resistor value can give every corner enough current
 REASON_RANK = "cannot rank above the shortlist (error bound)"
 REASON_DESIGN = "every series value proven short of current at some corner"
 REASON_SCREEN = "every series value proven infeasible at a screening corner"
+
+#: Widening of the separable skip's voltage limit [V] (rounding of the sums).
+SKIP_SLACK_V = 1e-9
 
 #: Tables the worker processes inherit when forked (set just before the pool starts).
 _WORKER_TABLES: dict = {}
@@ -257,12 +269,15 @@ def _reason_texts(evaluation) -> np.ndarray:
     return reason.astype(object)
 
 
-def survey_candidates(parts: PartSet, spec: RailSpec, tables, summary: SearchSummary):
-    """Enumerate and bound every candidate; returns the survivors and their bounds."""
+def survey_candidates(spec: RailSpec, tables, chunks, summary: SearchSummary, pruned: Counter):
+    """Bound every candidate of ``chunks``; returns the survivors and their error bounds.
+
+    Candidates are counted in ``summary.considered``, those no resistor can make feasible
+    in ``pruned`` by reason.
+    """
     values = candidate_resistors(spec)
-    kept_stacks, kept_error = [], []
-    pruned = Counter()
-    for chunk in iterate_multisets(len(parts), spec.max_parts):
+    kept_stacks, kept_error = [np.zeros((0, spec.max_parts), dtype=np.int32)], [np.zeros(0)]
+    for chunk in chunks:
         summary.considered += chunk.shape[0]
         bounds = bound_stacks(tables, chunk, spec)
         first, last = resistor_slots(bounds, values)
@@ -273,8 +288,95 @@ def survey_candidates(parts: PartSet, spec: RailSpec, tables, summary: SearchSum
         keep = ~(window | no_resistor)
         kept_stacks.append(chunk[keep])
         kept_error.append(bounds.error_lower_v[keep])
-    summary.pruned.update({k: v for k, v in pruned.items() if v})
     return np.concatenate(kept_stacks), np.concatenate(kept_error)
+
+
+def largest_stack_chunks(part_count: int, spec: RailSpec, tables, error_keep_v: float, summary: SearchSummary, pruned: Counter):
+    """The stacks of ``max_parts`` elements whose separable error bound is within ``error_keep_v``.
+
+    A stack is left out only when, for one corner class, the sum of its elements' least
+    voltages is above ``target + error_keep_v``
+    (:func:`selector.stack_bounds.separable_rail_bounds`): its error bound is then above
+    ``error_keep_v``, so the shortlist's last entry beats it. Those left out are counted
+    as considered and pruned by rank; the class that leaves out the most is used.
+    """
+    size = spec.max_parts
+    total = multiset_count(part_count, size)
+    if not np.isfinite(error_keep_v):
+        return multiset_chunks(part_count, size, size)
+    least, _ = separable_rail_bounds(tables)
+    limit = spec.target_v + error_keep_v + SKIP_SLACK_V
+    kept = [bounded_multiset_count(least[corner_class], size, limit) for corner_class in range(4)]
+    best = int(np.argmin(kept))
+    summary.considered += total - kept[best]
+    pruned[REASON_RANK] += total - kept[best]
+    return iterate_bounded_multisets(least[best], size, limit, size)
+
+
+class _Solver:
+    """Solves sorted survivors batch by batch into one shortlist (module docstring)."""
+
+    def __init__(self, parts, spec, order, resolution_v, shortlist, summary, pruned, worker_count, progress):
+        self.parts, self.spec, self.order, self.resolution_v = parts, spec, order, resolution_v
+        self.shortlist, self.summary, self.pruned = shortlist, summary, pruned
+        self.worker_count, self.progress = worker_count, progress
+        self.infeasible = Counter()
+        self.pool = None
+        self.done = self.total = 0
+
+    def close(self) -> None:
+        if self.pool is not None:
+            self.pool.shutdown()
+
+    def solve(self, stacks: np.ndarray, error_lower: np.ndarray) -> None:
+        """Solve survivors in order of their lower-bound key, pruning by the shortlist."""
+        spec, order, resolution_v, shortlist = self.spec, self.order, self.resolution_v, self.shortlist
+        part_counts = (stacks >= 0).sum(axis=1)
+        lower_keys = lower_bound_keys(error_lower, part_counts, spec, order, resolution_v)
+        sequence = np.lexsort(lower_keys[::-1])
+        stacks, lower_keys = stacks[sequence], [k[sequence] for k in lower_keys]
+        self.total += len(stacks)
+        batches = batch_slices(len(stacks))
+        if self.pool is None and self.worker_count > 1 and len(stacks) >= PARALLEL_THRESHOLD:
+            self.pool = ProcessPoolExecutor(self.worker_count, mp_context=multiprocessing.get_context("fork"))
+        position = 0
+        while position < len(batches):
+            group = batches[position : position + (self.worker_count if self.pool else 1)]
+            position += len(group)
+            selected = []
+            for piece in group:
+                keep = np.ones(piece.stop - piece.start, dtype=bool)
+                if shortlist.full:
+                    keep = ~beats_threshold([k[piece] for k in lower_keys], shortlist.threshold())
+                self.pruned[REASON_RANK] += int((~keep).sum())
+                if keep.any():
+                    selected.append(stacks[piece][keep])
+            threshold = shortlist.threshold() if shortlist.full else None
+            arguments = [(self.parts, spec, chosen, threshold, order, resolution_v) for chosen in selected]
+            if self.pool is not None and len(selected) > 1:
+                results = list(self.pool.map(_solve_batch, *zip(*arguments, strict=True)))
+            else:
+                results = [_solve_batch(*call) for call in arguments]
+            for batch_stacks, result in zip(selected, results, strict=True):
+                self._take(batch_stacks, *result)
+            if self.progress is not None:
+                self.progress(self.done + batches[position - 1].stop, self.total)
+        self.done = self.total
+
+    def _take(self, batch_stacks, rows, resistor, evaluation, designs, batch_pruned) -> None:
+        self.pruned.update(batch_pruned)
+        self.summary.solved += len(rows)
+        self.summary.designs_solved += designs
+        if evaluation is None:
+            return
+        batch_stacks = batch_stacks[rows]
+        feasible = np.asarray(evaluation.feasible, dtype=bool)
+        self.infeasible.update(_reason_texts(evaluation)[~feasible].tolist())
+        self.summary.feasible += int(feasible.sum())
+        self.summary.meeting += int(np.asarray(evaluation.meets)[feasible].sum())
+        if feasible.any():
+            rows = np.flatnonzero(feasible)
+            self.shortlist.merge(batch_stacks[rows], resistor[rows], take_designs(evaluation, rows))
 
 
 def search_library(
@@ -323,60 +425,23 @@ def search_library(
     check_search_size(len(parts), spec.max_parts, force=force)
     tables = part_bound_tables(parts, spec)
     _WORKER_TABLES.update(stack=tables, cell=cell_bound_tables(parts, spec, float(candidate_resistors(spec)[0])))
-    stacks, error_lower = survey_candidates(parts, spec, tables, summary)
-    part_counts = (stacks >= 0).sum(axis=1)
-    lower_keys = lower_bound_keys(error_lower, part_counts, spec, order, resolution_v)
-    sequence = np.lexsort(lower_keys[::-1])
-    stacks, lower_keys = stacks[sequence], [k[sequence] for k in lower_keys]
-
-    shortlist = Shortlist(top, order, resolution_v, stacks[:0], np.zeros(0))
-    infeasible = Counter()
-    batches = batch_slices(len(stacks))
-    worker_count = workers if workers is not None else min(os.cpu_count() or 1, 2)
-    pool = None
-    if worker_count > 1 and len(stacks) >= PARALLEL_THRESHOLD:
-        pool = ProcessPoolExecutor(worker_count, mp_context=multiprocessing.get_context("fork"))
+    shortlist = Shortlist(top, order, resolution_v, np.zeros((0, spec.max_parts), dtype=np.int32), np.zeros(0))
     pruned = Counter()
+    worker_count = workers if workers is not None else min(os.cpu_count() or 1, 2)
+    solver = _Solver(parts, spec, order, resolution_v, shortlist, summary, pruned, worker_count, progress)
     try:
-        position = 0
-        while position < len(batches):
-            group = batches[position : position + (worker_count if pool else 1)]
-            position += len(group)
-            selected = []
-            for piece in group:
-                keep = np.ones(piece.stop - piece.start, dtype=bool)
-                if shortlist.full:
-                    keep = ~beats_threshold([k[piece] for k in lower_keys], shortlist.threshold())
-                pruned[REASON_RANK] += int((~keep).sum())
-                if keep.any():
-                    selected.append(stacks[piece][keep])
-            threshold = shortlist.threshold() if shortlist.full else None
-            arguments = [(parts, spec, chosen, threshold, order, resolution_v) for chosen in selected]
-            if pool is not None and len(selected) > 1:
-                results = list(pool.map(_solve_batch, *zip(*arguments, strict=True)))
-            else:
-                results = [_solve_batch(*call) for call in arguments]
-            for batch_stacks, (rows, resistor, evaluation, designs, batch_pruned) in zip(selected, results, strict=True):
-                pruned.update(batch_pruned)
-                summary.solved += len(rows)
-                summary.designs_solved += designs
-                if evaluation is None:
-                    continue
-                batch_stacks = batch_stacks[rows]
-                feasible = np.asarray(evaluation.feasible, dtype=bool)
-                infeasible.update(_reason_texts(evaluation)[~feasible].tolist())
-                summary.feasible += int(feasible.sum())
-                summary.meeting += int(np.asarray(evaluation.meets)[feasible].sum())
-                if feasible.any():
-                    rows = np.flatnonzero(feasible)
-                    shortlist.merge(batch_stacks[rows], resistor[rows], take_designs(evaluation, rows))
-            if progress is not None:
-                progress(batches[position - 1].stop, len(stacks))
+        # Smaller stacks first: they are few, and the shortlist they fill lets most of
+        # the largest stacks be left out unenumerated (largest_stack_chunks).
+        smaller = (multiset_chunks(len(parts), size, spec.max_parts) for size in range(1, spec.max_parts))
+        solver.solve(*survey_candidates(spec, tables, itertools.chain.from_iterable(smaller), summary, pruned))
+        error_keep = largest_unbeaten_error(shortlist.threshold(), order, spec.tolerance_v, resolution_v) if shortlist.full else np.inf
+        largest = largest_stack_chunks(len(parts), spec, tables, error_keep, summary, pruned)
+        solver.solve(*survey_candidates(spec, tables, largest, summary, pruned))
     finally:
-        if pool is not None:
-            pool.shutdown()
+        solver.close()
         _WORKER_TABLES.clear()
-    summary.pruned.update({reason: count for reason, count in pruned.items() if count})
+    summary.pruned = {reason: count for reason, count in pruned.items() if count}
+    infeasible = solver.infeasible
     summary.infeasible = dict(infeasible)
     summary.elapsed_s = time.perf_counter() - started
     return shortlist, usable, summary

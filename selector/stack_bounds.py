@@ -322,6 +322,21 @@ def part_bound_tables(parts: PartSet, spec: RailSpec) -> PartBoundTables:
     )
 
 
+def separable_rail_bounds(tables: PartBoundTables) -> tuple[np.ndarray, np.ndarray]:
+    """Per corner class and part, bounds that hold for the part in any stack [V].
+
+    :func:`bound_stacks` sums, per class, one entry of each element's row of
+    ``lower_v`` (at the stack's floor) and of ``upper_v`` (at the stack's cap); the least
+    entry of a row is at most the one used and the greatest at least it, so the sums of
+    these bound the stack's ``vout_lower_v`` from below and ``vout_upper_v`` from above.
+
+    Returns
+    -------
+    least_v, greatest_v : array (4, n_parts) [V]
+    """
+    return tables.lower_v[:, :-1, :].min(axis=2), tables.upper_v[:, :-1, :].max(axis=2)
+
+
 @dataclass(frozen=True)
 class StackBounds:
     """Bounds for many stacks, each valid for every feasible design of that stack.
