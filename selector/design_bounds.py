@@ -31,12 +31,28 @@ Why the bounds hold
    ``Vout ≥ max(L_{k*}, λ(I_{k*+1}))`` and ``I ≤ I_{k*+1}``. Likewise, with ``k₊`` the first
    cell with ``λ(I_{k+1}) ≤ U_k``, ``Vout ≤ min(U_{k₊}, λ(I_{k₊}))``. ``λ − L`` falls and
    ``U − λ`` rises with ``k``, so both cells are found by bisection.
-5. *Error and bias.* Any corner's ``Vout`` lies in ``[vout_low, vout_high]``, so
+5. *Reachable cells.* At a feasible design every element carries at least its own floor
+   and, at a corner of class ``c``, less than its own cap of that class (stack bounds,
+   point 2), so the cell holding the solution current meets ``[floor, cap]`` for every
+   element. Cells outside it are left out (``lo = +D``, ``hi = −D`` with a huge finite
+   :data:`DEAD_CELL_V`, so that sums with an element's ``∓inf`` never make NaN): the
+   envelopes of point 3 are then still monotone and still bound the cell holding the
+   solution, which is all point 4 uses.
+6. *Error and bias.* Any corner's ``Vout`` lies in ``[vout_low, vout_high]``, so
    ``error_v ≥ max(lower(Vout_c) − target, target − upper(Vout_c'))`` for any corners
    ``c, c'`` (the bound uses the supply maximum, least load, ``R·(1 − tol)``, parts high
    for ``c`` and the opposite for ``c'``, both ambients). Where the current bound
    ``I ≤ I_{k*+1}`` at a corner with the supply minimum, most load and ``R·(1 + tol)``
    is below the stack's floor, the design is infeasible.
+
+7. *A range of resistors.* The load line ``λ(I)`` falls with ``R`` at every ``I ≥ 0``
+   (``∂λ/∂R = −(I + I_L + Vin·G_L)/(1 + R·G_L)² < 0``), so ``k*`` and ``k₊`` of point 4
+   cannot rise with ``R``; with the envelopes monotone, the lower bound on the highest
+   rail and the upper bound on the lowest rail then cannot rise either, and the
+   shortfall proof at the supply minimum can only get stronger. For every ``R`` in
+   ``[R₁, R₂]`` the error is therefore at least ``max(lower(Vout_c; R₂) − target,
+   target − upper(Vout_c'; R₁))``, and a shortfall proven at ``R₁`` holds for the whole
+   range (:func:`range_bounds`).
 
 A small slack (:data:`selector.stack_bounds.VOLTAGE_SLACK_V`) widens every voltage bound.
 """
@@ -67,6 +83,8 @@ NARROWING_PASSES = 2
 FINE_CELLS_FROM_A = 1e-7
 #: Ratio of the coarse cells below :data:`FINE_CELLS_FROM_A`.
 COARSE_CELL_RATIO = 4.0
+#: Stand-in for the voltage bounds of an unreachable cell [V] (point 5).
+DEAD_CELL_V = 1e30
 #: Slices of a forward element's junction range; it is narrow after the first pass.
 CELL_TEMPERATURE_SLICES = 3
 
@@ -119,8 +137,14 @@ def _cell_edges(bottom: float, top: float, cell_ratio: float) -> np.ndarray:
     return np.unique(np.concatenate(pieces))
 
 
-def cell_bound_tables(parts: PartSet, spec: RailSpec, resistor_low_ohm: float, cell_ratio: float = CELL_RATIO) -> CellBoundTables:
-    """Tabulate every part's voltage envelopes over the current cells (points 1–3).
+def cell_bound_tables(
+    parts: PartSet,
+    spec: RailSpec,
+    resistor_low_ohm: float,
+    cell_ratio: float = CELL_RATIO,
+    part_caps_a: np.ndarray | None = None,
+) -> CellBoundTables:
+    """Tabulate every part's voltage envelopes over the current cells (points 1–3, 5).
 
     Parameters
     ----------
@@ -130,6 +154,9 @@ def cell_bound_tables(parts: PartSet, spec: RailSpec, resistor_low_ohm: float, c
         Least series value the search may use (sets the top cell edge).
     cell_ratio : float [1]
         Ratio of each cell's ends.
+    part_caps_a : array (4, n_parts) [A], optional
+        Each part's current cap per corner class
+        (:func:`selector.stack_bounds.part_current_caps`); cells above it are left out.
     """
     count = len(parts)
     part_floor = np.maximum(np.maximum(spec.min_current_a, parts.i_min_a), CURRENT_FLOOR_A)
@@ -141,12 +168,14 @@ def cell_bound_tables(parts: PartSet, spec: RailSpec, resistor_low_ohm: float, c
 
     ambient, t_top, _ = _junction_ranges(parts, spec)
     shape = (4, count, cells)
-    part = np.broadcast_to(np.arange(count)[None, :, None], shape).ravel()
-    sign = np.broadcast_to(np.array(CLASS_SIGNS)[:, None, None], shape).ravel()
-    ta = np.broadcast_to(ambient[:, :, None], shape).ravel()
-    ceiling = np.broadcast_to(t_top[:, :, None], shape).ravel()
-    low_current = np.broadcast_to(currents[None, None, :-1], shape).ravel()
-    high_current = np.broadcast_to(currents[None, None, 1:], shape).ravel()
+    caps = np.full((4, count), np.inf) if part_caps_a is None else np.asarray(part_caps_a, dtype=float)
+    live = (currents[None, None, 1:] >= part_floor[None, :, None]) & (currents[None, None, :-1] <= caps[:, :, None])
+    corner_class, part, cell = np.nonzero(live)
+    sign = np.array(CLASS_SIGNS)[corner_class]
+    ta = ambient[corner_class, part]
+    ceiling = t_top[corner_class, part]
+    low_current = currents[cell]
+    high_current = currents[cell + 1]
     theta = parts.theta_ja_k_per_w[part]
     t_low = ta - theta * parts.vf_tol_v[part] * high_current
     t_high = np.maximum(ceiling, t_low)
@@ -163,8 +192,11 @@ def cell_bound_tables(parts: PartSet, spec: RailSpec, resistor_low_ohm: float, c
         # A cell whose range came out empty holds no solution: no element conducts there.
         low = np.where(empty, np.inf, np.maximum(low, next_low))
         high = np.where(empty, -np.inf, np.minimum(high, next_high))
-    low = low.reshape(shape) - VOLTAGE_SLACK_V
-    high = high.reshape(shape) + VOLTAGE_SLACK_V
+    low_grid = np.full(shape, DEAD_CELL_V)
+    high_grid = np.full(shape, -DEAD_CELL_V)
+    low_grid[live] = low - VOLTAGE_SLACK_V
+    high_grid[live] = high + VOLTAGE_SLACK_V
+    low, high = low_grid, high_grid
     lower = np.zeros((4, count + 1, cells))
     upper = np.zeros((4, count + 1, cells))
     lower[:, :count] = np.minimum.accumulate(low[:, :, ::-1], axis=2)[:, :, ::-1]
@@ -247,6 +279,27 @@ def design_bounds(tables: CellBoundTables, stacks: np.ndarray, resistor_ohm: np.
     infeasible : array (n,) of bool
         The current bound proves some corner short of the stack's floor.
     """
+    return range_bounds(tables, stacks, resistor_ohm, resistor_ohm, spec)
+
+
+def range_bounds(tables: CellBoundTables, stacks: np.ndarray, resistor_first_ohm, resistor_last_ohm, spec: RailSpec):
+    """Lower bound on ``error_v`` over every resistor of a range, and a proven shortfall (point 7).
+
+    Parameters
+    ----------
+    tables : CellBoundTables
+    stacks : int array (n, max_len)
+    resistor_first_ohm, resistor_last_ohm : array (n,) [Ω]
+        Ends of each range, ``first ≤ last``.
+    spec : RailSpec
+
+    Returns
+    -------
+    error_lower_v : array (n,) [V]
+        ``error_v ≥ error_lower_v`` at every feasible design of the stack in the range.
+    infeasible : array (n,) of bool
+        Every design of the range is proven short of current at some corner.
+    """
     padding = tables.floor_a.size - 1
     elements = np.where(stacks >= 0, stacks, padding)
     floor = tables.floor_a[elements].max(axis=1)
@@ -258,11 +311,11 @@ def design_bounds(tables: CellBoundTables, stacks: np.ndarray, resistor_ohm: np.
     infeasible = np.zeros(stacks.shape[0], dtype=bool)
     for corner_class, sign in enumerate(CLASS_SIGNS):
         if sign > 0:
-            intercept, slope = _load_line(spec, spec.supply_max_v, resistor_ohm * (1 - tol), most_load=False)
+            intercept, slope = _load_line(spec, spec.supply_max_v, resistor_last_ohm * (1 - tol), most_load=False)
             cell, summed = _crossings(tables.lower_v[corner_class], elements, padded_edges, intercept, slope, True)
             high_lower = np.maximum(high_lower, np.maximum(summed, intercept - slope * edges[cell + 1]))
             continue
-        intercept, slope = _load_line(spec, spec.supply_min_v, resistor_ohm * (1 + tol), most_load=True)
+        intercept, slope = _load_line(spec, spec.supply_min_v, resistor_first_ohm * (1 + tol), most_load=True)
         cell, summed = _crossings(tables.upper_v[corner_class], elements, padded_edges, intercept, slope, False)
         low_upper = np.minimum(low_upper, np.minimum(summed, intercept - slope * edges[cell]))
         cell, _ = _crossings(tables.lower_v[corner_class], elements, padded_edges, intercept, slope, True)

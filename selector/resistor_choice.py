@@ -40,12 +40,12 @@ import numpy as np
 
 from selector.circuit import solve_operating_points
 from selector.corners import evaluate_designs, stack_current_limits, worst_case_corners
-from selector.design_bounds import CellBoundTables, cell_bound_tables, design_bounds
+from selector.design_bounds import CellBoundTables, cell_bound_tables, range_bounds
 from selector.errors import SearchError
 from selector.eseries import series_values
 from selector.partset import PartSet
 from selector.spec import RailSpec
-from selector.stack_bounds import StackBounds, bound_stacks, part_bound_tables
+from selector.stack_bounds import StackBounds, bound_stacks, part_bound_tables, part_current_caps
 from selector.units import format_quantity
 
 #: Ties in error closer than this go to the larger resistor (DESIGN §3) [V].
@@ -63,6 +63,8 @@ SCREEN_CORNERS = (10, 14, 11, 15, 17, 21, 16, 20)
 #: Widening of the screen's error bound [V], far above the solver's residual (as
 #: :data:`selector.stack_bounds.VOLTAGE_SLACK_V`).
 SCREEN_SLACK_V = 1e-7
+#: Consecutive series values bounded together before each gets its own bound.
+RANGE_BLOCK = 8
 #: Relative slack of the screen's current and margin tests [1].
 SCREEN_RELATIVE_SLACK = 1e-9
 
@@ -249,8 +251,20 @@ def pick_per_stack(stack_of_design: np.ndarray, resistor_ohm: np.ndarray, feasib
     return chosen
 
 
-def bounded_designs(cell_tables: CellBoundTables, stacks: np.ndarray, bounds: StackBounds, spec: RailSpec):
+def bounded_designs(cell_tables: CellBoundTables, stacks: np.ndarray, bounds: StackBounds, spec: RailSpec,
+                    error_cut_v: float = np.inf):
     """Each stack's series values in its provable range, with their error bounds.
+
+    The bounds are refined coarse to fine (:func:`selector.design_bounds.range_bounds`):
+    first over each stack's whole range, then over blocks of :data:`RANGE_BLOCK`
+    consecutive values, then per value, each level only where the last one left the
+    bound at most ``error_cut_v`` and proved no shortfall. A coarse bound holds for every
+    value of its range, so a value whose refinement stops early keeps a valid bound.
+
+    Parameters
+    ----------
+    error_cut_v : float [V]
+        Bounds above this need no refinement (the caller prunes them anyway).
 
     Returns
     -------
@@ -263,9 +277,27 @@ def bounded_designs(cell_tables: CellBoundTables, stacks: np.ndarray, bounds: St
     values = candidate_resistors(spec)
     first, last = resistor_slots(bounds, values)
     stack_of_design, slot = design_slots(first, last, values.size)
-    resistor = values[slot]
-    error_lower, infeasible = design_bounds(cell_tables, stacks[stack_of_design], resistor, spec)
-    return stack_of_design, resistor, np.where(infeasible, np.inf, error_lower)
+    error_lower = np.zeros(slot.size)
+    infeasible = np.zeros(slot.size, dtype=bool)
+    active = np.arange(slot.size)
+    for group in (stack_of_design, stack_of_design.astype(np.int64) * values.size + slot // RANGE_BLOCK, None):
+        if active.size == 0:
+            break
+        if group is None:
+            bound, short = range_bounds(cell_tables, stacks[stack_of_design[active]], values[slot[active]], values[slot[active]], spec)
+        else:
+            _, first_of_group, inverse = np.unique(group[active], return_index=True, return_inverse=True)
+            low_slot = np.full(first_of_group.size, values.size)
+            high_slot = np.full(first_of_group.size, -1)
+            np.minimum.at(low_slot, inverse, slot[active])
+            np.maximum.at(high_slot, inverse, slot[active])
+            group_stacks = stacks[stack_of_design[active[first_of_group]]]
+            bound, short = range_bounds(cell_tables, group_stacks, values[low_slot], values[high_slot], spec)
+            bound, short = bound[inverse], short[inverse]
+        error_lower[active] = np.maximum(error_lower[active], bound)
+        infeasible[active] |= short
+        active = active[~infeasible[active] & (error_lower[active] <= error_cut_v)]
+    return stack_of_design, values[slot], np.where(infeasible, np.inf, error_lower)
 
 
 def choose_bounded(parts: PartSet, stacks: np.ndarray, spec: RailSpec, stack_of_design, resistor_ohm, error_lower_v):
@@ -356,10 +388,11 @@ def choose_resistors(
     if spec.resistor_fixed_ohm is not None:
         resistor = np.full(count, values[0])
         return resistor, evaluate_in_calls(parts, stacks, resistor, spec)
-    if bounds is None:
-        bounds = bound_stacks(part_bound_tables(parts, spec), stacks, spec)
-    if cell_tables is None:
-        cell_tables = cell_bound_tables(parts, spec, float(values[0]))
+    if bounds is None or cell_tables is None:
+        tables = part_bound_tables(parts, spec)
+        bounds = bound_stacks(tables, stacks, spec) if bounds is None else bounds
+        if cell_tables is None:
+            cell_tables = cell_bound_tables(parts, spec, float(values[0]), part_caps_a=part_current_caps(tables))
     stack_of_design, resistor_of_design, error_lower = bounded_designs(cell_tables, stacks, bounds, spec)
     error_lower = screened_bounds(parts, stacks, spec, stack_of_design, resistor_of_design, error_lower)
     rows, resistor, evaluation, _ = choose_bounded(parts, stacks, spec, stack_of_design, resistor_of_design, error_lower)

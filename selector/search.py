@@ -62,7 +62,12 @@ from selector.resistor_choice import (
     take_designs,
 )
 from selector.spec import RailSpec
-from selector.stack_bounds import bound_stacks, part_bound_tables, separable_rail_bounds
+from selector.stack_bounds import (
+    bound_stacks,
+    part_bound_tables,
+    part_current_caps,
+    separable_rail_bounds,
+)
 
 #: Stacks solved per batch; the pruning threshold is updated between batches.
 BATCH_STACKS = 3000
@@ -217,7 +222,8 @@ def _solve_batch(parts: PartSet, spec: RailSpec, stacks: np.ndarray, threshold, 
         resistor = np.full(len(stacks), candidate_resistors(spec)[0])
         return np.arange(len(stacks)), resistor, evaluate_in_calls(parts, stacks, resistor, spec), len(stacks), {}
     bounds = bound_stacks(tables, stacks, spec)
-    stack_of_design, resistor, error_lower = bounded_designs(cell_tables, stacks, bounds, spec)
+    error_cut = largest_unbeaten_error(threshold, order, spec.tolerance_v, resolution_v) if threshold is not None else np.inf
+    stack_of_design, resistor, error_lower = bounded_designs(cell_tables, stacks, bounds, spec, error_cut)
     part_count = (stacks >= 0).sum(axis=1)
     proven_by_tables = _stack_minimum(error_lower, stack_of_design, len(stacks)) == np.inf
     wanted = _wanted_designs(error_lower, part_count[stack_of_design], spec, threshold, order, resolution_v)
@@ -424,7 +430,8 @@ def search_library(
     summary = SearchSummary(spec=spec, part_count=len(parts))
     check_search_size(len(parts), spec.max_parts, force=force)
     tables = part_bound_tables(parts, spec)
-    _WORKER_TABLES.update(stack=tables, cell=cell_bound_tables(parts, spec, float(candidate_resistors(spec)[0])))
+    cell_tables = cell_bound_tables(parts, spec, float(candidate_resistors(spec)[0]), part_caps_a=part_current_caps(tables))
+    _WORKER_TABLES.update(stack=tables, cell=cell_tables)
     shortlist = Shortlist(top, order, resolution_v, np.zeros((0, spec.max_parts), dtype=np.int32), np.zeros(0))
     pruned = Counter()
     worker_count = workers if workers is not None else min(os.cpu_count() or 1, 2)

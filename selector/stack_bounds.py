@@ -322,6 +322,12 @@ def part_bound_tables(parts: PartSet, spec: RailSpec) -> PartBoundTables:
     )
 
 
+def part_current_caps(tables: PartBoundTables) -> np.ndarray:
+    """Each part's own current cap per corner class (module docstring, point 2) [A], shape (4, n)."""
+    index = tables.cap_index[:, :-1]
+    return np.take_along_axis(tables.caps_a, index, axis=1)
+
+
 def separable_rail_bounds(tables: PartBoundTables) -> tuple[np.ndarray, np.ndarray]:
     """Per corner class and part, bounds that hold for the part in any stack [V].
 
