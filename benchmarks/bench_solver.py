@@ -1,11 +1,17 @@
 """Operating points per second of the rail solver, against a per-point brentq loop.
 
 Prints figures; it is not a test. Four-element stacks of invented parts (two forward,
-two zener kinds, mixed at random), self-heating on, random conditions over a plausible
-rail range. The reference solves a subsample one point at a time with
+two zener kinds, mixed at random), self-heating on. Two workloads:
+
+* random points: every point its own stack and conditions over a plausible rail range;
+* stack-major: random stacks, each with its own series resistor, at the 32 corners of one
+  rail spec through :func:`selector.corners.evaluate_designs` (which also solves each
+  design's nominal point, not counted in the figure).
+
+The reference solves a subsample of the random points one at a time with
 ``scipy.optimize.brentq`` on the same model (``selector.devices.stack_voltage``).
 
-Run:  python benchmarks/bench_solver.py [--points N] [--reference M]
+Run:  python benchmarks/bench_solver.py [--points N] [--stacks S] [--reference M]
 """
 
 from __future__ import annotations
@@ -17,8 +23,10 @@ import numpy as np
 from scipy.optimize import brentq
 
 from selector.circuit import solve_operating_points
+from selector.corners import CORNER_COUNT, evaluate_designs
 from selector.devices import stack_voltage
 from selector.partset import PartSet
+from selector.spec import RailSpec
 
 INVENTED_PARTS = [
     dict(part="B-SIG", family="signal", is_a=2e-9, n=1.9, rs_ohm=0.6, vf_tol_v=0.02, pd_w=0.4),
@@ -42,6 +50,25 @@ def conditions(count: int, seed: int = 1):
     return stacks, supply, resistor, ambient, sign, load
 
 
+#: Invented rail for the stack-major workload: 24 … 28 V supply, 0 … 2 mA load, −20 … 70 °C.
+BENCH_SPEC = RailSpec(
+    target_v=12.0, tolerance_v=0.5, supply_min_v=24.0, supply_max_v=28.0, supply_nominal_v=26.0,
+    load_kind="current", load_min=0.0, load_max=2e-3, ambient_min_c=-20.0, ambient_max_c=70.0,
+    resistor_rating_w=1.0,
+)  # fmt: skip
+#: Rough voltage of each bench part at a few milliamperes [V], for picking a resistor.
+ROUGH_VOLTAGE_V = np.array([0.7, 0.7, 3.3, 5.1])
+
+
+def designs(count: int, seed: int = 3):
+    """Random four-element stacks, each with a resistor for roughly 2 … 10 mA at nominal."""
+    rng = np.random.default_rng(seed)
+    stacks = rng.integers(0, 4, (count, 4))
+    headroom = BENCH_SPEC.supply_nominal_v - ROUGH_VOLTAGE_V[stacks].sum(axis=1)
+    resistor = headroom / rng.uniform(3e-3, 11e-3, count)
+    return stacks, resistor
+
+
 def brentq_point(parts, stack, supply, resistor, ambient, sign, load):
     def residual(current):
         v, _ = stack_voltage(parts, stack[None, :], current, ambient, sign)
@@ -53,6 +80,7 @@ def brentq_point(parts, stack, supply, resistor, ambient, sign, load):
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--points", type=int, default=1_000_000)
+    parser.add_argument("--stacks", type=int, default=31_250)
     parser.add_argument("--reference", type=int, default=300)
     args = parser.parse_args()
     parts = PartSet.from_records(INVENTED_PARTS)
@@ -82,6 +110,20 @@ def main() -> None:
     print(f"  solved {op.solved.mean():.4%}; largest |KCL residual| {np.max(np.abs(op.kcl_residual_v)):.2e} V")
     print(f"per-point brentq loop: {args.reference} points in {scalar_seconds:.3f} s = {scalar_rate:,.0f} points/s")
     print(f"speed-up: {vector_rate / scalar_rate:,.0f}x; largest relative current difference {agreement:.2e}")
+
+    stacks, resistor = designs(args.stacks)
+    evaluate_designs(parts, stacks[:1000], resistor[:1000], BENCH_SPEC)  # warm-up
+    start, start_cpu = time.perf_counter(), time.process_time()
+    evaluation = evaluate_designs(parts, stacks, resistor, BENCH_SPEC)
+    design_seconds = time.perf_counter() - start
+    design_cpu_seconds = time.process_time() - start_cpu
+    corner_points = args.stacks * CORNER_COUNT
+    print(f"stack-major (evaluate_designs): {args.stacks} four-element stacks x {CORNER_COUNT} corners = "
+          f"{corner_points} stack-corner points in {design_seconds:.3f} s = "
+          f"{corner_points / design_seconds:,.0f} points/s (wall)")  # fmt: skip
+    print(f"  CPU time {design_cpu_seconds:.3f} s = {corner_points / design_cpu_seconds:,.0f} points/s; "
+          f"every corner solved for {evaluation.solved.mean():.2%} of the designs, "
+          f"{evaluation.feasible.mean():.2%} feasible")  # fmt: skip
 
 
 if __name__ == "__main__":

@@ -35,6 +35,7 @@ References
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -215,9 +216,18 @@ def solve_operating_points(
             )
             if block_status.any():  # status starts at STATUS_SOLVED (0)
                 status[chosen] = block_status
-    solved = status == STATUS_SOLVED
-    unsolved = np.flatnonzero(~solved)
-    supply, resistor, ambient, load_fixed, load_conductance = conditions
+    result = _assembled(log_current, vout, status, worst_margin, hottest, *conditions)
+    if detail:
+        solved = status == STATUS_SOLVED
+        result.update(_element_detail(parts, stacks, log_current, conditions[2], element_sign, solved))
+    return OperatingPoints(**result)
+
+
+def _assembled(log_current, vout, status, worst_margin, hottest, supply, resistor, ambient, load_fixed, load_conductance):
+    """The fields of :class:`OperatingPoints` from the solved state (in place; any shape):
+    load ``I_Lc + G_L·Vout``, resistor power ``R·(I + I_L)²`` and the KCL residual, with
+    every unsolved point set to its flagged values."""
+    unsolved = np.nonzero(status != STATUS_SOLVED)
     log_current[unsolved] = 0.0
     current = np.exp(log_current)
     vout[unsolved] = 0.0
@@ -229,8 +239,8 @@ def solve_operating_points(
     for value in (current, load, through_resistor, residual):
         value[unsolved] = 0.0
     worst_margin[unsolved] = -np.inf
-    hottest[unsolved] = ambient[unsolved]
-    result = dict(
+    hottest[unsolved] = np.broadcast_to(ambient, hottest.shape)[unsolved]
+    return dict(
         vout_v=vout,
         stack_current_a=current,
         load_current_a=load,
@@ -240,8 +250,108 @@ def solve_operating_points(
         worst_element_margin=worst_margin,
         hottest_junction_c=hottest,
     )
+
+
+def solve_stack_corners(
+    parts: PartSet,
+    stacks: np.ndarray,
+    supply_v: np.ndarray,
+    resistor_ohm: np.ndarray,
+    ambient_c: np.ndarray,
+    tolerance_sign: np.ndarray,
+    load_current_a: np.ndarray | float = 0.0,
+    load_conductance_s: np.ndarray | float = 0.0,
+    *,
+    detail: bool = False,
+    chunk_points: int = DEFAULT_CHUNK_POINTS,
+) -> OperatingPoints:
+    """Each stack at many conditions (corners): the same equations and acceptance test as
+    :func:`solve_operating_points`, results shaped (stacks, corners).
+
+    Every corner of a stack shares its parts, so the layout, the grouping and each slot's
+    constants are worked out once per stack and broadcast along the corners; a block holds
+    whole stacks, laid out (corners, stacks) so each whole-array operation runs along the
+    stacks.
+
+    Parameters
+    ----------
+    parts : PartSet
+    stacks : int array (n, max_len)
+        Part indices of each stack, padded with −1.
+    supply_v, resistor_ohm, ambient_c : arrays broadcasting to (n, corners) [V], [Ω], [°C]
+        A (1, corners) row is shared by every stack.
+    tolerance_sign : array broadcasting to (n, corners) [1]
+        −1 … +1, applied to every element of the stack at that corner.
+    load_current_a, load_conductance_s : arrays broadcasting to (n, corners) [A], [S]
+    detail : bool
+        Also per-element junction temperature, voltage and power, (n, corners, max_len).
+    chunk_points : int
+        Stack-corner points solved together (at least one stack's corners).
+
+    Returns
+    -------
+    OperatingPoints
+        Every field (n, corners).
+    """
+    stacks = np.atleast_2d(np.asarray(stacks, dtype=np.intp))
+    count, width = stacks.shape
+    values = [
+        np.asarray(value, dtype=float)
+        for value in (supply_v, resistor_ohm, ambient_c, load_current_a, load_conductance_s, tolerance_sign)
+    ]
+    values = [v.reshape(1, 1) if v.ndim == 0 else v.reshape(1, -1) if v.ndim == 1 else v for v in values]
+    corners = np.broadcast_shapes((count, 1), *(v.shape for v in values))[1]
+    # Condition rows kept at their own size: a shared (1, corners) row stays one row.
+    per_stack = [v.shape[0] != 1 for v in values]
+    log_current, vout, worst_margin, hottest = (np.zeros((count, corners)) for _ in range(4))
+    status = np.zeros((count, corners), dtype=np.int8)
+    keys, signature = _stack_layout(parts, stacks, True)
+    tables: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+    stacks_per_block = max(1, chunk_points // corners)
+    work = _Workspace(min(stacks_per_block, count) * corners)
+    for layout, group in _layout_groups(signature):
+        slots = _decode_layout(layout, width, True)
+        for multiplicity in {m for family in slots for _, m in family} - tables.keys():
+            tables[multiplicity] = _key_tables(parts, multiplicity)
+        size = count if isinstance(group, slice) else group.size
+        for start in range(0, size, stacks_per_block):
+            if isinstance(group, slice):
+                chosen = slice(start, min(start + stacks_per_block, size))
+            else:
+                chosen = group[start : start + stacks_per_block]
+            rows = np.arange(count)[chosen]
+            grid = (corners, rows.size)
+            # Corner-major (corners, stacks); a condition shared by every stack stays (corners, 1).
+            block = [np.ascontiguousarray(v[chosen].T) if own else v.T for v, own in zip(values, per_stack, strict=True)]
+            # The resistor spans the block, so every point array of the Newton block does too.
+            block[1] = np.broadcast_to(block[1], grid)
+            supply, resistor, ambient, load_fixed, load_conductance, sign = block
+            part_keys = [[keys[column][chosen] for column, _ in family] for family in slots]
+            forward, breakdown = _stack_constants(tables, slots, part_keys, sign, ambient)
+            outcome = _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load_conductance, work)
+            hard = np.flatnonzero(outcome[2] < 0)
+            if hard.size:
+                corner_of, stack_of = np.unravel_index(hard, grid)
+                point_keys = [[key[stack_of] for key in family] for family in part_keys]
+                point_sign = np.broadcast_to(sign, grid)[corner_of, stack_of]
+                signs = [[point_sign] * len(family) for family in slots]
+                arrays = _slot_arrays(len(parts), slots, point_keys, signs, np.ones(hard.size, dtype=bool))
+                conditions = (np.broadcast_to(v, grid)[corner_of, stack_of] for v in block[:5])
+                rescued = _solve_block(parts, *arrays, *conditions)
+                for value, fallback in zip(outcome, rescued, strict=True):
+                    value[hard] = fallback
+            for output, value in zip((log_current, vout, status, worst_margin, hottest), outcome, strict=True):
+                output[chosen] = value.reshape(grid).T
+    full = (count, corners)
+    conditions = [np.broadcast_to(v, full) for v in values[:5]]
+    result = _assembled(log_current, vout, status, worst_margin, hottest, *conditions)
     if detail:
-        result.update(_element_detail(parts, stacks, log_current, ambient, element_sign, solved))
+        flat_stacks = np.repeat(stacks, corners, axis=0)
+        element_sign = np.broadcast_to(np.broadcast_to(values[5], full).reshape(-1, 1), flat_stacks.shape)
+        solved = (status == STATUS_SOLVED).reshape(-1)
+        per_element = _element_detail(parts, flat_stacks, log_current.reshape(-1), conditions[2].reshape(-1),
+                                      element_sign, solved)  # fmt: skip
+        result.update({name: value.reshape(count, corners, width) for name, value in per_element.items()})
     return OperatingPoints(**result)
 
 
@@ -562,12 +672,27 @@ class _Workspace:
     def __init__(self, length: int):
         self.length = length
         self.rows: dict[object, np.ndarray] = {}
+        self.views: dict[tuple[object, object], np.ndarray] = {}
 
-    def __call__(self, name: object, size: int) -> np.ndarray:
-        row = self.rows.get(name)
-        if row is None:
-            row = self.rows[name] = np.empty(self.length)
-        return row[:size]
+    def __call__(self, name: object, shape: int | tuple[int, ...]) -> np.ndarray:
+        view = self.views.get((name, shape))
+        if view is None:
+            row = self.rows.get(name)
+            if row is None:
+                row = self.rows[name] = np.empty(self.length)
+            view = row[:shape] if isinstance(shape, int) else row[: math.prod(shape)].reshape(shape)
+            if len(self.views) < 4096:  # block shapes repeat; bound the cache all the same
+                self.views[name, shape] = view
+        return view
+
+
+def _take(value: np.ndarray, keep: np.ndarray, shape: tuple[int, ...]) -> np.ndarray:
+    """The kept points (flat indices into ``shape``) of an array that broadcasts to ``shape``,
+    as a flat array: per-stack and per-corner rows of a (corners, stacks) block are read
+    where they are, never spread over the whole block first."""
+    if value.shape == shape:
+        return value.reshape(-1)[keep]
+    return np.broadcast_to(value, shape)[np.unravel_index(keep, shape)]
 
 
 def _key_tables(parts: PartSet, multiplicity: int) -> tuple[np.ndarray, np.ndarray]:
@@ -641,6 +766,25 @@ def _block_constants(tables, slots, part_keys, signs, ambient_c):
         offset += tolerance_v
         offset += np.multiply(constants[_Z_TC], ambient_c, out=tolerance_v)
         breakdown.append(constants)
+    return forward, breakdown
+
+
+def _stack_constants(tables, slots, part_keys, sign, ambient_c):
+    """Each slot's constant rows for a block of whole stacks (:func:`_key_tables`): one value
+    per stack, (stacks,), except the voltage offsets, which take each corner's tolerance sign
+    ``sign`` and (zeners) ambient ``ambient_c`` [°C], (corners, stacks)."""
+    forward, breakdown = [], []
+    for (_, multiplicity), key in zip(slots[0], part_keys[0], strict=True):
+        rows = list(np.take(tables[multiplicity][0], key, axis=1))
+        rows[_F_OFFSET] = sign * rows[_F_OFFSET]
+        forward.append(rows)
+    for (_, multiplicity), key in zip(slots[1], part_keys[1], strict=True):
+        rows = list(np.take(tables[multiplicity][1], key, axis=1))
+        offset = sign * rows[_Z_TOL_V]
+        offset += rows[_Z_OFFSET]
+        offset += rows[_Z_TC] * ambient_c
+        rows[_Z_OFFSET] = offset
+        breakdown.append(rows)
     return forward, breakdown
 
 
@@ -734,15 +878,16 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
     logarithm per slot. Points not verified within :data:`FAST_EVALUATIONS` come back with
     status −1.
     """
-    count = supply.shape[0]
-    drive = np.multiply(resistor, load_fixed, out=work("drive", count))
+    grid = np.broadcast_shapes(supply.shape, resistor.shape, ambient.shape, load_fixed.shape, load_conductance.shape)
+    count = math.prod(grid)
+    drive = np.multiply(resistor, load_fixed, out=work("drive", grid))
     np.subtract(supply, drive, out=drive)
-    load_gain = np.multiply(resistor, load_conductance, out=work("load_gain", count))
+    load_gain = np.multiply(resistor, load_conductance, out=work("load_gain", grid))
     load_gain += 1.0
-    current_cap = np.divide(drive, resistor, out=work("hi", count))
+    current_cap = np.divide(drive, resistor, out=work("hi", grid))
     for z in breakdown:
         # Where θ·tc ≤ 0 the bound is beyond any current (1e-300 stands in for 0).
-        bound = np.maximum(z[_Z_LOOP], 1e-300, out=work(0, count))
+        bound = np.maximum(z[_Z_LOOP], 1e-300, out=work(0, z[_Z_LOOP].shape))
         np.minimum(current_cap, np.divide(_FAST_LOOP_GAIN, bound, out=bound), out=current_cap)
     # Every point is either stored by _record or left at status −1 for the safeguarded
     # solver, which overwrites it, so the outputs need no initial values.
@@ -754,11 +899,12 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
         index = slice(None)
     else:
         index = np.flatnonzero(viable)
-        forward = [f[:, index] for f in forward]
-        breakdown = [z[:, index] for z in breakdown]
-        ambient, drive, load_gain, current_cap = ambient[index], drive[index], load_gain[index], current_cap[index]
-        resistor = resistor[index]
-    size = current_cap.size
+        forward = [[_take(row, index, grid) for row in f] for f in forward]
+        breakdown = [[_take(row, index, grid) for row in z] for z in breakdown]
+        ambient, drive, load_gain, current_cap, resistor = (
+            _take(a, index, grid) for a in (ambient, drive, load_gain, current_cap, resistor)
+        )
+    size = current_cap.shape
     ambient_k = np.add(ambient, ZERO_CELSIUS_K, out=work("ambient_k", size))
     lo = np.log(LEAST_CURRENT_A)
     hi = np.log(current_cap, out=current_cap)
@@ -818,7 +964,7 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
     pending = np.ones(u.shape, dtype=bool)
     for evaluation in range(FAST_EVALUATIONS):
         checking = evaluation > 0
-        size = u.size
+        size = u.shape
         minus_x, tail, log_term, n_vt, ohmic, dv_dt, heating, log_t, inverse_t, scratch = (
             work(name, size) for name in range(10)
         )
@@ -906,7 +1052,7 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
             done &= falling > 0.0
             done &= pending
             if done.any():
-                _record(done, index, u, current, stack_v, ambient_k, forward, breakdown, junction, thermal, zener_v,
+                _record(done, bool(pending.all()), index, u, current, stack_v, ambient_k, forward, breakdown, junction, thermal, zener_v,
                         out_u, out_v, status, out_margin, out_hottest, work)  # fmt: skip
                 pending &= ~done
                 if not pending.any():
@@ -915,30 +1061,29 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
                     # Integer indices: each copy below costs only the points kept.
                     keep = np.flatnonzero(pending)
                     index = (np.arange(count)[index] if isinstance(index, slice) else index)[keep]
-                    u, residual, falling, resistor_slope, current = (
-                        a[keep] for a in (u, residual, falling, resistor_slope, current)
+                    shape = u.shape
+                    u, residual, falling, resistor_slope, current, ambient_k, drive, load_gain, resistor, hi = (
+                        _take(a, keep, shape)
+                        for a in (u, residual, falling, resistor_slope, current, ambient_k, drive, load_gain, resistor, hi)
                     )
-                    ambient_k, drive, load_gain, resistor, hi = (
-                        a[keep] for a in (ambient_k, drive, load_gain, resistor, hi)
-                    )
-                    forward = [f[:, keep] for f in forward]
-                    breakdown = [z[:, keep] for z in breakdown]
-                    junction = [t[keep] for t in junction]
-                    thermal = [tuple(a[keep] for a in state) for state in thermal]
+                    forward = [[_take(row, keep, shape) for row in f] for f in forward]
+                    breakdown = [[_take(row, keep, shape) for row in z] for z in breakdown]
+                    junction = [_take(t, keep, shape) for t in junction]
+                    thermal = [tuple(_take(a, keep, shape) for a in state) for state in thermal]
                     pending = np.ones(u.shape, dtype=bool)
         if last:
             break
-        denominator = np.multiply(resistor_slope, 0.5, out=work(0, u.size))
+        denominator = np.multiply(resistor_slope, 0.5, out=work(0, u.shape))
         np.maximum(falling, denominator, out=denominator)
         delta = np.divide(residual, denominator, out=residual)
         share = np.divide(resistor_slope, denominator, out=resistor_slope)
         np.minimum(share, 1.0, out=share)
-        step = np.maximum(delta, -0.9, out=work(1, u.size))
+        step = np.maximum(delta, -0.9, out=work(1, u.shape))
         np.log1p(step, out=step)
         step -= delta
         step *= share
         step += delta
-        new_u = np.add(u, step, out=work(("u", evaluation % 2), u.size))
+        new_u = np.add(u, step, out=work(("u", evaluation % 2), u.shape))
         np.maximum(new_u, lo, out=new_u)
         np.minimum(new_u, hi, out=new_u)
         np.subtract(new_u, u, out=step)
@@ -952,32 +1097,38 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
     return out_u, out_v, status, out_margin, out_hottest
 
 
-def _record(done, index, u, current, stack_v, ambient_k, forward, breakdown, junction, thermal, zener_v,
+def _record(done, fresh, index, u, current, stack_v, ambient_k, forward, breakdown, junction, thermal, zener_v,
             out_u, out_v, status, out_margin, out_hottest, work):  # fmt: skip
     """Store the verified points: rail voltage, element margin ``1 − V·I/P_max`` with
     ``P_max = min(pd, (Tjmax − Ta)/θ)`` (DESIGN §3), and the hottest junction.
 
     When most of the block is verified, margin and junction are worked out for every point
     (whole-array arithmetic is cheaper than picking the verified points first) and stored
-    for those; when few are, for those alone.
+    for those; when few are, for those alone. When nothing of the whole block is stored
+    yet (``index`` a slice, ``fresh``) and most is verified, every point is stored: the
+    others are overwritten later, by a later record or by the safeguarded solver, and a
+    whole-array copy is cheaper than picking.
     """
-    if isinstance(index, slice) and done.all():
+    whole = isinstance(index, slice)
+    if whole and (done.all() or (fresh and 2 * np.count_nonzero(done) >= done.size)):
         where, chosen = index, slice(None)
+        status[done.reshape(-1)] = STATUS_SOLVED
     else:
         chosen = np.flatnonzero(done)
-        where = chosen if isinstance(index, slice) else index[chosen]
-    out_u[where] = u[chosen]
-    out_v[where] = stack_v[chosen]
-    status[where] = STATUS_SOLVED
+        where = chosen if whole else index[chosen]
+        status[where] = STATUS_SOLVED
+    out_u[where] = u.reshape(-1)[chosen]
+    out_v[where] = stack_v.reshape(-1)[chosen]
     if not isinstance(chosen, slice) and 2 * chosen.size < u.size:
-        current, ambient_k = current[chosen], ambient_k[chosen]
-        forward = [f[:, chosen] for f in forward]
-        breakdown = [z[:, chosen] for z in breakdown]
-        junction = [t[chosen] for t in junction]
-        thermal = [tuple(a[chosen] for a in state) for state in thermal]
-        zener_v = [v[chosen] for v in zener_v]
+        shape = u.shape
+        current, ambient_k = _take(current, chosen, shape), _take(ambient_k, chosen, shape)
+        forward = [[_take(row, chosen, shape) for row in f] for f in forward]
+        breakdown = [[_take(row, chosen, shape) for row in z] for z in breakdown]
+        junction = [_take(t, chosen, shape) for t in junction]
+        thermal = [tuple(_take(a, chosen, shape) for a in state) for state in thermal]
+        zener_v = [_take(v, chosen, shape) for v in zener_v]
         chosen = slice(None)
-    size = current.size
+    size = current.shape
     ambient_c = np.subtract(ambient_k, ZERO_CELSIUS_K, out=work(("record", 0), size))
     load = work(("record", 1), size)
     load.fill(0.0)
@@ -1005,5 +1156,5 @@ def _record(done, index, u, current, stack_v, ambient_k, forward, breakdown, jun
     load *= current
     np.subtract(1.0, load, out=load)
     hottest -= ZERO_CELSIUS_K
-    out_margin[where] = load[chosen]
-    out_hottest[where] = hottest[chosen]
+    out_margin[where] = load.reshape(-1)[chosen]
+    out_hottest[where] = hottest.reshape(-1)[chosen]

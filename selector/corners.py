@@ -18,7 +18,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from selector.circuit import solve_operating_points
+from selector.circuit import solve_operating_points, solve_stack_corners
 from selector.partset import PartSet
 from selector.spec import RailSpec
 
@@ -224,32 +224,29 @@ def evaluate_designs(
     designs, width = stacks.shape
     corners = worst_case_corners(spec)
     nominal = nominal_point(spec)
-    per = CORNER_COUNT + 1
 
-    def tiled(corner_values: np.ndarray, nominal_values: np.ndarray) -> np.ndarray:
-        return np.tile(np.concatenate([corner_values, nominal_values]), designs)
+    def row(corner_values: np.ndarray, nominal_values: np.ndarray) -> np.ndarray:
+        return np.concatenate([corner_values, nominal_values])[None, :]
 
-    points = solve_operating_points(
+    # Stack-major: each design's parts are laid out once and broadcast over its 33 points.
+    points = solve_stack_corners(
         parts,
-        np.repeat(stacks, per, axis=0),
-        tiled(corners.supply_v, nominal.supply_v),
-        np.repeat(resistor_ohm, per) * tiled(corners.resistor_factor, nominal.resistor_factor),
-        tiled(corners.ambient_c, nominal.ambient_c),
-        tiled(corners.tolerance_sign, nominal.tolerance_sign),
-        tiled(corners.load_current_a, nominal.load_current_a),
-        tiled(corners.load_conductance_s, nominal.load_conductance_s),
+        stacks,
+        row(corners.supply_v, nominal.supply_v),
+        resistor_ohm[:, None] * row(corners.resistor_factor, nominal.resistor_factor),
+        row(corners.ambient_c, nominal.ambient_c),
+        row(corners.tolerance_sign, nominal.tolerance_sign),
+        row(corners.load_current_a, nominal.load_current_a),
+        row(corners.load_conductance_s, nominal.load_conductance_s),
         detail=detail,
     )
 
-    def grid(values: np.ndarray) -> np.ndarray:
-        return values.reshape(designs, per, *values.shape[1:])
-
-    vout_all = grid(points.vout_v)
-    solved_all = grid(points.solved)
+    vout_all = points.vout_v
+    solved_all = points.solved
     vout, corner_solved = vout_all[:, :CORNER_COUNT], solved_all[:, :CORNER_COUNT]
-    current = grid(points.stack_current_a)[:, :CORNER_COUNT]
-    resistor_power = grid(points.resistor_power_w)[:, :CORNER_COUNT]
-    element_margin_min = grid(points.worst_element_margin)[:, :CORNER_COUNT]
+    current = points.stack_current_a[:, :CORNER_COUNT]
+    resistor_power = points.resistor_power_w[:, :CORNER_COUNT]
+    element_margin_min = points.worst_element_margin[:, :CORNER_COUNT]
 
     solved = corner_solved.all(axis=1)
     vout_low = np.where(solved, vout.min(axis=1), 0.0)
@@ -286,8 +283,8 @@ def evaluate_designs(
 
     extra = {}
     if detail:
-        junction = grid(points.junction_c)
-        power = grid(points.element_power_w)
+        junction = points.junction_c
+        power = points.element_power_w
         ambient_grid = np.broadcast_to(corners.ambient_c[None, :, None], (designs, CORNER_COUNT, width))
         safe = np.broadcast_to(np.maximum(stacks, 0)[:, None, :], (designs, CORNER_COUNT, width))
         p_max = allowed_power_w(parts, safe, ambient_grid)
@@ -297,9 +294,9 @@ def evaluate_designs(
             element_power_w=power[:, :CORNER_COUNT],
             element_margin=np.where(present, 1.0 - power[:, :CORNER_COUNT] / p_max, 1.0),
             nominal=dict(
-                stack_current_a=grid(points.stack_current_a)[:, CORNER_COUNT],
-                load_current_a=grid(points.load_current_a)[:, CORNER_COUNT],
-                resistor_power_w=grid(points.resistor_power_w)[:, CORNER_COUNT],
+                stack_current_a=points.stack_current_a[:, CORNER_COUNT],
+                load_current_a=points.load_current_a[:, CORNER_COUNT],
+                resistor_power_w=points.resistor_power_w[:, CORNER_COUNT],
                 junction_c=junction[:, CORNER_COUNT],
                 element_power_w=power[:, CORNER_COUNT],
                 solved=solved_all[:, CORNER_COUNT],
@@ -318,9 +315,9 @@ def evaluate_designs(
         reason=reason.astype(np.int8),
         vout_v=vout,
         stack_current_a=current,
-        load_current_a=grid(points.load_current_a)[:, :CORNER_COUNT],
+        load_current_a=points.load_current_a[:, :CORNER_COUNT],
         resistor_power_w=resistor_power,
-        hottest_junction_c=grid(points.hottest_junction_c)[:, :CORNER_COUNT],
+        hottest_junction_c=points.hottest_junction_c[:, :CORNER_COUNT],
         corner_solved=corner_solved,
         **extra,
     )
