@@ -87,9 +87,14 @@ def write_rows(
         partial.replace(path)
         return count
     writer = csv.writer(destination, lineterminator="\n")
-    writer.writerow([neutralise_cell(column) for column in columns])
+    # The csv module quotes a cell holding the line terminator but not a bare carriage
+    # return, which a reader takes for a line end: a row holding one is quoted whole.
+    quoting_writer = csv.writer(destination, lineterminator="\n", quoting=csv.QUOTE_ALL)
+    header = [neutralise_cell(column) for column in columns]
+    (quoting_writer if any("\r" in cell for cell in header) else writer).writerow(header)
     count = 0
     for row in rows:
-        writer.writerow([_cell(row.get(column)) for column in columns])
+        cells = [_cell(row.get(column)) for column in columns]
+        (quoting_writer if any("\r" in cell for cell in cells) else writer).writerow(cells)
         count += 1
     return count

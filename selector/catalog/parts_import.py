@@ -40,8 +40,9 @@ from selector.stack_notation import is_valid_part_id
 
 #: A parts file larger than this is refused before it is read [bytes].
 MAX_FILE_BYTES = 64 * 1024 * 1024
-#: More rows than this in one file is refused.
-MAX_ROWS = 1_000_000
+#: More rows than this in one file is refused. Validation holds every row in memory
+#: (about 1.7 kB a row), and one import is one transaction, so the limit bounds both.
+MAX_ROWS = 100_000
 
 
 @dataclass(frozen=True)
@@ -211,7 +212,10 @@ def read_csv_rows(
                 continue
             line = reader.line_num
             if len(rows) >= MAX_ROWS:
-                raise InputDataError(f"{label}:{line}: more than {MAX_ROWS} rows")
+                raise InputDataError(
+                    f"{label}:{line}: more than {MAX_ROWS:,} rows; a parts file holds at most "
+                    f"{MAX_ROWS:,} parts, so split it into several files"
+                )
             if len(cells) > len(columns) and any(cell.strip() for cell in cells[len(columns):]):
                 errors.append(f"{label}:{line}: row has {len(cells)} cells, the header names {len(columns)}")
                 continue
