@@ -329,9 +329,9 @@ def part_current_caps(tables: PartBoundTables) -> np.ndarray:
 
 
 def separable_rail_bounds(tables: PartBoundTables) -> tuple[np.ndarray, np.ndarray]:
-    """Per corner class and part, bounds that hold for the part in any stack [V].
+    """Per corner class and part, bounds that hold for the part in any full stack [V].
 
-    :func:`bound_stacks` sums, per class, one entry of each element's row of
+    For a stack without padding slots, :func:`bound_stacks` sums, per class, one entry of each element's row of
     ``lower_v`` (at the stack's floor) and of ``upper_v`` (at the stack's cap); the least
     entry of a row is at most the one used and the greatest at least it, so the sums of
     these bound the stack's ``vout_lower_v`` from below and ``vout_upper_v`` from above.

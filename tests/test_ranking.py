@@ -54,3 +54,28 @@ def test_beats_threshold_is_strict_lexicographic():
     lower = [np.array([0.0, 0.0, 1.0, 0.0]), np.array([5.0, 6.0, 0.0, 5.0]), np.array([-1.0, -1.0, -1.0, -1.0])]
     threshold = [0.0, 5.0, -0.5]
     np.testing.assert_array_equal(beats_threshold(lower, threshold), [False, True, True, False])
+
+
+@pytest.mark.parametrize("order", [("error", "margin", "parts"), ("margin", "error", "parts"), ("parts", "error", "margin")])
+def test_largest_unbeaten_error_is_beaten_above_and_only_error_decides(order):
+    from selector.ranking import largest_unbeaten_error
+    from selector.search import lower_bound_keys
+    from selector.spec import RailSpec
+
+    spec = RailSpec(target_v=5.0, tolerance_v=0.15, supply_min_v=11.0, supply_max_v=13.0, supply_nominal_v=12.0, load_kind="current",
+                    load_min=0.0, load_max=0.01, ambient_min_c=0.0, ambient_max_c=50.0)
+    rng = np.random.default_rng(5)
+    for _ in range(200):
+        resolution = float(rng.choice([1e-3, 1e-4, 7e-3]))
+        threshold_error = float(rng.uniform(0.0, 0.4))
+        threshold_meets = bool(rng.random() < 0.5) and threshold_error <= spec.tolerance_v
+        threshold = [float(k[0]) for k in lower_bound_keys(np.array([threshold_error]), np.array([2]), spec, order, resolution)]
+        threshold[0] = 0.0 if threshold_meets else 1.0
+        limit = largest_unbeaten_error(threshold, order, spec.tolerance_v, resolution)
+        if not np.isfinite(limit):
+            assert order[0] != "error" and not threshold_meets
+            continue
+        above = limit + rng.uniform(1e-12, 0.3, size=50)
+        for parts in (1, 2, 3):
+            keys = lower_bound_keys(above, np.full(above.size, parts), spec, order, resolution)
+            assert beats_threshold(keys, threshold).all()

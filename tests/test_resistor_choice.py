@@ -87,3 +87,25 @@ def test_infeasible_stack_keeps_a_reason():
     assert not evaluation.feasible[0]
     assert evaluation.reason_name(0) in ("bias", "no solution")
     assert dataclasses.is_dataclass(evaluation)
+
+
+@pytest.mark.parametrize("changes", [{}, {"load_kind": "resistance", "load_min": 800.0, "load_max": 4000.0},
+                                     {"min_margin": 0.3, "ambient_max_c": 85.0}, {"target_v": 3.0, "min_current_a": 1e-3}])
+def test_corner_screen_bounds_the_full_evaluation(changes):
+    from test_search import random_invented_library
+
+    from selector.resistor_choice import screen_designs
+
+    for seed in range(3):
+        parts, spec = (invented_parts() if seed == 0 else random_invented_library(seed)), rail(**changes)
+        stacks, values, _, evaluation = brute_force(parts, spec)
+        designs = np.repeat(stacks, values.size, axis=0)
+        resistor = np.tile(values, len(stacks))
+        error, infeasible = screen_designs(parts, designs, resistor, spec)
+        feasible = evaluation.feasible
+        # Screen corners are some of the 32: never above the full error, never a feasible design refused.
+        assert not (feasible & infeasible).any()
+        assert np.all(error[feasible] <= evaluation.error_v[feasible])
+        # And it is useful: most infeasible designs caught, the error usually exact (within 1 µV).
+        assert infeasible.sum() > 0.5 * (~feasible).sum()
+        assert np.mean(evaluation.error_v[feasible] - error[feasible] < 1e-6) > 0.9

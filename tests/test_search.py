@@ -203,3 +203,102 @@ def test_design_bounds_hold_for_every_feasible_design():
         # The bounds must also be useful: most infeasible designs proven so, feasible ones within 50 mV.
         assert infeasible.sum() > 0.4 * (~feasible).sum()
         assert np.median(evaluation.error_v[feasible] - lower[feasible]) < 0.05
+
+
+def test_bounded_multisets_are_exactly_those_within_the_limit():
+    from selector.candidates import (
+        bounded_multiset_count,
+        iterate_bounded_multisets,
+        multiset_chunks,
+    )
+
+    rng = np.random.default_rng(11)
+    for _ in range(150):
+        count, size = int(rng.integers(1, 10)), int(rng.integers(1, 4))
+        weight = rng.normal(size=count)
+        weight[rng.random(count) < 0.15] = -np.inf
+        weight[rng.random(count) < 0.1] = np.inf
+        limit = float(rng.normal(scale=2.0))
+        every = np.concatenate(list(multiset_chunks(count, size, 3)))
+        with np.errstate(invalid="ignore"):
+            sums = np.where(every >= 0, np.append(weight, 0.0)[every], 0.0).sum(axis=1)
+        # A sum of +inf and −inf is kept (only pruning is lost).
+        expected = {tuple(row) for row, total in zip(every, sums, strict=True) if not total > limit}
+        chunks = list(iterate_bounded_multisets(weight, size, limit, 3, chunk_rows=int(rng.integers(1, 12))))
+        rows = [tuple(row) for chunk in chunks for row in chunk]
+        assert len(rows) == len(set(rows)) == bounded_multiset_count(weight, size, limit)
+        assert set(rows) == expected
+        assert all(np.all(np.diff(np.where(np.array(row) < 0, 99, row)) >= 0) for row in rows)
+
+
+def test_separable_bounds_are_below_and_above_every_stack_bound():
+    from selector.stack_bounds import separable_rail_bounds
+
+    for changes in ({}, {"load_kind": "resistance", "load_min": 1000.0, "load_max": 5000.0}, {"min_margin": 0.3}):
+        parts, spec = invented_parts(), rail(max_parts=3, **changes)
+        tables = part_bound_tables(parts, spec)
+        # Stacks of max_parts elements, as the search uses them (no padding slots).
+        stacks = np.concatenate(list(iterate_multisets(len(parts), 3)))
+        stacks = stacks[(stacks >= 0).all(axis=1)]
+        bounds = bound_stacks(tables, stacks, spec)
+        least, greatest = separable_rail_bounds(tables)
+        present = stacks >= 0
+        for corner_class in range(4):
+            low = np.where(present, least[corner_class][np.maximum(stacks, 0)], 0.0).sum(axis=1)
+            high = np.where(present, greatest[corner_class][np.maximum(stacks, 0)], 0.0).sum(axis=1)
+            assert np.all(low <= bounds.vout_lower_v[:, corner_class] + 1e-12)
+            assert np.all(high >= bounds.vout_upper_v[:, corner_class] - 1e-12)
+
+
+@pytest.mark.parametrize("changes", [{}, {"load_kind": "resistance", "load_min": 1000.0, "load_max": 5000.0},
+                                     {"min_margin": 0.3, "ambient_max_c": 85.0}])
+def test_range_bounds_with_capped_cells_hold_for_every_feasible_design(changes):
+    from selector.design_bounds import cell_bound_tables, range_bounds
+    from selector.stack_bounds import part_current_caps
+
+    parts, spec = invented_parts(), rail(**changes)
+    stacks, values, error, evaluation = brute_force(parts, spec)
+    tables = cell_bound_tables(parts, spec, float(values[0]), part_caps_a=part_current_caps(part_bound_tables(parts, spec)))
+    feasible = evaluation.feasible.reshape(len(stacks), values.size)
+    rng = np.random.default_rng(3)
+    first = rng.integers(0, values.size, size=(len(stacks), 6))
+    last = np.minimum(first + rng.integers(0, 12, size=first.shape), values.size - 1)
+    rows = np.repeat(np.arange(len(stacks)), first.shape[1])
+    bound, short = range_bounds(tables, stacks[rows], values[first.ravel()], values[last.ravel()], spec)
+    for row, low, high, lower, proven in zip(rows, first.ravel(), last.ravel(), bound, short, strict=True):
+        inside = slice(low, high + 1)
+        assert not (proven and feasible[row, inside].any())
+        if feasible[row, inside].any():
+            assert error[row, inside].min() >= lower
+    # Single values: the bounds still prune (most infeasible designs proven, feasible ones within 50 mV).
+    single, infeasible = range_bounds(tables, np.repeat(stacks, values.size, axis=0), np.tile(values, len(stacks)),
+                                      np.tile(values, len(stacks)), spec)
+    ok = evaluation.feasible
+    assert not (ok & infeasible).any() and np.all(single[ok] <= evaluation.error_v[ok])
+    assert infeasible.sum() > 0.4 * (~ok).sum()
+    assert np.median(evaluation.error_v[ok] - single[ok]) < 0.05
+
+
+@pytest.mark.parametrize("seed", [1, 3, 5])
+def test_largest_stacks_left_out_are_counted_and_lose_nothing(seed, monkeypatch):
+    import selector.search as search_module
+    from selector.candidates import candidate_count, iterate_bounded_multisets, multiset_count
+
+    enumerated = []
+
+    def counting(*arguments, **options):
+        for chunk in iterate_bounded_multisets(*arguments, **options):
+            enumerated.append(len(chunk))
+            yield chunk
+
+    monkeypatch.setattr(search_module, "iterate_bounded_multisets", counting)
+    parts, spec = random_invented_library(seed), rail(max_parts=3, target_v=4.0, tolerance_v=0.2)
+    expected_stacks, expected_r, expected_error = brute_force_shortlist(parts, spec, top=2)
+    shortlist, _, summary = search_library(parts, spec, top=2, workers=1)
+    # Some three-part stacks were never enumerated, yet all are counted.
+    assert sum(enumerated) < multiset_count(len(parts), 3)
+    assert summary.considered == candidate_count(len(parts), 3)
+    assert summary.considered == sum(summary.pruned.values()) + summary.solved
+    np.testing.assert_array_equal(shortlist.stacks, expected_stacks)
+    np.testing.assert_array_equal(shortlist.resistor_ohm, expected_r)
+    np.testing.assert_allclose(shortlist.evaluation.error_v, expected_error, rtol=0, atol=1e-12)
