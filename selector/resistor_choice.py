@@ -38,7 +38,7 @@ import dataclasses
 
 import numpy as np
 
-from selector.circuit import solve_operating_points
+from selector.circuit import solve_stack_corners
 from selector.corners import evaluate_designs, stack_current_limits, worst_case_corners
 from selector.design_bounds import CellBoundTables, cell_bound_tables, range_bounds
 from selector.errors import SearchError
@@ -155,20 +155,17 @@ def screen_designs(parts: PartSet, stacks: np.ndarray, resistor_ohm: np.ndarray,
         return np.zeros(0), np.zeros(0, dtype=bool)
     corners = worst_case_corners(spec)
     pick = np.asarray(corner_index, dtype=np.intp)
-    per = pick.size
 
-    def tiled(values):
-        return np.tile(values[pick], count)
+    def row(values):
+        return values[pick][None, :]
 
-    points = solve_operating_points(
-        parts, np.repeat(stacks, per, axis=0), tiled(corners.supply_v),
-        np.repeat(np.asarray(resistor_ohm, dtype=float), per) * tiled(corners.resistor_factor),
-        tiled(corners.ambient_c), tiled(corners.tolerance_sign), tiled(corners.load_current_a),
-        tiled(corners.load_conductance_s),
+    points = solve_stack_corners(
+        parts, stacks, row(corners.supply_v),
+        np.asarray(resistor_ohm, dtype=float)[:, None] * row(corners.resistor_factor),
+        row(corners.ambient_c), row(corners.tolerance_sign), row(corners.load_current_a),
+        row(corners.load_conductance_s),
     )
-    solved = points.solved.reshape(count, per)
-    vout = points.vout_v.reshape(count, per)
-    current = points.stack_current_a.reshape(count, per)
+    solved, vout, current = points.solved, points.vout_v, points.stack_current_a
     high = np.where(solved, vout, -np.inf).max(axis=1)
     low = np.where(solved, vout, np.inf).min(axis=1)
     any_solved = solved.any(axis=1)
@@ -179,8 +176,8 @@ def screen_designs(parts: PartSet, stacks: np.ndarray, resistor_ohm: np.ndarray,
     slack = SCREEN_RELATIVE_SLACK
     least = np.where(solved, current, np.inf).min(axis=1)
     most = np.where(solved, current, -np.inf).max(axis=1)
-    element_margin = np.where(solved, points.worst_element_margin.reshape(count, per), np.inf).min(axis=1)
-    resistor_margin = 1.0 - np.where(solved, points.resistor_power_w.reshape(count, per), 0.0).max(axis=1) / spec.resistor_rating_w
+    element_margin = np.where(solved, points.worst_element_margin, np.inf).min(axis=1)
+    resistor_margin = 1.0 - np.where(solved, points.resistor_power_w, 0.0).max(axis=1) / spec.resistor_rating_w
     margin = np.minimum(element_margin, resistor_margin)
     infeasible = any_solved & (
         (least < need * (1.0 - slack) - 1e-18)
