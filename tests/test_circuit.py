@@ -255,3 +255,87 @@ def test_block_size_and_layout_order_do_not_change_the_answer(parts):
     alone = [solve_operating_points(parts, one[i : i + 1], supply[i], resistor[i], ambient[i], sign[i], load[i])
              for i in range(40)]  # fmt: skip
     np.testing.assert_allclose(together.vout_v, [a.vout_v[0] for a in alone], rtol=0, atol=1e-12)
+
+
+def _stack_corner_case(count, seed, corners=9):
+    """Random stacks (some padded, some unable to conduct) at per-stack and shared conditions."""
+    rng = np.random.default_rng(seed)
+    stacks = rng.integers(-1, 5, (count, 4))
+    stacks[:, 0] = rng.integers(0, 5, count)
+    supply = rng.uniform(3, 40, (count, 1)) + rng.uniform(-1, 1, (1, corners))
+    resistor = rng.uniform(10, 5000, (count, 1)) * rng.uniform(0.95, 1.05, (1, corners))
+    ambient = rng.uniform(-55, 125, (1, corners))
+    sign = rng.choice([-1.0, 0.0, 1.0], (1, corners))
+    load = rng.uniform(0, 3e-3, (count, corners))
+    conductance = rng.uniform(0, 1e-3, (1, corners))
+    return stacks, supply, resistor, ambient, sign, load, conductance
+
+
+def _point_by_point(parts, stacks, *conditions, detail=False):
+    """The same problem as one point per (stack, corner), through solve_operating_points."""
+    corners = np.broadcast_shapes(*(np.shape(c) for c in conditions))[1]
+    grid = (stacks.shape[0], corners)
+    flat = [np.broadcast_to(c, grid).reshape(-1) for c in conditions]
+    return solve_operating_points(parts, np.repeat(stacks, corners, axis=0), *flat, detail=detail), grid
+
+
+def test_stack_corners_match_the_point_by_point_solve(parts):
+    stacks, *conditions = _stack_corner_case(1500, 19)
+    with np.errstate(all="raise"):
+        grid = circuit.solve_stack_corners(parts, stacks, *conditions, chunk_points=2000)
+        points, shape = _point_by_point(parts, stacks, *conditions)
+    assert grid.vout_v.shape == shape
+    np.testing.assert_array_equal(grid.status.reshape(-1), points.status)
+    assert 0.3 < grid.solved.mean() < 1.0  # both solved and flagged points are covered
+    # Same equations and acceptance test, so the same answer to far inside the tolerances.
+    for name, atol in (("vout_v", 1e-12), ("stack_current_a", 1e-18), ("load_current_a", 1e-18),
+                       ("resistor_power_w", 1e-15), ("kcl_residual_v", 1e-12), ("hottest_junction_c", 1e-9)):  # fmt: skip
+        np.testing.assert_allclose(getattr(grid, name).reshape(-1), getattr(points, name), rtol=1e-12, atol=atol)
+    np.testing.assert_array_equal(grid.worst_element_margin.reshape(-1) == -np.inf, points.worst_element_margin == -np.inf)
+    ok = points.solved
+    np.testing.assert_allclose(grid.worst_element_margin.reshape(-1)[ok], points.worst_element_margin[ok], rtol=0, atol=1e-12)
+
+
+def test_stack_corners_meet_kcl_and_steady_state_junctions(parts):
+    stacks, *conditions = _stack_corner_case(400, 23)
+    supply, resistor, ambient, sign, load, conductance = conditions
+    with np.errstate(all="raise"):
+        op = circuit.solve_stack_corners(parts, stacks, *conditions, detail=True)
+    assert op.junction_c.shape == (*op.vout_v.shape, stacks.shape[1])
+    assert np.all(np.isfinite(op.vout_v)) and np.all(op.vout_v[~op.solved] == 0.0)
+    rows, cols = np.nonzero(op.solved)
+    grid = op.vout_v.shape
+    exact, _ = stack_voltage(parts, stacks[rows], op.stack_current_a[rows, cols],
+                             np.broadcast_to(ambient, grid)[rows, cols], np.broadcast_to(sign, grid)[rows, cols])  # fmt: skip
+    through = op.stack_current_a[rows, cols] + op.load_current_a[rows, cols]
+    kcl = np.broadcast_to(supply, grid)[rows, cols] - np.broadcast_to(resistor, grid)[rows, cols] * through - exact
+    assert np.max(np.abs(kcl)) <= 1e-9  # DESIGN §3 circuit equation, 1 nV
+    present = stacks[rows] >= 0
+    theta = parts.theta_ja_k_per_w[np.maximum(stacks[rows], 0)]
+    rise = op.junction_c[rows, cols] - np.broadcast_to(ambient, grid)[rows, cols][:, None]
+    heat = theta * op.element_power_w[rows, cols]
+    assert np.max(np.abs(np.where(present, rise - heat, 0.0))) <= 1e-3  # Tj = Ta + θ·P to 1 mK
+
+
+def test_stack_corners_block_size_does_not_change_the_answer(parts):
+    stacks, *conditions = _stack_corner_case(120, 29, corners=5)
+    whole = circuit.solve_stack_corners(parts, stacks, *conditions)
+    # Blocks smaller than one stack's corners still hold one whole stack.
+    small = circuit.solve_stack_corners(parts, stacks, *conditions, chunk_points=3)
+    np.testing.assert_array_equal(whole.status, small.status)
+    np.testing.assert_allclose(small.vout_v, whole.vout_v, rtol=0, atol=1e-12)
+    one = circuit.solve_stack_corners(parts, stacks[:1], *(np.asarray(c)[:1] if np.shape(c)[0] > 1 else c for c in conditions))
+    np.testing.assert_allclose(one.vout_v[0], whole.vout_v[0], rtol=0, atol=1e-12)
+
+
+def test_stack_corners_fall_back_to_the_safeguarded_solver(parts, monkeypatch):
+    # Plain reference: with no fast evaluations every point goes to the bracketed solver.
+    stacks, *conditions = _stack_corner_case(500, 31)
+    fast = circuit.solve_stack_corners(parts, stacks, *conditions)
+    monkeypatch.setattr(circuit, "FAST_EVALUATIONS", 0)
+    with np.errstate(all="raise"):
+        safe = circuit.solve_stack_corners(parts, stacks, *conditions)
+    np.testing.assert_array_equal(fast.status, safe.status)
+    ok = safe.solved
+    np.testing.assert_allclose(fast.stack_current_a[ok], safe.stack_current_a[ok], rtol=1e-8, atol=1e-15)
+    np.testing.assert_allclose(fast.vout_v, safe.vout_v, rtol=0, atol=1e-9)

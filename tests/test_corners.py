@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from selector import corners as corners_module
 from selector.circuit import solve_operating_points
 from selector.corners import (
     REASON_NAMES,
@@ -138,3 +139,38 @@ def test_standard_rating_steps():
     assert smallest_standard_rating_w(0.2) == 0.25
     assert smallest_standard_rating_w(0.2, derating=0.5) == 0.5
     assert smallest_standard_rating_w(20.0) is None
+
+
+def _point_by_point_stack_corners(parts, stacks, *conditions, detail=False):
+    """The former evaluation path: every (design, corner) as its own point of solve_operating_points."""
+    corners = np.broadcast_shapes(*(np.shape(c) for c in conditions))[1]
+    grid = (stacks.shape[0], corners)
+    flat = [np.broadcast_to(c, grid).reshape(-1) for c in conditions]
+    points = solve_operating_points(parts, np.repeat(stacks, corners, axis=0), *flat, detail=detail)
+    fields = {name: value.reshape(*grid, *value.shape[1:]) for name, value in vars(points).items() if value is not None}
+    return type(points)(**fields)
+
+
+@pytest.mark.parametrize("spec_changes", [{}, dict(load_kind="resistance", load_min=2e3, load_max=20e3, ambient_max_c=85.0)])
+def test_stack_major_evaluation_equals_the_point_by_point_path(parts, monkeypatch, spec_changes):
+    rng = np.random.default_rng(41)
+    count = 400
+    stacks = rng.integers(-1, 3, (count, 3))
+    stacks[:, 0] = rng.integers(0, 3, count)
+    resistor = rng.uniform(20.0, 3000.0, count)
+    spec = make_spec(**spec_changes)
+    with np.errstate(all="raise"):
+        new = evaluate_designs(parts, stacks, resistor, spec, detail=True)
+        monkeypatch.setattr(corners_module, "solve_stack_corners", _point_by_point_stack_corners)
+        old = evaluate_designs(parts, stacks, resistor, spec, detail=True)
+    assert new.feasible.any() and not new.feasible.all()  # both outcomes are covered
+    for name in ("feasible", "meets", "solved", "reason", "corner_solved"):
+        np.testing.assert_array_equal(getattr(new, name), getattr(old, name), err_msg=name)
+    # Tolerances far inside the solver's own (KCL 0.1 nV): both paths run the same arithmetic.
+    for name, atol in (("vout_nom_v", 1e-12), ("vout_low_v", 1e-12), ("vout_high_v", 1e-12), ("vout_v", 1e-12),
+                       ("error_v", 1e-12), ("margin", 1e-12), ("i_min_a", 1e-18), ("stack_current_a", 1e-18),
+                       ("load_current_a", 1e-18), ("resistor_power_w", 1e-15), ("hottest_junction_c", 1e-9),
+                       ("junction_c", 1e-9), ("element_power_w", 1e-15), ("element_margin", 1e-12)):  # fmt: skip
+        np.testing.assert_allclose(getattr(new, name), getattr(old, name), rtol=1e-12, atol=atol, err_msg=name)
+    for name, value in old.nominal.items():
+        np.testing.assert_allclose(new.nominal[name], value, rtol=1e-12, atol=1e-12, err_msg=name)
