@@ -16,6 +16,7 @@ import csv
 import hashlib
 import io
 import math
+import unicodedata
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -227,14 +228,20 @@ def read_csv_rows(
     return columns, rows, warnings
 
 
+def _is_control(character: str) -> bool:
+    """C0 and C1 control characters and the Unicode line and paragraph separators, all of
+    which a terminal or ``str.splitlines`` may take for a line break or a command."""
+    return unicodedata.category(character) in ("Cc", "Zl", "Zp")
+
+
 def _printable(text: str, limit: int = 40) -> str:
     """Text for a message: control characters escaped, cut at ``limit`` characters."""
-    escaped = "".join(c if ord(c) >= 32 else f"\\x{ord(c):02x}" for c in text[:limit])
+    escaped = "".join(repr(c)[1:-1] if _is_control(c) else c for c in text[:limit])
     return escaped + ("…" if len(text) > limit else "")
 
 
 def _text_problem(text: str) -> str | None:
-    if any(ord(character) < 32 for character in text):
+    if any(_is_control(character) for character in text):
         return "holds a control character"
     return None
 
