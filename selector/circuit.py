@@ -912,12 +912,13 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
             _take(a, index, grid) for a in (ambient, drive, load_gain, current_cap, resistor)
         )
     size = current_cap.shape
-    ambient_k = np.add(ambient, ZERO_CELSIUS_K, out=work("ambient_k", size))
+    # At its own shape: a (corners, 1) ambient row stays one value per corner.
+    ambient_k = np.add(ambient, ZERO_CELSIUS_K, out=work("ambient_k", ambient.shape))
     lo = np.log(LEAST_CURRENT_A)
     hi = np.log(current_cap, out=current_cap)
 
-    log_ambient = np.log(ambient_k, out=work("log_ambient", size))
-    inverse_ambient = np.divide(1.0, ambient_k, out=work("inverse_ambient", size))
+    log_ambient = np.log(ambient_k, out=work("log_ambient", ambient.shape))
+    inverse_ambient = np.divide(1.0, ambient_k, out=work("inverse_ambient", ambient.shape))
     cold_v, cold_log_slope, cold_ohmic, n_vt, log_is, scratch = (work(name, size) for name in range(6))
     for buffer in (cold_v, cold_log_slope, cold_ohmic):
         buffer.fill(0.0)
@@ -967,7 +968,7 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
         np.maximum(u, lo, out=u)
         np.minimum(u, hi, out=u)
 
-    junction = [ambient_k.copy() for _ in forward]
+    junction = [np.broadcast_to(ambient_k, size).copy() for _ in forward]
     thermal = [None] * len(forward)  # per slot: residual, its u-slope, 1/(1 − g), settled voltage
     zener_v = [None] * len(breakdown)
     pending = np.ones(u.shape, dtype=bool)
@@ -1021,8 +1022,11 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
             dv_dt *= fraction
             np.subtract(np.multiply(f[_F_NKQ], log_term, out=log_term), dv_dt, out=dv_dt)
             np.multiply(f[_F_THETA], current, out=heating)
-            np.subtract(temperature, ambient_k, out=residual_t)
-            residual_t -= np.multiply(heating, voltage, out=ohmic)
+            if at_ambient:  # Tj − Ta is exactly 0 there
+                np.negative(np.multiply(heating, voltage, out=residual_t), out=residual_t)
+            else:
+                np.subtract(temperature, ambient_k, out=residual_t)
+                residual_t -= np.multiply(heating, voltage, out=ohmic)
             gain = np.multiply(heating, dv_dt, out=fraction)
             if checking:
                 np.maximum(worst_gain, gain, out=worst_gain)
