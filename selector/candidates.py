@@ -111,9 +111,9 @@ def _last_element_ranges(weight, size, limit):
     order = np.argsort(weight, kind="stable").astype(np.int32)
     ascending = weight[order]
     prefixes = _nondecreasing_tuples(weight.size, size - 1)
-    prefix_sum = ascending[prefixes].sum(axis=1) if size > 1 else np.zeros(1)
     first_label = prefixes[:, -1] if size > 1 else np.zeros(1, dtype=np.int32)
     with np.errstate(invalid="ignore"):
+        prefix_sum = ascending[prefixes].sum(axis=1) if size > 1 else np.zeros(1)
         room = limit - prefix_sum
     high = np.searchsorted(ascending, np.where(np.isnan(room), np.inf, room), side="right")
     return order, prefixes, first_label, np.maximum(high - first_label, 0)

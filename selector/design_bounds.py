@@ -143,6 +143,7 @@ def cell_bound_tables(
     resistor_low_ohm: float,
     cell_ratio: float = CELL_RATIO,
     part_caps_a: np.ndarray | None = None,
+    part_mask: np.ndarray | None = None,
 ) -> CellBoundTables:
     """Tabulate every part's voltage envelopes over the current cells (points 1–3, 5).
 
@@ -157,6 +158,9 @@ def cell_bound_tables(
     part_caps_a : array (4, n_parts) [A], optional
         Each part's current cap per corner class
         (:func:`selector.stack_bounds.part_current_caps`); cells above it are left out.
+    part_mask : array (n_parts,) of bool, optional
+        Parts to tabulate (so that two processes can share the work). The rows of the
+        others hold the trivial bounds ``∓D``, true of any voltage.
     """
     count = len(parts)
     part_floor = np.maximum(np.maximum(spec.min_current_a, parts.i_min_a), CURRENT_FLOOR_A)
@@ -169,7 +173,9 @@ def cell_bound_tables(
     ambient, t_top, _ = _junction_ranges(parts, spec)
     shape = (4, count, cells)
     caps = np.full((4, count), np.inf) if part_caps_a is None else np.asarray(part_caps_a, dtype=float)
+    wanted = np.ones(count, dtype=bool) if part_mask is None else np.asarray(part_mask, dtype=bool)
     live = (currents[None, None, 1:] >= part_floor[None, :, None]) & (currents[None, None, :-1] <= caps[:, :, None])
+    live &= wanted[None, :, None]
     corner_class, part, cell = np.nonzero(live)
     sign = np.array(CLASS_SIGNS)[corner_class]
     ta = ambient[corner_class, part]
@@ -201,6 +207,8 @@ def cell_bound_tables(
     upper = np.zeros((4, count + 1, cells))
     lower[:, :count] = np.minimum.accumulate(low[:, :, ::-1], axis=2)[:, :, ::-1]
     upper[:, :count] = np.maximum.accumulate(high, axis=2)
+    lower[:, :count][:, ~wanted] = -DEAD_CELL_V
+    upper[:, :count][:, ~wanted] = DEAD_CELL_V
     return CellBoundTables(
         currents_a=currents,
         lower_v=lower,

@@ -17,6 +17,7 @@ per DESIGN §3 (:mod:`selector.resistor_choice`).
 
 from __future__ import annotations
 
+import dataclasses
 import itertools
 import multiprocessing
 import os
@@ -82,6 +83,8 @@ REASON_RANK = "cannot rank above the shortlist (error bound)"
 REASON_DESIGN = "every series value proven short of current at some corner"
 REASON_SCREEN = "every series value proven infeasible at a screening corner"
 
+#: Below this many parts the cell tables are built in one process.
+PARALLEL_TABLE_PARTS = 64
 #: Widening of the separable skip's voltage limit [V] (rounding of the sums).
 SKIP_SLACK_V = 1e-9
 
@@ -319,6 +322,28 @@ def largest_stack_chunks(part_count: int, spec: RailSpec, tables, error_keep_v: 
     return iterate_bounded_multisets(least[best], size, limit, size)
 
 
+def shared_cell_tables(parts: PartSet, spec: RailSpec, tables, worker_count: int):
+    """:func:`selector.design_bounds.cell_bound_tables`, half the parts in a second process.
+
+    The rows of each part are independent, so every other part is tabulated in a forked
+    worker while this process does the rest, and the rows are joined.
+    """
+    resistor_low = float(candidate_resistors(spec)[0])
+    caps = part_current_caps(tables)
+    if worker_count < 2 or len(parts) < PARALLEL_TABLE_PARTS:
+        return cell_bound_tables(parts, spec, resistor_low, part_caps_a=caps)
+    # Alternate parts, so both halves hold forward parts (the costly rows) alike.
+    theirs = np.arange(len(parts)) % 2 == 1
+    with ProcessPoolExecutor(1, mp_context=multiprocessing.get_context("fork")) as pool:
+        future = pool.submit(cell_bound_tables, parts, spec, resistor_low, part_caps_a=caps, part_mask=theirs)
+        mine = cell_bound_tables(parts, spec, resistor_low, part_caps_a=caps, part_mask=~theirs)
+        other = future.result()
+    rows = np.append(theirs, False)[None, :, None]
+    return dataclasses.replace(
+        mine, lower_v=np.where(rows, other.lower_v, mine.lower_v), upper_v=np.where(rows, other.upper_v, mine.upper_v)
+    )
+
+
 class _Solver:
     """Solves sorted survivors batch by batch into one shortlist (module docstring)."""
 
@@ -430,11 +455,12 @@ def search_library(
     summary = SearchSummary(spec=spec, part_count=len(parts))
     check_search_size(len(parts), spec.max_parts, force=force)
     tables = part_bound_tables(parts, spec)
-    cell_tables = cell_bound_tables(parts, spec, float(candidate_resistors(spec)[0]), part_caps_a=part_current_caps(tables))
+    worker_count = workers if workers is not None else min(os.cpu_count() or 1, 2)
+    # A fixed resistor is solved directly: no per-value bounds to tabulate.
+    cell_tables = shared_cell_tables(parts, spec, tables, worker_count) if spec.resistor_fixed_ohm is None else None
     _WORKER_TABLES.update(stack=tables, cell=cell_tables)
     shortlist = Shortlist(top, order, resolution_v, np.zeros((0, spec.max_parts), dtype=np.int32), np.zeros(0))
     pruned = Counter()
-    worker_count = workers if workers is not None else min(os.cpu_count() or 1, 2)
     solver = _Solver(parts, spec, order, resolution_v, shortlist, summary, pruned, worker_count, progress)
     try:
         # Smaller stacks first: they are few, and the shortlist they fill lets most of

@@ -302,3 +302,19 @@ def test_largest_stacks_left_out_are_counted_and_lose_nothing(seed, monkeypatch)
     np.testing.assert_array_equal(shortlist.stacks, expected_stacks)
     np.testing.assert_array_equal(shortlist.resistor_ohm, expected_r)
     np.testing.assert_allclose(shortlist.evaluation.error_v, expected_error, rtol=0, atol=1e-12)
+
+
+def test_cell_tables_built_in_two_processes_equal_one(monkeypatch):
+    import selector.search as search_module
+    from selector.design_bounds import cell_bound_tables
+    from selector.resistor_choice import candidate_resistors
+    from selector.stack_bounds import part_current_caps
+
+    monkeypatch.setattr(search_module, "PARALLEL_TABLE_PARTS", 1)
+    parts, spec = invented_parts(), rail()
+    tables = part_bound_tables(parts, spec)
+    shared = search_module.shared_cell_tables(parts, spec, tables, 2)
+    single = cell_bound_tables(parts, spec, float(candidate_resistors(spec)[0]), part_caps_a=part_current_caps(tables))
+    np.testing.assert_array_equal(shared.lower_v, single.lower_v)
+    np.testing.assert_array_equal(shared.upper_v, single.upper_v)
+    np.testing.assert_array_equal(shared.currents_a, single.currents_a)
