@@ -297,19 +297,22 @@ def part_bound_tables(parts: PartSet, spec: RailSpec) -> PartBoundTables:
         parts, broad["part"].ravel(), current_f.ravel(), broad["t_low"].ravel(), broad["t_top"].ravel(),
         broad["sign"].ravel(), broad["cap"].ravel(),
     ).reshape(shape_f)
-    shape_g = (4, count, count)
-    top_current = np.minimum(caps[:, None, :], cap[:, :, None])
-    top_current = np.maximum(np.where(np.isfinite(top_current), top_current, 1e3), part_floor[None, :, None])
-    grid = {
-        name: np.broadcast_to(values[:, :, None], shape_g).ravel()
-        for name, values in (("part", part), ("sign", sign), ("t_low", ambient), ("t_top", t_top))
-    }
-    _, high_top = voltage_range_fixed_current(
-        parts, grid["part"], top_current.ravel(), grid["t_low"], grid["t_top"], grid["sign"]
+    # Upper bound up to min(cap of slot g, own cap): where slot g's cap is not below the
+    # part's own, that is the part's own cap, so only the lower slots need their own
+    # evaluation; the floor end depends on the part alone.
+    own_top = np.maximum(np.where(np.isfinite(cap), cap, 1e3), part_floor[None, :])
+    _, high_own = voltage_range_fixed_current(parts, part, own_top, ambient, t_top, sign)
+    _, high_bottom = voltage_range_fixed_current(parts, part, np.broadcast_to(part_floor[None, :], cap.shape), ambient, t_top, sign)
+    below = caps[:, None, :] < cap[:, :, None]
+    corner_class, part_row, slot = np.nonzero(below)
+    slot_top = np.maximum(caps[corner_class, slot], part_floor[part_row])
+    _, high_slot = voltage_range_fixed_current(
+        parts, part_row, slot_top, ambient[corner_class, part_row], t_top[corner_class, part_row],
+        sign[corner_class, part_row],
     )
-    bottom = np.broadcast_to(part_floor[None, :, None], shape_g).ravel()
-    _, high_bottom = voltage_range_fixed_current(parts, grid["part"], bottom, grid["t_low"], grid["t_top"], grid["sign"])
-    high = np.maximum(high_top, high_bottom).reshape(shape_g)
+    high = np.broadcast_to(high_own[:, :, None], (4, count, count)).copy()
+    high[below] = high_slot
+    high = np.maximum(high, high_bottom[:, :, None])
     unbounded = ~np.isfinite(np.minimum(caps[:, None, :], cap[:, :, None]))
     upper[:, :count, :] = np.where(unbounded, np.inf, high)
     return PartBoundTables(
