@@ -21,6 +21,12 @@ from the cold stack's load line, takes the same coupled Newton steps without a b
 keeps each point only once it passes the same acceptance test; the rest go to the
 bracketed solver.
 
+:func:`solve_stack_corners` solves each stack at many corners (the worst-case corners of
+a design): the layout, the grouping and every slot's constants are worked out once per
+stack, and each block is laid out (corners, stacks) with those constants broadcast along
+the corners; the same fast path and fallback then run on it, point for point the same
+arithmetic as :func:`solve_operating_points`.
+
 Points without a physical solution are flagged, never NaN: the load draws more than the
 supply can give through ``R``; the stack current would be below 1 fA; an element reaches
 electro-thermal loop gain ``θ·I·∂V/∂T ≥ 1`` (thermal runaway); or the iteration did not
@@ -310,9 +316,9 @@ def solve_stack_corners(
     status = np.zeros((count, corners), dtype=np.int8)
     keys, signature = _stack_layout(parts, stacks, True)
     tables: dict[int, tuple[np.ndarray, np.ndarray]] = {}
-    stacks_per_block = max(1, chunk_points // corners)
+    stacks_per_block = max(1, chunk_points // max(corners, 1))
     work = _Workspace(min(stacks_per_block, count) * corners)
-    for layout, group in _layout_groups(signature):
+    for layout, group in _layout_groups(signature if corners else signature[:0]):
         slots = _decode_layout(layout, width, True)
         for multiplicity in {m for family in slots for _, m in family} - tables.keys():
             tables[multiplicity] = _key_tables(parts, multiplicity)
@@ -322,8 +328,7 @@ def solve_stack_corners(
                 chosen = slice(start, min(start + stacks_per_block, size))
             else:
                 chosen = group[start : start + stacks_per_block]
-            rows = np.arange(count)[chosen]
-            grid = (corners, rows.size)
+            grid = (corners, chosen.stop - chosen.start if isinstance(chosen, slice) else chosen.size)
             # Corner-major (corners, stacks); a condition shared by every stack stays (corners, 1).
             block = [np.ascontiguousarray(v[chosen].T) if own else v.T for v, own in zip(values, per_stack, strict=True)]
             # The resistor spans the block, so every point array of the Newton block does too.

@@ -339,3 +339,10 @@ def test_stack_corners_fall_back_to_the_safeguarded_solver(parts, monkeypatch):
     ok = safe.solved
     np.testing.assert_allclose(fast.stack_current_a[ok], safe.stack_current_a[ok], rtol=1e-8, atol=1e-15)
     np.testing.assert_allclose(fast.vout_v, safe.vout_v, rtol=0, atol=1e-9)
+
+
+def test_stack_corners_of_no_stacks_or_no_corners_are_empty(parts):
+    none = circuit.solve_stack_corners(parts, np.zeros((0, 3), dtype=int), np.ones((1, 4)), 100.0, 25.0, 1.0)
+    assert none.vout_v.shape == (0, 4) and none.status.shape == (0, 4)
+    empty = circuit.solve_stack_corners(parts, np.array([[1, 2, -1]]), np.ones((1, 0)), 100.0, 25.0, 1.0)
+    assert empty.vout_v.shape == (1, 0)
