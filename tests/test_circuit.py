@@ -257,15 +257,16 @@ def test_block_size_and_layout_order_do_not_change_the_answer(parts):
     np.testing.assert_allclose(together.vout_v, [a.vout_v[0] for a in alone], rtol=0, atol=1e-12)
 
 
-def _stack_corner_case(count, seed, corners=9):
-    """Random stacks (some padded, some unable to conduct) at per-stack and shared conditions."""
+def _stack_corner_case(count, seed, corners=9, shared=True):
+    """Random stacks (some padded, some unable to conduct) at per-stack and shared conditions;
+    ambient and tolerance sign shared by every stack unless not ``shared``."""
     rng = np.random.default_rng(seed)
     stacks = rng.integers(-1, 5, (count, 4))
     stacks[:, 0] = rng.integers(0, 5, count)
     supply = rng.uniform(3, 40, (count, 1)) + rng.uniform(-1, 1, (1, corners))
     resistor = rng.uniform(10, 5000, (count, 1)) * rng.uniform(0.95, 1.05, (1, corners))
-    ambient = rng.uniform(-55, 125, (1, corners))
-    sign = rng.choice([-1.0, 0.0, 1.0], (1, corners))
+    ambient = rng.uniform(-55, 125, (1 if shared else count, corners))
+    sign = rng.choice([-1.0, 0.0, 1.0], (1 if shared else count, corners))
     load = rng.uniform(0, 3e-3, (count, corners))
     conductance = rng.uniform(0, 1e-3, (1, corners))
     return stacks, supply, resistor, ambient, sign, load, conductance
@@ -279,8 +280,9 @@ def _point_by_point(parts, stacks, *conditions, detail=False):
     return solve_operating_points(parts, np.repeat(stacks, corners, axis=0), *flat, detail=detail), grid
 
 
-def test_stack_corners_match_the_point_by_point_solve(parts):
-    stacks, *conditions = _stack_corner_case(1500, 19)
+@pytest.mark.parametrize("shared", [True, False])
+def test_stack_corners_match_the_point_by_point_solve(parts, shared):
+    stacks, *conditions = _stack_corner_case(1500 if shared else 400, 19, shared=shared)
     with np.errstate(all="raise"):
         grid = circuit.solve_stack_corners(parts, stacks, *conditions, chunk_points=2000)
         points, shape = _point_by_point(parts, stacks, *conditions)
