@@ -162,7 +162,12 @@ def _make_engine(location: LibraryLocation) -> Engine:
             _configure_sqlite(engine)
             return engine
         return create_engine(location.url, pool_pre_ping=True)
-    except (ArgumentError, ImportError, SQLAlchemyError) as error:
+    except ImportError as error:
+        raise LibraryError(
+            f"{location.text()}: cannot use this database: its driver is not installed "
+            f"({_first_line(error)}); install it with: pip install 'railwright[postgres]'"
+        ) from None
+    except (ArgumentError, SQLAlchemyError) as error:
         raise LibraryError(f"{location.text()}: cannot use this database ({_first_line(error)})") from None
 
 
