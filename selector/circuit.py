@@ -675,6 +675,8 @@ _FIRST_CHECK = 2
 # Rows of the per-key constant tables (one element with multiplicity m folded in).
 _F_LOG_IS, _F_XTI_N, _F_EG_NKQ, _F_NKQ, _F_XTI_KQ, _F_EG, _F_RS, _F_OFFSET, _F_THETA, _F_PD, _F_TJ_MAX = range(11)
 _Z_OFFSET, _Z_TOL_V, _Z_TC, _Z_A, _Z_RZ, _Z_LOOP, _Z_THETA, _Z_PD, _Z_TJ_MAX = range(9)
+# Appended per block by the constant builders: 1/P_max at the point's ambient.
+_F_INVERSE_P_MAX, _Z_INVERSE_P_MAX = 11, 9
 
 
 class _Workspace:
@@ -763,20 +765,34 @@ def _key_tables(parts: PartSet, multiplicity: int) -> tuple[np.ndarray, np.ndarr
     return forward, breakdown
 
 
+def _inverse_allowed_power(pd, tj_max, theta, ambient_c):
+    """``1/P_max`` [1/W] of a slot, ``P_max = min(pd, (Tjmax − Ta)/θ)`` (DESIGN §3; rows of
+    :func:`_key_tables`, so for the slot's elements together); a limit at or below 0 W
+    counts as 1e-300 W, which any power exceeds."""
+    allowed = np.subtract(tj_max, ambient_c)
+    allowed /= theta
+    np.minimum(allowed, pd, out=allowed)
+    np.maximum(allowed, 1e-300, out=allowed)
+    return np.divide(1.0, allowed, out=allowed)
+
+
 def _block_constants(tables, slots, part_keys, signs, ambient_c):
-    """Each slot's constant rows for one block (:func:`_key_tables`), tolerance signs applied
-    and each zener's voltage offset taken to the ambient ``ambient_c`` [°C]."""
+    """Each slot's constant rows for one block (:func:`_key_tables`), tolerance signs applied,
+    each zener's voltage offset taken to the ambient ``ambient_c`` [°C], and ``1/P_max`` there
+    appended."""
     forward, breakdown = [], []
     for (_, multiplicity), key, sign in zip(slots[0], part_keys[0], signs[0], strict=True):
-        constants = np.take(tables[multiplicity][0], key, axis=1)
+        constants = list(np.take(tables[multiplicity][0], key, axis=1))
         constants[_F_OFFSET] *= sign
+        constants.append(_inverse_allowed_power(constants[_F_PD], constants[_F_TJ_MAX], constants[_F_THETA], ambient_c))
         forward.append(constants)
     for (_, multiplicity), key, sign in zip(slots[1], part_keys[1], signs[1], strict=True):
-        constants = np.take(tables[multiplicity][1], key, axis=1)
+        constants = list(np.take(tables[multiplicity][1], key, axis=1))
         tolerance_v, offset = constants[_Z_TOL_V], constants[_Z_OFFSET]
         tolerance_v *= sign
         offset += tolerance_v
         offset += np.multiply(constants[_Z_TC], ambient_c, out=tolerance_v)
+        constants.append(_inverse_allowed_power(constants[_Z_PD], constants[_Z_TJ_MAX], constants[_Z_THETA], ambient_c))
         breakdown.append(constants)
     return forward, breakdown
 
@@ -784,11 +800,24 @@ def _block_constants(tables, slots, part_keys, signs, ambient_c):
 def _stack_constants(tables, slots, part_keys, sign, ambient_c):
     """Each slot's constant rows for a block of whole stacks (:func:`_key_tables`): one value
     per stack, (stacks,), except the voltage offsets, which take each corner's tolerance sign
-    ``sign`` and (zeners) ambient ``ambient_c`` [°C], (corners, stacks)."""
+    ``sign`` and (zeners) ambient ``ambient_c`` [°C], and the appended ``1/P_max`` at each
+    corner's ambient, (corners, stacks). A shared ambient row takes few values (the corners
+    repeat them), so ``1/P_max`` is worked out once per value and stack."""
+    if ambient_c.shape[1] == 1:
+        ambient_values, corner_value = np.unique(ambient_c[:, 0], return_inverse=True)
+        ambient_values = ambient_values[:, None]
+    else:
+        ambient_values, corner_value = ambient_c, None
+
+    def inverse_allowed(pd, tj_max, theta):
+        inverse = _inverse_allowed_power(pd, tj_max, theta, ambient_values)
+        return inverse if corner_value is None else np.take(inverse, corner_value, axis=0)
+
     forward, breakdown = [], []
     for (_, multiplicity), key in zip(slots[0], part_keys[0], strict=True):
         rows = list(np.take(tables[multiplicity][0], key, axis=1))
         rows[_F_OFFSET] = sign * rows[_F_OFFSET]
+        rows.append(inverse_allowed(rows[_F_PD], rows[_F_TJ_MAX], rows[_F_THETA]))
         forward.append(rows)
     for (_, multiplicity), key in zip(slots[1], part_keys[1], strict=True):
         rows = list(np.take(tables[multiplicity][1], key, axis=1))
@@ -796,6 +825,7 @@ def _stack_constants(tables, slots, part_keys, sign, ambient_c):
         offset += rows[_Z_OFFSET]
         offset += rows[_Z_TC] * ambient_c
         rows[_Z_OFFSET] = offset
+        rows.append(inverse_allowed(rows[_Z_PD], rows[_Z_TJ_MAX], rows[_Z_THETA]))
         breakdown.append(rows)
     return forward, breakdown
 
@@ -1152,26 +1182,17 @@ def _record(done, fresh, index, u, current, stack_v, ambient_k, forward, breakdo
         zener_v = [_take(v, chosen, shape) for v in zener_v]
         chosen = slice(None)
     size = current.shape
-    ambient_c = np.subtract(ambient_k, ZERO_CELSIUS_K, out=work(("record", 0), size))
     load = work(("record", 1), size)
     load.fill(0.0)
     hottest = work(("record", 2), size)
     np.copyto(hottest, ambient_k)
     scratch = work(("record", 3), size)
     for f, temperature, (residual_t, _, inverse, settled_v) in zip(forward, junction, thermal, strict=True):
-        allowed = np.subtract(f[_F_TJ_MAX], ambient_c, out=scratch)
-        allowed /= f[_F_THETA]
-        np.minimum(allowed, f[_F_PD], out=allowed)
-        np.maximum(allowed, 1e-300, out=allowed)
-        np.maximum(load, np.divide(settled_v, allowed, out=allowed), out=load)
+        np.maximum(load, np.multiply(settled_v, f[_F_INVERSE_P_MAX], out=scratch), out=load)
         settled_t = np.multiply(residual_t, inverse, out=scratch)
         np.maximum(hottest, np.subtract(temperature, settled_t, out=settled_t), out=hottest)
     for z, voltage in zip(breakdown, zener_v, strict=True):
-        allowed = np.subtract(z[_Z_TJ_MAX], ambient_c, out=scratch)
-        allowed /= z[_Z_THETA]
-        np.minimum(allowed, z[_Z_PD], out=allowed)
-        np.maximum(allowed, 1e-300, out=allowed)
-        np.maximum(load, np.divide(voltage, allowed, out=allowed), out=load)
+        np.maximum(load, np.multiply(voltage, z[_Z_INVERSE_P_MAX], out=scratch), out=load)
         rise = np.multiply(z[_Z_THETA], current, out=scratch)
         rise *= voltage
         rise += ambient_k
