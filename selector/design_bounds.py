@@ -18,8 +18,9 @@ Why the bounds hold
    zener with ``a ≥ 0`` rise with current at fixed junction, so the ends of the cell
    bound it; a convex zener also gets its turning point). Since ``Tj = Ta + θ·V·I`` with
    ``V`` in ``[lo, hi]`` and ``I`` in the cell, the junction range narrows to
-   ``[Ta + θ·min(lo·I_k, lo·I_{k+1}), Ta + θ·max(hi·I_k, hi·I_{k+1})]``; two such passes
-   make the range about as narrow as the cell itself.
+   ``[Ta + θ·min(lo·I_k, lo·I_{k+1}), Ta + θ·max(hi·I_k, hi·I_{k+1})]``; each pass
+   (:data:`NARROWING_PASSES`) narrows it further. One pass suffices for the search: the
+   corner screen (:mod:`selector.resistor_choice`) sharpens whatever these bounds leave.
 3. *Monotone envelopes.* ``L_k = min_{j ≥ k} lo_j`` and ``U_k = max_{j ≤ k} hi_j`` are
    still bounds on each cell, and are non-decreasing in ``k``; per stack they are summed
    over the elements, which share one current.
@@ -74,11 +75,11 @@ from selector.stack_bounds import (
 )
 
 #: Ratio of a current cell's ends: the bounds' looseness is about one cell's voltage step.
-CELL_RATIO = 1.02
+CELL_RATIO = 1.04
 #: Least current the solver accepts [A] (a point below it is not solved).
 SOLVER_CURRENT_FLOOR_A = 1e-15
 #: Junction-narrowing passes (module docstring, point 2).
-NARROWING_PASSES = 2
+NARROWING_PASSES = 1
 #: Below this current [A] cells are coarse: only odd designs run their stacks so low.
 FINE_CELLS_FROM_A = 1e-7
 #: Ratio of the coarse cells below :data:`FINE_CELLS_FROM_A`.
