@@ -96,14 +96,15 @@ def test_report_of_one_design(report_db, tmp_path):
         (["--stack", "NOPE"], 1, "Error: unknown part 'NOPE' (not in the library, or filtered out)"),
         (["--stack", "2*"], 2, "Error: --stack: term 1 '2*' is not [COUNT*]PART, e.g. '2*D1'"),
         (["--target", "five"], 1, None),
-        (["--top", "0"], 2, "Error: Invalid value for '--top': 0 is not in the range 1<=x<=100."),
-        (["--monte-carlo", "0"], 2, "Error: Invalid value for '--monte-carlo': 0 is not in the range 1<=x<=1000000."),
+        (["--top", "0"], 2, "Error: Invalid value for '--top': 0 is not in the range 1<=x<=100. (see 'railwright report --help')"),
+        (["--monte-carlo", "0"], 2, "Error: Invalid value for '--monte-carlo': 0 is not in the range 1<=x<=1000000. (see 'railwright report --help')"),
     ],
 )
 def test_bad_input_is_one_line(report_db, tmp_path, arguments, code, message):
     result = run("--db", report_db, "report", *QUICK, "--out", tmp_path / "r.html", *arguments)
     assert result.exit_code == code, result.output
-    last = result.output.strip().splitlines()[-1]
+    assert result.stderr.count("\n") == 1, result.stderr
+    last = result.stderr.strip()
     assert last.startswith("Error: ") and "Traceback" not in result.output
     if message is not None:
         assert last == message

@@ -35,14 +35,42 @@ class DomainError(click.ClickException):
         self.exit_code = exit_code
 
 
+_HELP_ON_NO_ARGS = getattr(click.exceptions, "NoArgsIsHelpError", ())
+
+
+def _one_line_usage_error(error: click.UsageError) -> DomainError:
+    """Click's usage error as one ``Error: …`` line (exit 2) instead of three lines."""
+    # The root's name depends on how the group was invoked (a test runner calls it "main").
+    subcommands = error.ctx.command_path.split()[1:] if error.ctx is not None else []
+    command_path = " ".join(["railwright", *subcommands])
+    return DomainError(f"{error.format_message()} (see '{command_path} --help')", error.exit_code)
+
+
 class RailwrightGroup(click.Group):
-    """A group that turns domain exceptions from any subcommand into DomainError."""
+    """A group whose user errors, from any subcommand, are one ``Error: …`` line.
+
+    Domain exceptions become :class:`DomainError` with their exit code; click's own usage
+    errors (unknown command or option, missing or bad option value) keep exit 2 but lose
+    the usage banner, so every user error reads the same way.
+    """
+
+    def parse_args(self, ctx: click.Context, args: list[str]) -> list[str]:
+        try:
+            return super().parse_args(ctx, args)
+        except _HELP_ON_NO_ARGS:
+            raise
+        except click.UsageError as error:
+            raise _one_line_usage_error(error) from None
 
     def invoke(self, ctx: click.Context):
         try:
             return super().invoke(ctx)
         except RailwrightError as error:
             raise DomainError(str(error), error.exit_code) from None
+        except _HELP_ON_NO_ARGS:
+            raise
+        except click.UsageError as error:
+            raise _one_line_usage_error(error) from None
 
 
 @click.group(cls=RailwrightGroup, context_settings={"help_option_names": ["-h", "--help"]})
