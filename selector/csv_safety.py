@@ -15,12 +15,15 @@ References
 
 from __future__ import annotations
 
+import contextlib
 import csv
 import io
 import math
 from collections.abc import Iterable, Mapping, Sequence
 from pathlib import Path
 from typing import TextIO
+
+from selector.errors import OptionError
 
 FORMULA_TRIGGERS: tuple[str, ...] = ("=", "+", "-", "@", "\t", "\r")
 
@@ -83,8 +86,13 @@ def write_rows(
         buffer = io.StringIO()
         count = write_rows(buffer, columns, rows)
         partial = path.with_name(path.name + ".partial")
-        partial.write_text(buffer.getvalue(), encoding="utf-8", newline="")
-        partial.replace(path)
+        try:
+            partial.write_text(buffer.getvalue(), encoding="utf-8", newline="")
+            partial.replace(path)
+        except OSError as error:
+            with contextlib.suppress(OSError):
+                partial.unlink(missing_ok=True)
+            raise OptionError(f"cannot write '{path}': {error.strerror or error}") from None
         return count
     writer = csv.writer(destination, lineterminator="\n")
     # The csv module quotes a cell holding the line terminator but not a bare carriage

@@ -113,3 +113,15 @@ def _csv_writers_outside_csv_safety() -> list[str]:
 
 def test_csv_safety_is_the_one_csv_writer():
     assert _csv_writers_outside_csv_safety() == []
+
+
+def test_an_unwritable_csv_destination_is_one_line_and_leaves_nothing(tmp_path):
+    import pytest
+
+    from selector.csv_safety import write_rows
+    from selector.errors import OptionError
+
+    destination = tmp_path / "no such folder" / "out.csv"
+    with pytest.raises(OptionError, match=r"^cannot write '.*out\.csv': No such file or directory$"):
+        write_rows(destination, ["a"], [{"a": 1.0}])
+    assert not destination.parent.exists()

@@ -226,8 +226,6 @@ def test_random_bytes_file_is_left_untouched(tmp_path, parts_csv):
     assert path.read_bytes() == before
 
 
-@pytest.mark.xfail(strict=True, reason="opening switches another program's SQLite file to WAL before refusing it "
-                   "(selector/catalog/store.py, not ours; fix given in the hardening report)")  # fmt: skip
 def test_sqlite_file_of_another_program_is_left_untouched(tmp_path, parts_csv):
     path = tmp_path / "recipes.sqlite"
     other = sqlite3.connect(path)
@@ -239,8 +237,6 @@ def test_sqlite_file_of_another_program_is_left_untouched(tmp_path, parts_csv):
     assert path.read_bytes() == before
 
 
-@pytest.mark.xfail(strict=True, reason="store._check_sqlite_file treats an empty file as a new library "
-                   "(selector/catalog/store.py is not ours; fix given in the hardening report)")  # fmt: skip
 def test_empty_file_is_not_taken_for_a_library(tmp_path, parts_csv):
     path = tmp_path / "library.sqlite"
     path.write_bytes(b"")

@@ -194,8 +194,11 @@ def _check_sqlite_file(path: Path) -> bool:
     """Whether ``path`` is a new library; refuse a folder or a file that is not SQLite."""
     if path.is_dir():
         raise LibraryError(f"{path}: is a folder, not a library file")
-    if not path.exists() or path.stat().st_size == 0:
+    if not path.exists():
         return True
+    if path.stat().st_size == 0:
+        # An empty file may be a library truncated by a failed copy: never start afresh in it.
+        raise LibraryError(f"{path}: not a railwright library (an empty file)")
     try:
         with path.open("rb") as handle:
             magic = handle.read(len(_SQLITE_MAGIC))
@@ -203,7 +206,24 @@ def _check_sqlite_file(path: Path) -> bool:
         raise LibraryError(f"{path}: cannot read ({error.strerror or error})") from None
     if magic != _SQLITE_MAGIC:
         raise LibraryError(f"{path}: not a railwright library (not an SQLite database file)")
+    _refuse_foreign_database(path)
     return False
+
+
+def _refuse_foreign_database(path: Path) -> None:
+    """Refuse another program's SQLite file before our connection settings (WAL) touch it."""
+    import sqlite3
+
+    try:
+        connection = sqlite3.connect(f"{path.resolve().as_uri()}?mode=ro", uri=True)
+        try:
+            tables = {row[0] for row in connection.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
+        finally:
+            connection.close()
+    except sqlite3.DatabaseError as error:
+        raise LibraryError(f"{path}: not a railwright library ({error})") from None
+    if tables and "alembic_version" not in tables:
+        raise LibraryError(f"{path}: holds a database, but not a railwright library")
 
 
 class Library:
