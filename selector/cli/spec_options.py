@@ -24,8 +24,10 @@ _HELP: dict[str, tuple[str, str]] = {
     "supply.min": ("VOLTS", "Least supply voltage [V], e.g. '11 V'."),
     "supply.max": ("VOLTS", "Greatest supply voltage [V], e.g. '13 V'."),
     "supply.nominal": ("VOLTS", "Nominal supply [V] for the nominal point (default: the midpoint), e.g. '12 V'."),
-    "load.min": ("AMPS|OHMS", "Least load: a current [A] such as '0' or '1 mA', or a resistance such as '10 kohm'."),
-    "load.max": ("AMPS|OHMS", "Greatest load: a current [A] such as '10 mA', or a resistance such as '4.7 kΩ'."),
+    "load.min": ("AMPS|OHMS", "Low end of the load range as written: a current [A] such as '0' or '1 mA', "
+                 "or a resistance such as '2.2 kohm' (for a resistive load the larger resistance draws less)."),
+    "load.max": ("AMPS|OHMS", "High end of the load range as written: a current [A] such as '10 mA', "
+                 "or a resistance such as '10 kΩ'."),
     "load.kind": ("KIND", "'current' or 'resistance': how bare load numbers read (default: current, or ohms when a load value says so)."),
     "ambient.min": ("DEGC", "Least ambient temperature [°C], -55 … 150, e.g. '0' or '-40 °C'."),
     "ambient.max": ("DEGC", "Greatest ambient temperature [°C], -55 … 150, e.g. '50'."),
