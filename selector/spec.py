@@ -132,6 +132,9 @@ LIST_STATUSES: tuple[str, ...] = ("approved", "conditional", "evaluating", "no-n
 #: Statuses a design may never use, whatever the spec asks.
 UNUSABLE_STATUSES: tuple[str, ...] = ("no-new-design", "banned")
 
+#: Largest load current a spec may ask for [A]; beyond it a typo is far likelier than a design.
+MAX_LOAD_CURRENT_A = 100.0
+
 LOAD_KINDS: tuple[str, ...] = ("current", "resistance")
 MAX_SPEC_BYTES = 1_000_000
 MAX_PARTS_LIMIT = 12
@@ -462,6 +465,13 @@ def _load(entries: dict[str, _Entry]) -> dict:
         for entry, value in ((low_entry, low), (high_entry, high)):
             if value < 0:
                 raise _fail(entry, f"{_amps(value)} must not be negative")
+            if value > MAX_LOAD_CURRENT_A:
+                # A diode-stack rail never carries this; most likely "1k" meant ohms.
+                raise _fail(
+                    entry,
+                    f"{_amps(value)} is above {_amps(MAX_LOAD_CURRENT_A)}: for a resistive load write "
+                    "ohms, e.g. '1 kohm'",
+                )
         _check_order(low_entry, low, high_entry, high, _amps)
     else:
         for entry, value in ((low_entry, low), (high_entry, high)):

@@ -509,3 +509,12 @@ def test_any_override_gives_a_spec_or_one_error_line(key, value):
     except SpecError as error:
         assert "\n" not in str(error)
         assert str(error).startswith(OPTION_FOR_KEY[key] + ": ") or "--" in str(error)
+
+
+def test_a_kiloampere_load_is_taken_for_a_typo_of_ohms():
+    # common practice (no source): a diode-stack rail carries milliamps, never 1 kA.
+    with pytest.raises(SpecError) as error:
+        load_spec(None, {"rail.target": "5 V", "rail.tolerance": "3 %", "supply.min": "11 V",
+                         "supply.max": "13 V", "load.min": "0", "load.max": "1k",
+                         "ambient.min": "0", "ambient.max": "50"})
+    assert str(error.value) == "--load-max: 1 kA is above 100 A: for a resistive load write ohms, e.g. '1 kohm'"
