@@ -174,7 +174,7 @@ def check_lines(design: CheckedDesign) -> list[str]:
     amps = lambda v: format_quantity(v, "A", 3)  # noqa: E731
     how = f"chosen from {spec.resistor_series}" if design.resistor_chosen else "as given"
     lines = [
-        f"Design: {format_stack(design.elements)}  with  {format_quantity(design.resistor_ohm, 'Ω')} ({how})",
+        f"Design: {format_stack(design.elements)} with {format_quantity(design.resistor_ohm, 'Ω')} ({how})",
         f"Wanted: {volts(spec.target_v)} ± {volts(spec.tolerance_v)}; "
         f"supply {volts(spec.supply_min_v)} … {volts(spec.supply_max_v)}; "
         f"ambient {spec.ambient_min_c:g} … {spec.ambient_max_c:g} °C",
@@ -186,7 +186,7 @@ def check_lines(design: CheckedDesign) -> list[str]:
             f"worst case; error {volts(ev.error_v[0])} (allowed {volts(spec.tolerance_v)})",
             f"  least stack current {amps(ev.i_min_a[0])}; least margin {ev.margin[0]:.1%}",
         ]
-    lines += ["", "Corners (< lowest rail, > highest rail, ! no solution):"]
+    lines += ["", "Corners (< lowest rail, > highest rail, ! no solution; parts −/+: every part at its low/high tolerance):"]
     lines += _corner_table(design)
     if ev.solved[0]:
         lines += [
@@ -197,8 +197,9 @@ def check_lines(design: CheckedDesign) -> list[str]:
             f"  load regulation {metrics.load_regulation_mv_per_ma:.4g} mV/mA",
             f"  rail tempco {metrics.tempco_mv_per_k:.4g} mV/K",
             f"  efficiency {metrics.efficiency:.1%}",
-            f"Hottest junction: {metrics.hottest_junction_c:.1f} °C, position {metrics.hottest_element + 1}, "
-            f"corner {metrics.hottest_corner + 1}",
+            f"Hottest junction: {metrics.hottest_junction_c:.1f} °C, "
+            f"{design.elements[metrics.hottest_element]} (position {metrics.hottest_element + 1}) "
+            f"at corner {metrics.hottest_corner + 1}",
             f"Series resistor: worst {format_quantity(metrics.resistor_worst_power_w, 'W', 3)} of "
             f"{format_quantity(spec.resistor_rating_w, 'W')} rating; smallest standard rating that carries it: "
             + (format_quantity(metrics.resistor_rating_needed_w, "W") if metrics.resistor_rating_needed_w else "over 10 W"),
@@ -227,9 +228,10 @@ def _corner_table(design: CheckedDesign) -> list[str]:
     ev, spec = design.metrics.evaluation, design.spec
     corners = worst_case_corners(spec)
     resistive = spec.load_kind == "resistance"
+    load_header = "load [Ω]" if resistive else "load [mA]"
     header = (
-        f"  {'#':>2}  {'supply':>9} {'load':>10} {'ambient':>8} {'R':>10} {'parts':>5}"
-        f"  {'rail':>10} {'stack I':>10} {'R power':>10} {'hot Tj':>7}"
+        f"  {'#':>2}  {'supply [V]':>10} {load_header:>10} {'Ta [°C]':>8} {'R [Ω]':>10} {'parts':>5}"
+        f"  {'rail [V]':>10} {'stack [mA]':>10} {'P_R [mW]':>10} {'hot Tj [°C]':>11}"
     )
     rows = [header]
     solved = ev.corner_solved[0]
@@ -238,16 +240,16 @@ def _corner_table(design: CheckedDesign) -> list[str]:
     high = int(np.argmax(np.where(solved, vout, -np.inf))) if solved.any() else -1
     for c in range(len(corners)):
         mark = "!" if not solved[c] else "<" if c == low else ">" if c == high else " "
-        load = format_quantity(corners.load_value[c], "Ω" if resistive else "A", 3)
+        load = f"{corners.load_value[c]:.4g}" if resistive else f"{1e3 * corners.load_value[c]:.3f}"
         cells = (
-            f"{mark}{c + 1:>2}  {format_quantity(corners.supply_v[c], 'V'):>9} {load:>10} "
-            f"{corners.ambient_c[c]:>6g}°C {format_quantity(design.resistor_ohm * corners.resistor_factor[c], 'Ω'):>10} "
+            f"{mark}{c + 1:>2}  {corners.supply_v[c]:>10.3f} {load:>10} "
+            f"{corners.ambient_c[c]:>8.1f} {design.resistor_ohm * corners.resistor_factor[c]:>10.1f} "
             f"{'+' if corners.tolerance_sign[c] > 0 else '−':>5}"
         )
         if solved[c]:
             cells += (
-                f"  {format_quantity(vout[c], 'V', 5):>10} {format_quantity(ev.stack_current_a[0, c], 'A', 3):>10} "
-                f"{format_quantity(ev.resistor_power_w[0, c], 'W', 3):>10} {ev.hottest_junction_c[0, c]:>5.1f}°C"
+                f"  {vout[c]:>10.4f} {1e3 * ev.stack_current_a[0, c]:>10.3f} "
+                f"{1e3 * ev.resistor_power_w[0, c]:>10.1f} {ev.hottest_junction_c[0, c]:>11.1f}"
             )
         else:
             cells += "  no solution"

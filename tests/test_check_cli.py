@@ -74,8 +74,9 @@ def test_terminal_report_shows_design_corners_metrics_and_parts(setup):
     result = run(setup, "--stack", "D-SIG1 + Z4V7-A", "--resistor", "270", "--monte-carlo", "500")
     assert result.exit_code == 0, result.output
     text = result.output
-    assert text.startswith("Design: D-SIG1 + Z4V7-A  with  270 Ω (as given)")
-    assert "Corners (< lowest rail, > highest rail, ! no solution):" in text
+    assert text.startswith("Design: D-SIG1 + Z4V7-A with 270 Ω (as given)")
+    assert "Corners (< lowest rail, > highest rail, ! no solution; parts −/+: every part at its low/high tolerance):" in text
+    assert "rail [V]" in text and "Hottest junction: " in text
     assert " <" in text and " >" in text
     assert "line regulation" in text and "Margin per part (worst corner):" in text
     assert "Monte Carlo (500 samples, seed 0): yield" in text
