@@ -14,6 +14,7 @@ models raises no floating-point warning.
 
 from __future__ import annotations
 
+import difflib
 import math
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, fields
@@ -208,6 +209,16 @@ class PartSet:
         positions = []
         for name in names:
             if name not in lookup:
-                raise UnknownPartError(f"unknown part '{name}' (not in the library, or filtered out)")
+                raise UnknownPartError(
+                    f"unknown part '{name}' (not in the library, or filtered out){_suggestion(name, lookup)}"
+                )
             positions.append(lookup[name])
         return np.array(positions, dtype=np.intp)
+
+
+def _suggestion(name: str, known: Iterable[str]) -> str:
+    """``"; did you mean 'X'?"`` for a near miss (part ids are case-sensitive), else ``""``."""
+    known = list(known)
+    same_letters = [part for part in known if part.lower() == name.lower()]
+    close = same_letters or difflib.get_close_matches(name, known, n=1, cutoff=0.75)
+    return f"; did you mean '{close[0]}'?" if close else ""
