@@ -284,7 +284,7 @@ def design_bounds(tables: CellBoundTables, stacks: np.ndarray, resistor_ohm: np.
     Returns
     -------
     error_lower_v : array (n,) [V]
-        ``error_v ≥ error_lower_v`` at every feasible design (point 5).
+        ``error_v ≥ error_lower_v`` at every feasible design (point 6).
     infeasible : array (n,) of bool
         The current bound proves some corner short of the stack's floor.
     """

@@ -4,15 +4,21 @@ Every multiset of up to ``max_parts`` usable parts is a candidate
 (:mod:`selector.candidates`). Each is bounded by gathers and sums
 (:mod:`selector.stack_bounds`) and dropped only where the bounds prove that no series
 resistor makes it feasible, or — once the shortlist is full — that its rank key cannot
-beat the shortlist's last entry (:func:`selector.ranking.beats_threshold`). Survivors
-are taken in order of their lower-bound key, so the shortlist fills with good designs
-early and the threshold tightens fast. Each series value of a survivor then gets its own
-bounds by table look-ups (:mod:`selector.design_bounds`): the stack is dropped when every
-value is proven infeasible or its best bound cannot beat the shortlist. The values left
-are solved at a few screening corners, which raise their bounds and prove more of them
-infeasible (:func:`selector.resistor_choice.screen_designs`); only the values whose
-bound can still win are then solved exactly at all 32 corners, with the resistor chosen
-per DESIGN §3 (:mod:`selector.resistor_choice`).
+beat the shortlist's last entry (:func:`selector.ranking.beats_threshold`).
+
+The stacks of fewer than ``max_parts`` elements are searched first. Once they fill the
+shortlist, the largest stacks are enumerated only where the sum of their elements'
+separable rail bounds can still rank (:func:`largest_stack_chunks`); the rest are
+counted as considered and pruned by rank without being built. Survivors are taken in
+order of their lower-bound key, so the shortlist fills with good designs early and the
+threshold tightens fast. Each series value of a survivor then gets its own bounds by
+table look-ups (:mod:`selector.design_bounds`, coarse to fine over the resistor range):
+the stack is dropped when every value is proven infeasible or its best bound cannot beat
+the shortlist. The values left are solved at a few screening corners, which raise their
+bounds and prove more of them infeasible (:func:`selector.resistor_choice.screen_designs`);
+only the values whose bound can still win are then solved exactly at all 32 corners, with
+the resistor chosen per DESIGN §3 (:mod:`selector.resistor_choice`). The per-value bound
+tables are built half in a forked worker, and batches are solved in up to two processes.
 """
 
 from __future__ import annotations
