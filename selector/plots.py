@@ -230,7 +230,7 @@ def sweep_figure(sweep: Sweep, spec: RailSpec, title: str):
     def make():
         figure, axes = _figure()
         _window(axes, spec)
-        axes.axvspan(*sweep.spec_range, facecolor=RANGE_TINT, zorder=0, linewidth=0.0, label="spec range")
+        axes.axvspan(*sweep.spec_range, facecolor=RANGE_TINT, zorder=-1, linewidth=0.0, label="spec range")  # under the window
         every = max(sweep.x.size // 8, 1)
         for i, (curve, label) in enumerate(zip(sweep.vout_v, sweep.labels, strict=True)):
             axes.plot(sweep.x, curve, color=INKS[i % 4], linestyle=LINE_STYLES[i % 4], marker=MARKERS[i % 4],
