@@ -176,6 +176,23 @@ def test_read_only_library_gives_one_clear_line(tmp_path, parts_csv):
     assert result.output.startswith(f"Error: {path}: ") and result.output.count("\n") == 1
 
 
+@pytest.mark.skipif(os.name != "posix" or os.geteuid() != 0 or shutil.which("chattr") is None,
+                    reason="root only: file permissions do not bind root, so the file is made immutable")
+def test_immutable_library_gives_one_clear_line_even_to_root(tmp_path, parts_csv):
+    path = tmp_path / "library.sqlite"
+    open_library(str(path)).close()
+    before = path.read_bytes()
+    if subprocess.run(["chattr", "+i", str(path)], capture_output=True).returncode != 0:
+        pytest.skip("this filesystem cannot mark a file immutable")
+    try:
+        result = _run("--db", path, "parts", "import", parts_csv)
+    finally:
+        subprocess.run(["chattr", "-i", str(path)], capture_output=True)
+    assert result.exit_code == 1
+    assert result.output.startswith(f"Error: {path}: ") and result.output.count("\n") == 1, result.output
+    assert path.read_bytes() == before
+
+
 def test_locked_library_gives_one_clear_line(tmp_path, parts_csv, monkeypatch):
     from selector.catalog import store
 
