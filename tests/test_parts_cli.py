@@ -12,7 +12,9 @@ GOOD = "part,family,is_a,n,pd_w,description\nD-T1,signal,2.5n,1.9,500m,test diod
 
 
 def all_commands(group: click.Group, prefix=()):
-    for name, command in group.commands.items():
+    context = click.Context(group)
+    for name in group.list_commands(context):
+        command = group.get_command(context, name)
         yield (*prefix, name), command
         if isinstance(command, click.Group):
             yield from all_commands(command, (*prefix, name))

@@ -1,13 +1,16 @@
 """The ``railwright`` command line: a thin click layer over the library API.
 
 Each command family lives in its own module and exposes ``COMMANDS``, a list of click
-commands or groups that :data:`COMMAND_MODULES` registers here. Domain errors
+commands or groups; :data:`COMMAND_MODULES` names the module of each top-level command,
+imported only when that command runs (numpy, pandas, SQLAlchemy and SciPy cost seconds
+to import, and ``railwright parts list`` needs only some of them). Domain errors
 (:class:`selector.errors.RailwrightError`) become one-line ``click.ClickException``\\ s
 with the error's exit code.
 """
 
 from __future__ import annotations
 
+import difflib
 import importlib
 
 import click
@@ -15,16 +18,16 @@ import click
 from selector import __version__
 from selector.errors import RailwrightError
 
-#: Modules under ``selector.cli`` whose ``COMMANDS`` join the top-level group.
-COMMAND_MODULES: tuple[str, ...] = (
-    "init_command",
-    "parts_commands",
-    "check_command",
-    "seek_command",
-    "approved_commands",
-    "history_command",
-    "report_command",
-)
+#: Top-level command name → the module under ``selector.cli`` whose ``COMMANDS`` holds it.
+COMMAND_MODULES: dict[str, str] = {
+    "init": "init_command",
+    "parts": "parts_commands",
+    "check": "check_command",
+    "seek": "seek_command",
+    "report": "report_command",
+    "approved": "approved_commands",
+    "history": "history_command",
+}
 
 
 class DomainError(click.ClickException):
@@ -53,6 +56,28 @@ class RailwrightGroup(click.Group):
     errors (unknown command or option, missing or bad option value) keep exit 2 but lose
     the usage banner, so every user error reads the same way.
     """
+
+    def list_commands(self, ctx: click.Context) -> list[str]:
+        return sorted(set(super().list_commands(ctx)) | set(COMMAND_MODULES))
+
+    def get_command(self, ctx: click.Context, name: str) -> click.Command | None:
+        command = super().get_command(ctx, name)
+        if command is None and name in COMMAND_MODULES:
+            module = importlib.import_module(f"selector.cli.{COMMAND_MODULES[name]}")
+            for loaded in module.COMMANDS:
+                self.add_command(loaded)
+            command = super().get_command(ctx, name)
+        return command
+
+    def resolve_command(self, ctx: click.Context, args: list[str]):
+        try:
+            return super().resolve_command(ctx, args)
+        except click.UsageError as error:
+            # Click suggests only among commands already loaded; offer the lazy ones too.
+            close = difflib.get_close_matches(args[0], self.list_commands(ctx), n=1) if args else []
+            if close and "Did you mean" not in error.message:
+                error.message += f" Did you mean '{close[0]}'?"
+            raise
 
     def parse_args(self, ctx: click.Context, args: list[str]) -> list[str]:
         try:
@@ -98,8 +123,3 @@ def main(ctx: click.Context, db: str | None) -> None:
 
     ctx.obj = CliState(db_option=db)
 
-
-for _module_name in COMMAND_MODULES:
-    _module = importlib.import_module(f"selector.cli.{_module_name}")
-    for _command in _module.COMMANDS:
-        main.add_command(_command)
