@@ -1238,6 +1238,21 @@ def _record(done, fresh, index, u, current, stack_v, ambient_k, forward, breakdo
     hottest = work(("record", 2), size)
     np.copyto(hottest, ambient_k)
     scratch = work(("record", 3), size)
+    # Worked out for the whole block, the points not verified included: their iterates may
+    # be far out (and overflow), but only verified points, whose voltages are within the
+    # supply's, are stored from here.
+    with np.errstate(over="ignore", invalid="ignore"):
+        _margin_load_and_hottest(forward, breakdown, junction, thermal, zener_v, current, ambient_k, load, hottest, scratch)
+        load *= current
+        np.subtract(1.0, load, out=load)
+        hottest -= ZERO_CELSIUS_K
+    out_margin[where] = load.reshape(-1)[chosen]
+    out_hottest[where] = hottest.reshape(-1)[chosen]
+
+
+def _margin_load_and_hottest(forward, breakdown, junction, thermal, zener_v, current, ambient_k, load, hottest, scratch):
+    """Into ``load`` the most ``V/P_max`` over the slots, into ``hottest`` the hottest settled
+    junction [K]; see :func:`_record`."""
     for f, temperature, (residual_t, _, inverse, settled_v) in zip(forward, junction, thermal, strict=True):
         np.maximum(load, np.multiply(settled_v, f[_F_INVERSE_P_MAX], out=scratch), out=load)
         settled_t = np.multiply(residual_t, inverse, out=scratch)
@@ -1248,8 +1263,3 @@ def _record(done, fresh, index, u, current, stack_v, ambient_k, forward, breakdo
         rise *= voltage
         rise += ambient_k
         np.maximum(hottest, rise, out=hottest)
-    load *= current
-    np.subtract(1.0, load, out=load)
-    hottest -= ZERO_CELSIUS_K
-    out_margin[where] = load.reshape(-1)[chosen]
-    out_hottest[where] = hottest.reshape(-1)[chosen]
