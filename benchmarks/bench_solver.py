@@ -5,8 +5,11 @@ two zener kinds, mixed at random), self-heating on. Two workloads:
 
 * random points: every point its own stack and conditions over a plausible rail range;
 * stack-major: random stacks, each with its own series resistor, at the 32 corners of one
-  rail spec through :func:`selector.corners.evaluate_designs` (which also solves each
-  design's nominal point, not counted in the figure).
+  rail spec, through :func:`selector.corners.evaluate_designs` (which also solves each
+  design's nominal point, not counted in the figure, and reduces the metrics) and through
+  :func:`selector.circuit.solve_stack_corners` alone.
+
+Every figure is given in wall time and in CPU time of the process.
 
 The reference solves a subsample of the random points one at a time with
 ``scipy.optimize.brentq`` on the same model (``selector.devices.stack_voltage``).

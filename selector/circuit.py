@@ -288,7 +288,7 @@ def solve_stack_corners(
     stacks : int array (n, max_len)
         Part indices of each stack, padded with −1.
     supply_v, resistor_ohm, ambient_c : arrays broadcasting to (n, corners) [V], [Ω], [°C]
-        A (1, corners) row is shared by every stack.
+        A (1, corners) row (or a 1-D array of the corners) is shared by every stack.
     tolerance_sign : array broadcasting to (n, corners) [1]
         −1 … +1, applied to every element of the stack at that corner.
     load_current_a, load_conductance_s : arrays broadcasting to (n, corners) [A], [S]
