@@ -24,6 +24,9 @@ from selector.partset import FAMILIES, PartSet
 
 #: Candidate counts above this need ``force``: the search would take minutes or more.
 CANDIDATE_LIMIT = 50_000_000
+#: Candidate counts above this are refused even with ``force``: hours of work and more
+#: index memory than a workstation has.
+FORCED_CANDIDATE_CEILING = 2_000_000_000
 #: Rows per enumerated chunk (about 12 MB of indices at three parts per stack).
 DEFAULT_CHUNK_ROWS = 1 << 19
 
@@ -50,6 +53,12 @@ def check_search_size(part_count: int, max_parts: int, *, force: bool = False) -
         gives the estimate and how to proceed.
     """
     count = candidate_count(part_count, max_parts)
+    if count > FORCED_CANDIDATE_CEILING:
+        raise SearchError(
+            f"max_parts {max_parts} over {part_count} parts makes {count:.3g} candidate stacks, "
+            f"beyond what even --force runs ({FORCED_CANDIDATE_CEILING:.0e}); lower --max-parts "
+            "or narrow --families"
+        )
     if count > CANDIDATE_LIMIT and not force:
         raise SearchError(
             f"max_parts {max_parts} over {part_count} parts makes {count:.3g} candidate stacks "

@@ -83,3 +83,10 @@ def test_million_row_csv_is_refused_with_a_size_message_in_bounded_memory(tmp_pa
     print(f"peak RSS of the refused 1,000,000-row import: {peak_mib:.0f} MiB")
     assert peak_mib < PEAK_RSS_LIMIT_MIB
     assert resource.getrusage(resource.RUSAGE_SELF).ru_maxrss > 0
+
+
+def test_force_never_runs_a_search_beyond_the_ceiling(demo_db):
+    result = CliRunner().invoke(main, ["--db", demo_db, "seek", *SPEC, "--max-parts", "12", "--force"])
+    assert result.exit_code == 1
+    assert result.stderr.startswith("Error: max_parts 12 over 74 parts makes ")
+    assert result.stderr.endswith("beyond what even --force runs (2e+09); lower --max-parts or narrow --families\n")
