@@ -336,7 +336,8 @@ def solve_stack_corners(
             supply, resistor, ambient, load_fixed, load_conductance, sign = block
             part_keys = [[keys[column][chosen] for column, _ in family] for family in slots]
             forward, breakdown = _stack_constants(tables, slots, part_keys, sign, ambient)
-            outcome = _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load_conductance, work)
+            outcome = _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load_conductance, work,
+                                    heated_start=True)  # fmt: skip
             hard = np.flatnonzero(outcome[2] < 0)
             if hard.size:
                 corner_of, stack_of = np.unravel_index(hard, grid)
@@ -667,9 +668,11 @@ FAST_EVALUATIONS = 8
 _FAST_LOOP_GAIN = 0.999
 #: Blended Newton steps on the cold stack's load line that give the fast path its start.
 _START_STEPS = 1
-#: First fast evaluation at which points are checked: at the first the junctions are only
-#: the start's estimate, never within the thermal tolerance.
-_FIRST_CHECK = 1
+#: First fast evaluation at which points are checked. From the cold start the second
+#: evaluation (after one coupled step) is almost never within the tolerances (measured:
+#: 0.01–0.03 % of points), so checking it would cost more than it saves; from the heated
+#: start the first never is (its junctions are only estimates).
+_FIRST_CHECK_COLD, _FIRST_CHECK_HEATED = 2, 1
 
 # Rows of the per-key constant tables (one element with multiplicity m folded in).
 _F_LOG_IS, _F_XTI_N, _F_EG_NKQ, _F_NKQ, _F_XTI_KQ, _F_EG, _F_RS, _F_OFFSET, _F_THETA, _F_PD, _F_TJ_MAX = range(11)
@@ -913,7 +916,8 @@ def _decode_layout(signature: int, width: int, merge: bool) -> tuple[list[tuple[
     return slots[0], slots[1]
 
 
-def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load_conductance, work):
+def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load_conductance, work,
+                  heated_start=False):  # fmt: skip
     """Fast path: coupled Newton without a bracket, from a close start; keeps what it verifies.
 
     ``forward`` and ``breakdown`` hold one constant array per slot (rows as in
@@ -926,13 +930,15 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
 
     The start solves that same form for the stack with every junction at the ambient —
     ``V ≈ A + B·ln I + C·I`` (each forward element conducting, SPICE3 diode; each zener's
-    curve of DESIGN §3 exactly) — then adds self-heating to first order: each slot's
-    settled rise ``θ·I·V/(1 − θ·I·∂V/∂T)`` moves its voltage by ``∂V/∂T`` times it, a term
-    in ``I`` that joins ``C``; one more step on that line, and the junctions start at
-    ``Ta + θ·I·V``. From there one coupled step verifies most points (measured: 96 % of the
-    corner workload of ``benchmarks/bench_solver.py``, 35 % of its random points; the rest
-    one step later). Points not verified within :data:`FAST_EVALUATIONS` come back with
-    status −1.
+    curve of DESIGN §3 exactly). Without ``heated_start`` the first evaluation is taken there
+    with every junction at the ambient, so it needs no logarithm per slot, and points are
+    checked from the third. With it, the start adds self-heating to first order: each
+    slot's settled rise ``θ·I·V/(1 − θ·I·∂V/∂T)`` moves its voltage by ``∂V/∂T`` times it, a
+    term in ``I`` that joins ``C``; one more step on that line, the junctions start at
+    ``Ta + θ·I·V``, and points are checked from the second evaluation. Measured on
+    ``benchmarks/bench_solver.py``: the heated start verifies 96 % of its corner workload
+    after one coupled step (and pays), but only 35 % of its wider random points (and does
+    not). Points not verified within :data:`FAST_EVALUATIONS` come back with status −1.
     """
     grid = np.broadcast_shapes(supply.shape, resistor.shape, ambient.shape, load_fixed.shape, load_conductance.shape)
     count = math.prod(grid)
@@ -972,7 +978,8 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
     cold_v, cold_log_slope, cold_ohmic, n_vt, log_is, scratch = (work(name, size) for name in range(6))
     for buffer in (cold_v, cold_log_slope, cold_ohmic):
         buffer.fill(0.0)
-    # Each forward slot's n·Vt and ln Is at the ambient, kept for the self-heating start.
+    # Each forward slot's n·Vt and ln Is at the ambient, kept for the first evaluation or the
+    # heated start.
     cold = [(work(("cold n_vt", j), size), work(("cold ln Is", j), size)) for j in range(len(forward))]
     for f, (slot_n_vt, slot_log_is) in zip(forward, cold, strict=True):
         np.multiply(f[_F_NKQ], ambient_k, out=slot_n_vt)
@@ -1003,54 +1010,18 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
     for _ in range(_START_STEPS):
         _line_step(u, line_k, line_p, line_q, lo, hi, exponential, falling, delta, work(6, size))
 
-    # Self-heating in the start: a slot's voltage moves by ∂V/∂T·θ·I·V, a term in I like its
-    # ohmic one. With ∂V/∂T and V of the start so far (SPICE3 diode at the ambient, zener
-    # tc), the load line takes it as more resistance, one more step follows, and each
-    # junction starts at Ta + θ·I·V instead of at the ambient.
-    start_current = np.exp(u, out=work("start_current", size))
-    product, gain = work(7, size), work(8, size)
-    slot_v = []
-    for f, (slot_n_vt, slot_log_is) in zip(forward, cold, strict=True):
-        log_part = np.subtract(u, slot_log_is, out=work(("start v", len(slot_v)), size))
-        log_part *= slot_n_vt
-        dv_dt = np.multiply(f[_F_XTI_KQ], ambient_k, out=product)
-        dv_dt += f[_F_EG]
-        np.subtract(log_part, dv_dt, out=dv_dt)
-        dv_dt *= inverse_ambient
-        voltage = np.add(log_part, f[_F_OFFSET], out=log_part)
-        voltage += np.multiply(f[_F_RS], start_current, out=gain)
-        # The junction's own loop gain g = θ·I·∂V/∂T settles the rise at θ·I·V/(1 − g).
-        dv_dt *= f[_F_THETA]
-        np.multiply(dv_dt, start_current, out=gain)
-        np.subtract(1.0, gain, out=gain)
-        np.maximum(gain, 1.0 - RUNAWAY_LOOP_GAIN, out=gain)
-        dv_dt *= voltage
-        dv_dt /= gain
-        line_p += np.multiply(load_gain, dv_dt, out=dv_dt)
-        slot_v.append(voltage)
-    for z in breakdown:
-        voltage = np.multiply(z[_Z_A], u, out=product)
-        voltage += z[_Z_OFFSET]
-        voltage += np.multiply(z[_Z_RZ], start_current, out=gain)
-        voltage *= z[_Z_TC]
-        voltage *= z[_Z_THETA]
-        np.multiply(z[_Z_LOOP], start_current, out=gain)
-        np.subtract(1.0, gain, out=gain)
-        voltage /= gain
-        line_p += np.multiply(load_gain, voltage, out=voltage)
-    _line_step(u, line_k, line_p, line_q, lo, hi, exponential, falling, delta, work(6, size))
-    np.exp(u, out=start_current)
-    junction = []
-    for f, voltage in zip(forward, slot_v, strict=True):
-        temperature = f[_F_THETA] * start_current
-        temperature *= voltage
-        temperature += ambient_k
-        junction.append(np.maximum(temperature, ambient_k, out=temperature))
+    if heated_start:
+        junction = _heated_start(forward, breakdown, cold, u, ambient_k, inverse_ambient, load_gain, line_k, line_p,
+                                 line_q, lo, hi, work, size)  # fmt: skip
+    else:
+        junction = [np.broadcast_to(ambient_k, size).copy() for _ in forward]
+    first_check = _FIRST_CHECK_HEATED if heated_start else _FIRST_CHECK_COLD
     thermal = [None] * len(forward)  # per slot: residual, its u-slope, 1/(1 − g), settled voltage
     zener_v = [None] * len(breakdown)
     pending = np.ones(u.shape, dtype=bool)
     for evaluation in range(FAST_EVALUATIONS):
-        checking = evaluation >= _FIRST_CHECK
+        at_ambient = evaluation == 0 and not heated_start
+        checking = evaluation >= first_check
         size = u.shape
         minus_x, tail, log_term, n_vt, ohmic, dv_dt, heating, log_t, inverse_t, scratch = (
             work(name, size) for name in range(10)
@@ -1064,11 +1035,16 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
             buffer.fill(0.0)
         for j, f in enumerate(forward):
             temperature = junction[j]
-            log_tj = np.log(temperature, out=log_t)
-            inverse_tj = np.divide(1.0, temperature, out=inverse_t)
-            np.multiply(f[_F_XTI_N], log_tj, out=minus_x)
-            minus_x -= np.multiply(f[_F_EG_NKQ], inverse_tj, out=scratch)
-            minus_x += f[_F_LOG_IS]
+            if at_ambient:
+                # Junctions still at the ambient: n·Vt and ln Is are the start's (used up here).
+                log_tj, inverse_tj = log_ambient, inverse_ambient
+                n_vt, minus_x = cold[j]
+            else:
+                log_tj = np.log(temperature, out=log_t)
+                inverse_tj = np.divide(1.0, temperature, out=inverse_t)
+                np.multiply(f[_F_XTI_N], log_tj, out=minus_x)
+                minus_x -= np.multiply(f[_F_EG_NKQ], inverse_tj, out=scratch)
+                minus_x += f[_F_LOG_IS]
             minus_x -= u
             np.maximum(minus_x, -700.0, out=minus_x)
             np.minimum(minus_x, 700.0, out=minus_x)
@@ -1077,7 +1053,8 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
             log_term -= minus_x
             fraction = np.add(tail, 1.0, out=tail)
             np.divide(1.0, fraction, out=fraction)
-            np.multiply(f[_F_NKQ], temperature, out=n_vt)
+            if not at_ambient:
+                np.multiply(f[_F_NKQ], temperature, out=n_vt)
             np.multiply(f[_F_RS], current, out=ohmic)
             residual_t, slope_r, inverse, voltage = (work((j, name), size) for name in range(4))
             np.multiply(n_vt, log_term, out=voltage)
@@ -1090,8 +1067,11 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
             dv_dt *= fraction
             np.subtract(np.multiply(f[_F_NKQ], log_term, out=log_term), dv_dt, out=dv_dt)
             np.multiply(f[_F_THETA], current, out=heating)
-            np.subtract(temperature, ambient_k, out=residual_t)
-            residual_t -= np.multiply(heating, voltage, out=ohmic)
+            if at_ambient:  # Tj − Ta is exactly 0 there
+                np.negative(np.multiply(heating, voltage, out=residual_t), out=residual_t)
+            else:
+                np.subtract(temperature, ambient_k, out=residual_t)
+                residual_t -= np.multiply(heating, voltage, out=ohmic)
             gain = np.multiply(heating, dv_dt, out=fraction)
             if checking:
                 np.maximum(worst_gain, gain, out=worst_gain)
@@ -1178,6 +1158,60 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
             temperature -= residual_t
             np.maximum(temperature, ambient_k, out=temperature)
     return out_u, out_v, status, out_margin, out_hottest
+
+
+def _heated_start(forward, breakdown, cold, u, ambient_k, inverse_ambient, load_gain, line_k, line_p, line_q, lo, hi,
+                  work, size):  # fmt: skip
+    """Self-heating in the start of :func:`_newton_block`, in place on ``u`` and ``line_p``;
+    returns each forward slot's starting junction [K].
+
+    A slot's voltage moves by ``∂V/∂T·θ·I·V/(1 − θ·I·∂V/∂T)`` (its settled rise, DESIGN §3
+    self-heating, to first order), a term in ``I`` like its ohmic one. With ``∂V/∂T`` and
+    ``V`` of the start so far (SPICE3 diode at the ambient, from each slot's ``cold`` n·Vt
+    and ln Is; zener tc) the load line takes it as more resistance, one more step follows,
+    and each junction starts at ``Ta + θ·I·V`` instead of at the ambient.
+    """
+    exponential, falling, delta = work(3, size), work(4, size), work(5, size)
+    start_current = np.exp(u, out=work("start_current", size))
+    product, gain = work(7, size), work(8, size)
+    slot_v = []
+    for f, (slot_n_vt, slot_log_is) in zip(forward, cold, strict=True):
+        log_part = np.subtract(u, slot_log_is, out=work(("start v", len(slot_v)), size))
+        log_part *= slot_n_vt
+        dv_dt = np.multiply(f[_F_XTI_KQ], ambient_k, out=product)
+        dv_dt += f[_F_EG]
+        np.subtract(log_part, dv_dt, out=dv_dt)
+        dv_dt *= inverse_ambient
+        voltage = np.add(log_part, f[_F_OFFSET], out=log_part)
+        voltage += np.multiply(f[_F_RS], start_current, out=gain)
+        # The junction's own loop gain g = θ·I·∂V/∂T settles the rise at θ·I·V/(1 − g).
+        dv_dt *= f[_F_THETA]
+        np.multiply(dv_dt, start_current, out=gain)
+        np.subtract(1.0, gain, out=gain)
+        np.maximum(gain, 1.0 - RUNAWAY_LOOP_GAIN, out=gain)
+        dv_dt *= voltage
+        dv_dt /= gain
+        line_p += np.multiply(load_gain, dv_dt, out=dv_dt)
+        slot_v.append(voltage)
+    for z in breakdown:
+        voltage = np.multiply(z[_Z_A], u, out=product)
+        voltage += z[_Z_OFFSET]
+        voltage += np.multiply(z[_Z_RZ], start_current, out=gain)
+        voltage *= z[_Z_TC]
+        voltage *= z[_Z_THETA]
+        np.multiply(z[_Z_LOOP], start_current, out=gain)
+        np.subtract(1.0, gain, out=gain)
+        voltage /= gain
+        line_p += np.multiply(load_gain, voltage, out=voltage)
+    _line_step(u, line_k, line_p, line_q, lo, hi, exponential, falling, delta, work(6, size))
+    np.exp(u, out=start_current)
+    junction = []
+    for f, voltage in zip(forward, slot_v, strict=True):
+        temperature = f[_F_THETA] * start_current
+        temperature *= voltage
+        temperature += ambient_k
+        junction.append(np.maximum(temperature, ambient_k, out=temperature))
+    return junction
 
 
 def _line_step(u, line_k, line_p, line_q, lo, hi, exponential, falling, delta, scratch):

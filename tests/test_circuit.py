@@ -289,13 +289,16 @@ def test_stack_corners_match_the_point_by_point_solve(parts, shared):
     assert grid.vout_v.shape == shape
     np.testing.assert_array_equal(grid.status.reshape(-1), points.status)
     assert 0.3 < grid.solved.mean() < 1.0  # both solved and flagged points are covered
-    # Same equations and acceptance test, so the same answer to far inside the tolerances.
-    for name, atol in (("vout_v", 1e-12), ("stack_current_a", 1e-18), ("load_current_a", 1e-18),
-                       ("resistor_power_w", 1e-15), ("kcl_residual_v", 1e-12), ("hottest_junction_c", 1e-9)):  # fmt: skip
-        np.testing.assert_allclose(getattr(grid, name).reshape(-1), getattr(points, name), rtol=1e-12, atol=atol)
+    # Same equations and acceptance test from different starts (the stack-major one takes
+    # self-heating in): both stop at |KCL| <= 0.1 nV, so they agree to the tolerances of the
+    # fast path against the safeguarded solver above.
+    for name, rtol, atol in (("vout_v", 0, 1e-9), ("stack_current_a", 1e-8, 1e-15), ("load_current_a", 1e-8, 1e-15),
+                             ("resistor_power_w", 2e-8, 1e-15), ("hottest_junction_c", 0, 1e-6)):  # fmt: skip
+        np.testing.assert_allclose(getattr(grid, name).reshape(-1), getattr(points, name), rtol=rtol, atol=atol)
+    assert np.max(np.abs(grid.kcl_residual_v)) <= 1e-9  # DESIGN §3 circuit equation, 1 nV
     np.testing.assert_array_equal(grid.worst_element_margin.reshape(-1) == -np.inf, points.worst_element_margin == -np.inf)
     ok = points.solved
-    np.testing.assert_allclose(grid.worst_element_margin.reshape(-1)[ok], points.worst_element_margin[ok], rtol=0, atol=1e-12)
+    np.testing.assert_allclose(grid.worst_element_margin.reshape(-1)[ok], points.worst_element_margin[ok], rtol=0, atol=1e-9)
 
 
 def test_stack_corners_meet_kcl_and_steady_state_junctions(parts):
