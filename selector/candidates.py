@@ -53,7 +53,7 @@ def check_search_size(part_count: int, max_parts: int, *, force: bool = False) -
         gives the estimate and how to proceed.
     """
     count = candidate_count(part_count, max_parts)
-    if count > FORCED_CANDIDATE_CEILING:
+    if force and count > FORCED_CANDIDATE_CEILING:
         raise SearchError(
             f"max_parts {max_parts} over {part_count} parts makes {count:.3g} candidate stacks, "
             f"beyond what even --force runs ({FORCED_CANDIDATE_CEILING:.0e}); lower --max-parts "
