@@ -120,7 +120,9 @@ def test_bad_inputs_raise_one_line_errors():
         usable_parts(parts, usable_mask=np.zeros(len(parts), dtype=bool))
     with pytest.raises(SearchError, match=r"^max_parts 12 over 300 parts makes 1\.43e\+21 candidate stacks \(limit 5e\+07\)"):
         check_search_size(300, 12)
-    assert check_search_size(300, 12, force=True) > 10**16
+    assert check_search_size(300, 4, force=True) > 5 * 10**7  # over the limit, forced through
+    with pytest.raises(SearchError, match=r"beyond what even --force runs \(2e\+09\)"):
+        check_search_size(300, 12, force=True)
 
 
 def random_invented_library(seed: int) -> PartSet:
