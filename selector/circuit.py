@@ -60,6 +60,9 @@ LEAST_CURRENT_A = 1e-15
 KCL_TOLERANCE_V = 1e-10
 #: Thermal residual at which a forward junction counts as settled [K].
 THERMAL_TOLERANCE_K = 1e-7
+#: Highest junction temperature the bracketed solver lets an iterate reach [°C]; far above
+#: every rating, it keeps trial steps finite (a junction there is treated as runaway).
+JUNCTION_CEILING_C = 5000.0
 #: Iterations before a point is given up as not converged.
 MAX_ITERATIONS = 120
 #: Points solved together; keeps the working set in cache and memory proportional to it.
@@ -601,7 +604,9 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
         stack_v = (fw.multiplicity * v_settled).sum(axis=0) + (zn.multiplicity * v_z).sum(axis=0)
         stack_slope = (fw.multiplicity * slope_f).sum(axis=0) + (zn.multiplicity * slope_z).sum(axis=0)
         worst_gain = np.maximum(gain_f.max(axis=0, initial=-np.inf), gain_z.max(axis=0, initial=-np.inf))
-        runaway = worst_gain >= RUNAWAY_LOOP_GAIN
+        # A junction at the ceiling is far past every rating: too much current, like runaway.
+        overheated = (junction_f >= JUNCTION_CEILING_C).any(axis=0) if junction_f.size else np.zeros(u.size, bool)
+        runaway = (worst_gain >= RUNAWAY_LOOP_GAIN) | overheated
         unsettled = np.abs(thermal_residual).max(axis=0, initial=0.0) > THERMAL_TOLERANCE_K
 
         load_gain_w = work["load_gain"]
@@ -635,7 +640,8 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
         # a converged point) and so no longer belongs to the solution.
         settled_junction_f = junction_f - thermal_residual / headroom_f
         # Coupled Newton update of the forward junctions (Schur complement of the thermal rows).
-        junction_f = np.maximum(junction_f - (thermal_residual + dr_du * (new_u - u)) / headroom_f, fw.ambient)
+        junction_f = np.clip(junction_f - (thermal_residual + dr_du * (new_u - u)) / headroom_f,
+                             fw.ambient, JUNCTION_CEILING_C)
         work.update(u=new_u, lo=lo_w, hi=hi_w, seen_positive=seen_positive, seen_negative=seen_negative)
 
         if finished.any():
