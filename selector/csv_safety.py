@@ -19,6 +19,7 @@ import contextlib
 import csv
 import io
 import math
+import sys
 from collections.abc import Iterable, Mapping, Sequence
 from pathlib import Path
 from typing import TextIO
@@ -75,12 +76,15 @@ def write_rows(
     Parameters
     ----------
     destination : path or text stream
-        A file path (written as UTF-8, replaced only once complete) or an open stream.
+        A file path (written as UTF-8, replaced only once complete), ``"-"`` for standard
+        output, or an open stream. An unwritable path raises ``OptionError`` naming it.
     columns : sequence of str
         Header, in order; keys missing from a row are written empty.
     rows : iterable of mapping
         The rows.
     """
+    if destination == "-":
+        destination = sys.stdout
     if isinstance(destination, (str, Path)):
         path = Path(destination)
         buffer = io.StringIO()

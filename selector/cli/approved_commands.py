@@ -2,28 +2,16 @@
 
 from __future__ import annotations
 
-import sys
-
 import click
 
 from selector.catalog import approved_lists, list_changes
 from selector.catalog.approved_list_csv import import_list_file, load_list_csv, write_list_csv
 from selector.catalog.part_sheet import format_table
-from selector.errors import InputDataError
 from selector.spec import LIST_STATUSES
 
 _BY_HELP = "Who makes the change (default: your login name)."
 _REASON_HELP = "Why (required), e.g. 'qualified on line A, report 17'."
 _STATUS_LIST = ", ".join(LIST_STATUSES)
-
-
-def _write(destination: str, rows) -> int:
-    if destination == "-":
-        return write_list_csv(sys.stdout, rows)
-    try:
-        return write_list_csv(destination, rows)
-    except OSError as error:
-        raise InputDataError(f"{destination}: cannot write ({error.strerror or error})") from None
 
 
 @click.group("approved")
@@ -151,7 +139,7 @@ def show_command(state, list_name: str, status: str | None, csv_path: str | None
     """
     rows = approved_lists.list_entries(state.library(), list_name, status and status.strip().lower())
     if csv_path == "-":
-        _write("-", rows)
+        write_list_csv("-", rows)
         return
     if rows:
         columns = ("part", "status", "since", "by", "reason", "condition")
@@ -162,7 +150,7 @@ def show_command(state, list_name: str, status: str | None, csv_path: str | None
     else:
         click.echo(f"no parts on the list '{list_name}'" + (f" with status {status}" if status else ""))
     if csv_path:
-        count = _write(csv_path, rows)
+        count = write_list_csv(csv_path, rows)
         click.echo(f"wrote {count} entries to {csv_path}", err=True)
 
 
@@ -208,7 +196,7 @@ def export_command(state, list_name: str, csv_file: str) -> None:
     Example:
       railwright approved export line-a line-a.csv
     """
-    count = _write(csv_file, approved_lists.list_entries(state.library(), list_name))
+    count = write_list_csv(csv_file, approved_lists.list_entries(state.library(), list_name))
     if csv_file != "-":
         click.echo(f"wrote {count} entries of '{list_name}' to {csv_file}")
 

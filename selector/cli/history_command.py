@@ -2,13 +2,10 @@
 
 from __future__ import annotations
 
-import sys
-
 import click
 
 from selector.catalog.audit import HISTORY_COLUMNS, history, parse_since
 from selector.csv_safety import write_rows
-from selector.errors import InputDataError
 
 #: Longest old or new value shown on the terminal; ``--csv`` keeps every character.
 SHOWN_VALUE_LIMIT = 100
@@ -55,7 +52,7 @@ def history_command(state, part: str | None, list_name: str | None, since: str |
         since=parse_since(since) if since is not None else None,
     )
     if csv_path == "-":
-        write_rows(sys.stdout, HISTORY_COLUMNS, rows)
+        write_rows("-", HISTORY_COLUMNS, rows)
         return
     if rows:
         for row in rows:
@@ -63,10 +60,7 @@ def history_command(state, part: str | None, list_name: str | None, since: str |
     else:
         click.echo("no events")
     if csv_path:
-        try:
-            count = write_rows(csv_path, HISTORY_COLUMNS, rows)
-        except OSError as error:
-            raise InputDataError(f"{csv_path}: cannot write ({error.strerror or error})") from None
+        count = write_rows(csv_path, HISTORY_COLUMNS, rows)
         click.echo(f"wrote {count} events to {csv_path}", err=True)
 
 

@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-import sys
-
 import click
 
 from selector.catalog.fit_records import fitted_parts_file, parse_points
@@ -11,7 +9,7 @@ from selector.catalog.model_cards import load_model_cards
 from selector.catalog.part_sheet import format_table, list_rows, part_sheet
 from selector.catalog.parts_export import write_parts_csv
 from selector.catalog.parts_import import ImportPlan, load_parts_csv, parse_column_settings
-from selector.errors import InputDataError, UnknownPartError
+from selector.errors import UnknownPartError
 from selector.fitting import fit_forward_points
 from selector.partset import FAMILIES
 from selector.units import format_quantity
@@ -32,15 +30,6 @@ def _report(plan: ImportPlan, label: str, dry_run: bool) -> None:
         click.echo(f"dry run, nothing written: {label}: {plan.summary()}")
     else:
         click.echo(f"imported {label}: {plan.summary()}")
-
-
-def _write_csv(destination: str, records) -> int:
-    if destination == "-":
-        return write_parts_csv(sys.stdout, records)
-    try:
-        return write_parts_csv(destination, records)
-    except OSError as error:
-        raise InputDataError(f"{destination}: cannot write ({error.strerror or error})") from None
 
 
 @click.group("parts")
@@ -70,14 +59,14 @@ def list_command(state, families: tuple[str, ...], csv_path: str | None) -> None
     """
     records = state.library().part_records([family.lower() for family in families] or None)
     if csv_path == "-":
-        _write_csv("-", records)
+        write_parts_csv("-", records)
         return
     if records:
         click.echo(format_table(list_rows(records), _LIST_COLUMNS))
     else:
         click.echo("no parts" + (f" of family {', '.join(families)}" if families else ""))
     if csv_path:
-        count = _write_csv(csv_path, records)
+        count = write_parts_csv(csv_path, records)
         click.echo(f"wrote {count} parts to {csv_path}", err=True)
 
 
@@ -203,7 +192,7 @@ def export_command(state, csv_file: str, families: tuple[str, ...]) -> None:
       railwright parts export zeners.csv --family zener
     """
     records = state.library().part_records([family.lower() for family in families] or None)
-    count = _write_csv(csv_file, records)
+    count = write_parts_csv(csv_file, records)
     if csv_file != "-":
         click.echo(f"wrote {count} parts to {csv_file}")
 
