@@ -29,7 +29,8 @@ arithmetic as :func:`solve_operating_points`.
 
 Points without a physical solution are flagged, never NaN: the load draws more than the
 supply can give through ``R``; the stack current would be below 1 fA; an element reaches
-electro-thermal loop gain ``θ·I·∂V/∂T ≥ 1`` (thermal runaway); or the iteration did not
+electro-thermal loop gain ``θ·I·∂V/∂T ≥ 1``, or a junction would settle above
+:data:`~selector.devices.JUNCTION_CEILING_C` (thermal runaway); or the iteration did not
 converge.
 
 References
@@ -48,6 +49,7 @@ import numpy as np
 
 from selector.devices import (
     BOLTZMANN_OVER_CHARGE_V_PER_K,
+    JUNCTION_CEILING_C,
     RUNAWAY_LOOP_GAIN,
     ZERO_CELSIUS_K,
     self_heated_element,
@@ -60,9 +62,6 @@ LEAST_CURRENT_A = 1e-15
 KCL_TOLERANCE_V = 1e-10
 #: Thermal residual at which a forward junction counts as settled [K].
 THERMAL_TOLERANCE_K = 1e-7
-#: Highest junction temperature the bracketed solver lets an iterate reach [°C]; far above
-#: every rating, it keeps trial steps finite (a junction there is treated as runaway).
-JUNCTION_CEILING_C = 5000.0
 #: Iterations before a point is given up as not converged.
 MAX_ITERATIONS = 120
 #: Points solved together; keeps the working set in cache and memory proportional to it.
@@ -238,7 +237,9 @@ def solve_operating_points(
 def _assembled(log_current, vout, status, worst_margin, hottest, supply, resistor, ambient, load_fixed, load_conductance):
     """The fields of :class:`OperatingPoints` from the solved state (in place; any shape):
     load ``I_Lc + G_L·Vout``, resistor power ``R·(I + I_L)²`` and the KCL residual, with
-    every unsolved point set to its flagged values."""
+    every unsolved point set to its flagged values. A junction above
+    :data:`~selector.devices.JUNCTION_CEILING_C` is no physical steady state: runaway."""
+    status[(status == STATUS_SOLVED) & (hottest > JUNCTION_CEILING_C)] = STATUS_RUNAWAY
     unsolved = np.nonzero(status != STATUS_SOLVED)
     log_current[unsolved] = 0.0
     current = np.exp(log_current)
@@ -650,8 +651,11 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
             out_v[where] = stack_v[finished]
             # Element margin 1 − V·I/P_max and the hottest junction, at the solution.
             i_done = current[finished]
-            load_f = (v_settled[:, finished] * i_done * fw.inverse_p_max[:, finished]).max(axis=0, initial=0.0)
-            load_z = (v_z[:, finished] * i_done * zn.inverse_p_max[:, finished]).max(axis=0, initial=0.0)
+            # An ambient at or above Tjmax leaves no allowed power (1/P_max = 1e300): the
+            # margin overflows to −inf, which is what it is (as in the fast path's _record).
+            with np.errstate(over="ignore"):
+                load_f = (v_settled[:, finished] * i_done * fw.inverse_p_max[:, finished]).max(axis=0, initial=0.0)
+                load_z = (v_z[:, finished] * i_done * zn.inverse_p_max[:, finished]).max(axis=0, initial=0.0)
             out_margin[where] = 1.0 - np.maximum(load_f, load_z)
             out_hottest[where] = np.maximum(
                 np.maximum(settled_junction_f[:, finished].max(axis=0, initial=-np.inf), ambient[where]),

@@ -40,8 +40,13 @@ from selector.partset import PartSet
 BOLTZMANN_OVER_CHARGE_V_PER_K: float = constants.k / constants.e
 #: Offset from °C to K.
 ZERO_CELSIUS_K: float = constants.zero_Celsius
-#: Newton steps allowed for the forward element's junction temperature.
-_THERMAL_NEWTON_STEPS = 30
+#: Iterations allowed for the forward element's junction temperature (bisection alone
+#: narrows the bracket below the tolerance in 43).
+_THERMAL_ITERATIONS = 80
+#: Highest junction temperature a solution may have [°C]. Far above every rating: a junction
+#: that would settle above it has no physical steady state (the part is destroyed long
+#: before), and the solvers report it as thermal runaway.
+JUNCTION_CEILING_C = 5000.0
 #: Convergence of that solve [K].
 _THERMAL_TOLERANCE_K = 1e-9
 #: Loop gains at or above this count as runaway (no thermal steady state).
@@ -399,25 +404,37 @@ def _breakdown_steady_state(u, ambient, theta, sign, vz, izt, tol, tc, tnom, a, 
 
 
 def _forward_steady_state(u, ambient, theta, sign, guess, fields):
+    """Forward junction at ``Tj − Ta − θ·I·V(I, Tj) = 0``, by Newton's method kept inside a
+    bracket that starts as ``[Ta, JUNCTION_CEILING_C]``, with bisection where a step would
+    leave it or the slope ``1 − θ·I·∂V/∂T`` is not positive (the loop gain of the junction at
+    or above 1 there, as it can be at the ambient far past a part's rating). A forward element
+    is never colder than ambient (V·I ≥ 0). A residual still negative at the ceiling, or not
+    settled, is runaway."""
     current = np.exp(u)
     heating = theta * current
-    junction = np.array(guess, dtype=float, copy=True)
+    low = np.array(ambient, dtype=float, copy=True)
+    high = np.full(u.shape, JUNCTION_CEILING_C)
+    junction = np.clip(guess, low, high)
     active = np.ones(u.shape, dtype=bool)
-    for _ in range(_THERMAL_NEWTON_STEPS):
+    for _ in range(_THERMAL_ITERATIONS):
         index = np.flatnonzero(active)
         if index.size == 0:
             break
         sub = [f[index] for f in fields]
-        v, _, dt = forward_voltage_slopes(u[index], junction[index], *sub, sign[index])
-        residual = junction[index] - ambient[index] - heating[index] * v
+        temperature = junction[index]
+        v, _, dt = forward_voltage_slopes(u[index], temperature, *sub, sign[index])
+        residual = temperature - ambient[index] - heating[index] * v
+        below = residual < 0.0
+        lo = np.where(below, temperature, low[index])
+        hi = np.where(below, high[index], temperature)
+        low[index], high[index] = lo, hi
         slope = 1.0 - heating[index] * dt
-        safe = slope > 1.0 - RUNAWAY_LOOP_GAIN
-        step = np.where(safe, residual / np.where(safe, slope, 1.0), 0.0)
-        junction[index] -= step
-        # A forward element is never colder than ambient (V·I ≥ 0); clipping there keeps the
-        # iterate where the model is defined.
-        junction[index] = np.maximum(junction[index], ambient[index])
-        active[index] = safe & (np.abs(step) > _THERMAL_TOLERANCE_K)
+        rising = slope > 1.0 - RUNAWAY_LOOP_GAIN
+        newton = temperature - residual / np.where(rising, slope, 1.0)
+        inside = rising & (newton >= lo) & (newton <= hi)
+        new = np.where(inside, newton, 0.5 * (lo + hi))
+        junction[index] = new
+        active[index] = (np.abs(new - temperature) > _THERMAL_TOLERANCE_K) & (hi - lo > _THERMAL_TOLERANCE_K)
     voltage, du, dt = forward_voltage_slopes(u, junction, *fields, sign)
     residual = np.abs(junction - ambient - heating * voltage)
     total_du, loop_gain, runaway = self_heated_slope(current, voltage, du, dt, theta)

@@ -10,6 +10,7 @@ from scipy.special import wrightomega
 from selector import circuit
 from selector.circuit import (
     STATUS_BELOW_LEAST_CURRENT,
+    STATUS_RUNAWAY,
     STATUS_SOLVED,
     STATUS_SUPPLY_EXHAUSTED,
     family_slots,
@@ -127,10 +128,11 @@ def test_extremes_of_current_and_temperature_are_safe(parts):
     with np.errstate(all="raise"):
         op = solve_operating_points(parts, stacks, supply, resistor, ambient, 1.0, detail=True)
     assert np.all(np.isfinite(op.vout_v)) and np.all(np.isfinite(op.junction_c))
-    assert op.solved.all()
+    # Amperes through a signal diode (points 1 and 3) would settle its junction past
+    # devices.JUNCTION_CEILING_C (near 21,000 °C and 9,000 °C): no physical steady state.
+    assert op.status.tolist() == [STATUS_SOLVED, STATUS_RUNAWAY, STATUS_SOLVED, STATUS_RUNAWAY]
     assert 1e-13 < op.stack_current_a[0] < 1e-9  # picoamps
-    assert op.stack_current_a[1] > 5.0  # amperes: far over its rating, but solved
-    assert op.worst_element_margin[1] < 0
+    assert op.worst_element_margin[2] < 0  # an ambient of 200 °C leaves the parts no allowed power
 
 
 def test_equal_parts_and_padding_give_the_same_answer_as_spelled_out(parts):
