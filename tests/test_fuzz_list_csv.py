@@ -20,7 +20,12 @@ from click.testing import CliRunner
 from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
-from selector.catalog.approved_list_csv import EXPORT_COLUMNS, LIST_COLUMNS, import_list_file, load_list_csv
+from selector.catalog.approved_list_csv import (
+    EXPORT_COLUMNS,
+    LIST_COLUMNS,
+    import_list_file,
+    load_list_csv,
+)
 from selector.catalog.approved_lists import list_entries
 from selector.catalog.audit import history
 from selector.catalog.store import open_library
