@@ -9,12 +9,14 @@ two zener kinds, mixed at random), self-heating on. Two workloads:
   design's nominal point, not counted in the figure, and reduces the metrics) and through
   :func:`selector.circuit.solve_stack_corners` alone.
 
-Every figure is given in wall time and in CPU time of the process.
+Every vectorised workload runs ``--repeat`` times; the figures are the median run's and the
+best run's, in wall time and in CPU time of the process (CPU time is less affected by
+other work on the machine, but a busy neighbour core still slows the shared caches).
 
 The reference solves a subsample of the random points one at a time with
 ``scipy.optimize.brentq`` on the same model (``selector.devices.stack_voltage``).
 
-Run:  python benchmarks/bench_solver.py [--points N] [--stacks S] [--reference M]
+Run:  python benchmarks/bench_solver.py [--points N] [--stacks S] [--reference M] [--repeat K]
 """
 
 from __future__ import annotations
@@ -80,6 +82,23 @@ def brentq_point(parts, stack, supply, resistor, ambient, sign, load):
     return brentq(residual, 1e-15, (supply - resistor * load) / resistor, xtol=1e-15, rtol=1e-12)
 
 
+def timed(solve, repeat: int):
+    """``solve()`` run ``repeat`` times: its last result, and the wall and CPU seconds of each run."""
+    wall, cpu = [], []
+    for _ in range(repeat):
+        start, start_cpu = time.perf_counter(), time.process_time()
+        result = solve()
+        wall.append(time.perf_counter() - start)
+        cpu.append(time.process_time() - start_cpu)
+    return result, np.array(wall), np.array(cpu)
+
+
+def rates(points: int, wall: np.ndarray, cpu: np.ndarray) -> str:
+    """Median and best points per second, wall and CPU."""
+    return (f"median {points / np.median(wall):,.0f} points/s (wall), {points / np.median(cpu):,.0f} (CPU); "
+            f"best {points / wall.min():,.0f} (wall), {points / cpu.min():,.0f} (CPU); {wall.size} runs")  # fmt: skip
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(
         description=__doc__.splitlines()[0],
@@ -88,17 +107,16 @@ def main() -> None:
     parser.add_argument("--points", type=int, default=1_000_000)
     parser.add_argument("--stacks", type=int, default=31_250)
     parser.add_argument("--reference", type=int, default=300)
+    parser.add_argument("--repeat", type=int, default=5, help="runs of each vectorised workload (default 5)")
     args = parser.parse_args()
     parts = PartSet.from_records(INVENTED_PARTS)
 
     stacks, supply, resistor, ambient, sign, load = conditions(args.points)
     solve_operating_points(parts, stacks[:20000], supply[:20000], resistor[:20000], ambient[:20000],
                            sign[:20000], load[:20000])  # fmt: skip  # warm-up
-    start, start_cpu = time.perf_counter(), time.process_time()
-    op = solve_operating_points(parts, stacks, supply, resistor, ambient, sign, load)
-    vector_seconds = time.perf_counter() - start
-    vector_cpu_seconds = time.process_time() - start_cpu
-    vector_rate = args.points / vector_seconds
+    op, wall, cpu = timed(lambda: solve_operating_points(parts, stacks, supply, resistor, ambient, sign, load),
+                          args.repeat)  # fmt: skip
+    vector_rate = args.points / np.median(wall)
 
     picked = np.random.default_rng(2).choice(args.points, args.reference, replace=False)
     start = time.perf_counter()
@@ -109,41 +127,31 @@ def main() -> None:
     scalar_rate = args.reference / scalar_seconds
     agreement = np.max(np.abs(np.array(reference) - op.stack_current_a[picked]) / np.array(reference))
 
-    print(f"vectorised solver: {args.points} four-element stack-corner points with self-heating "
-          f"in {vector_seconds:.3f} s = {vector_rate:,.0f} points/s (one process)")  # fmt: skip
-    print(f"  CPU time {vector_cpu_seconds:.3f} s = {args.points / vector_cpu_seconds:,.0f} points/s "
-          "(process time: less affected by other work on the machine)")  # fmt: skip
+    print(f"random points (solve_operating_points): {args.points} four-element stack-corner points with "
+          f"self-heating, one process: {rates(args.points, wall, cpu)}")  # fmt: skip
     print(f"  solved {op.solved.mean():.4%}; largest |KCL residual| {np.max(np.abs(op.kcl_residual_v)):.2e} V")
     print(f"per-point brentq loop: {args.reference} points in {scalar_seconds:.3f} s = {scalar_rate:,.0f} points/s")
-    print(f"speed-up: {vector_rate / scalar_rate:,.0f}x; largest relative current difference {agreement:.2e}")
+    print(f"speed-up (median vectorised run): {vector_rate / scalar_rate:,.0f}x; "
+          f"largest relative current difference {agreement:.2e}")  # fmt: skip
 
     stacks, resistor = designs(args.stacks)
     evaluate_designs(parts, stacks[:1000], resistor[:1000], BENCH_SPEC)  # warm-up
-    start, start_cpu = time.perf_counter(), time.process_time()
-    evaluation = evaluate_designs(parts, stacks, resistor, BENCH_SPEC)
-    design_seconds = time.perf_counter() - start
-    design_cpu_seconds = time.process_time() - start_cpu
+    evaluation, wall, cpu = timed(lambda: evaluate_designs(parts, stacks, resistor, BENCH_SPEC), args.repeat)
     corner_points = args.stacks * CORNER_COUNT
     print(f"stack-major (evaluate_designs): {args.stacks} four-element stacks x {CORNER_COUNT} corners = "
-          f"{corner_points} stack-corner points in {design_seconds:.3f} s = "
-          f"{corner_points / design_seconds:,.0f} points/s (wall)")  # fmt: skip
-    print(f"  CPU time {design_cpu_seconds:.3f} s = {corner_points / design_cpu_seconds:,.0f} points/s; "
-          f"every corner solved for {evaluation.solved.mean():.2%} of the designs, "
+          f"{corner_points} stack-corner points: {rates(corner_points, wall, cpu)}")  # fmt: skip
+    print(f"  every corner solved for {evaluation.solved.mean():.2%} of the designs, "
           f"{evaluation.feasible.mean():.2%} feasible")  # fmt: skip
 
     corners = worst_case_corners(BENCH_SPEC)
     rows = [value[None, :] for value in (corners.supply_v, corners.ambient_c, corners.tolerance_sign,
                                          corners.load_current_a, corners.load_conductance_s)]  # fmt: skip
     supply, ambient, sign, load, conductance = rows
-    start, start_cpu = time.perf_counter(), time.process_time()
-    op = solve_stack_corners(parts, stacks, supply, resistor[:, None] * corners.resistor_factor, ambient, sign, load,
-                             conductance)  # fmt: skip
-    grid_seconds = time.perf_counter() - start
-    grid_cpu_seconds = time.process_time() - start_cpu
-    print(f"stack-major solve alone (solve_stack_corners, the 32 corners): {grid_seconds:.3f} s = "
-          f"{corner_points / grid_seconds:,.0f} points/s (wall); CPU time {grid_cpu_seconds:.3f} s = "
-          f"{corner_points / grid_cpu_seconds:,.0f} points/s; largest |KCL residual| "
-          f"{np.max(np.abs(op.kcl_residual_v)):.2e} V")  # fmt: skip
+    corner_resistor = resistor[:, None] * corners.resistor_factor
+    op, wall, cpu = timed(lambda: solve_stack_corners(parts, stacks, supply, corner_resistor, ambient, sign, load,
+                                                      conductance), args.repeat)  # fmt: skip
+    print(f"stack-major solve alone (solve_stack_corners, the 32 corners): {rates(corner_points, wall, cpu)}; "
+          f"largest |KCL residual| {np.max(np.abs(op.kcl_residual_v)):.2e} V")  # fmt: skip
 
 
 if __name__ == "__main__":
