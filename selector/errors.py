@@ -38,6 +38,13 @@ class SpecError(InputDataError):
     """A rail requirement is malformed or contradicts itself (exit 1)."""
 
 
+class SpecOptionError(SpecError):
+    """A rail requirement's command-line option is malformed or contradicts the rest (exit 2:
+    it comes from an option, like click's own usage errors)."""
+
+    exit_code = 2
+
+
 class UnknownPartError(RailwrightError):
     """A part named by the user is not in the library (exit 1)."""
 

@@ -16,7 +16,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from selector import units
-from selector.errors import QuantityError, SpecError
+from selector.errors import QuantityError, SpecError, SpecOptionError
 from selector.eseries import SERIES_STEPS, series_values
 from selector.partset import FAMILIES
 
@@ -162,6 +162,7 @@ class _Entry:
     raw: object
     place: str  # prefix of an error about this value: "rail.toml: [supply] min"
     label: str  # how another message refers to it: "[supply] min" or "--supply-min"
+    from_option: bool = False
 
 
 def _file_entry(file_label: str, section: str, key: str, raw: object) -> _Entry:
@@ -170,11 +171,12 @@ def _file_entry(file_label: str, section: str, key: str, raw: object) -> _Entry:
 
 def _option_entry(dotted: str, raw: object) -> _Entry:
     option = OPTION_FOR_KEY[dotted]
-    return _Entry(raw, option, option)
+    return _Entry(raw, option, option, from_option=True)
 
 
 def _fail(entry: _Entry, message: str) -> SpecError:
-    return SpecError(f"{entry.place}: {message}")
+    error = SpecOptionError if entry.from_option else SpecError
+    return error(f"{entry.place}: {message}")
 
 
 def _read_toml(path: str | Path) -> tuple[str, dict]:
@@ -644,8 +646,9 @@ def load_spec(
     Raises
     ------
     SpecError
-        One line naming the file and key (``rail.toml: [supply] min: …``) or the option
-        (``--supply-min: …``).
+        One line naming the file and key (``rail.toml: [supply] min: …``), exit 1, or the
+        option (``--supply-min: …``): then a :class:`~selector.errors.SpecOptionError`,
+        exit 2.
     """
     entries: dict[str, _Entry] = {}
     file_label = None
@@ -655,7 +658,7 @@ def load_spec(
     entries.update(_option_entries(overrides or {}))
     missing = [dotted for dotted in REQUIRED_KEYS if dotted not in entries]
     if missing:
-        raise SpecError(_missing_message(file_label, missing))
+        raise (SpecError if file_label else SpecOptionError)(_missing_message(file_label, missing))
     fields = _rail(entries)
     fields.update(_supply(entries, fields["target_v"]))
     fields.update(_load(entries))

@@ -124,6 +124,19 @@ def test_history_command(run_cli, db, tmp_path):
         2, "Error: --since: 'soon' is not a date; write e.g. 2026-12-01 or 2026-12-01T14:30\n")
 
 
+def test_history_of_a_name_never_known_is_an_error_but_a_removed_part_keeps_its_events(run_cli, db):
+    before = history(open_library(db))
+    result = run_cli("--db", db, "history", "NOPE")
+    assert (result.exit_code, result.stderr) == (1, "Error: unknown part 'NOPE': not in the library, and no event names it\n")
+    result = run_cli("--db", db, "history", "--list", "line-z")
+    assert (result.exit_code, result.stderr) == (
+        1, "Error: unknown list 'line-z' (known lists: line-a); create it with 'railwright approved create NAME'\n")
+    assert run_cli("--db", db, "history", "Z5V1-A", "--since", "2999-01-01").stdout == "no events\n"
+    assert run_cli("--db", db, "parts", "remove", "Z5V1-A").exit_code == 0
+    assert run_cli("--db", db, "history", "Z5V1-A").stdout.splitlines()[-1].split("  ")[2] == "part removed"
+    assert len(history(open_library(db))) == len(before) + 1
+
+
 def test_every_new_command_has_help_with_an_example(run_cli):
     for args in (["approved"], ["history"], *[["approved", name] for name in
                  ("lists", "create", "rename", "set", "drop", "show", "import", "export", "compare")]):

@@ -5,6 +5,7 @@ from __future__ import annotations
 import click
 import pytest
 
+from selector.catalog.part_sheet import natural_key
 from selector.catalog.store import default_library_path, head_revision, open_library
 from selector.cli import main
 
@@ -116,6 +117,20 @@ def test_show_lists_parameters_with_units_and_derived_values(run_cli, library_pa
     missing = run_cli("--db", library_path, "parts", "show", "NOPE")
     assert missing.exit_code == 1
     assert missing.stderr == f"Error: unknown part 'NOPE' (not in the library {library_path})\n"
+
+
+def test_list_orders_numbers_in_ids_by_value(run_cli, library_path):
+    run_cli("--db", library_path, "init", "--demo")
+    rows = run_cli("--db", library_path, "parts", "list", "--family", "zener").stdout.splitlines()[1:]
+    ids = [row.split()[0] for row in rows]
+    assert ids[:3] == ["Z2V4-A", "Z2V4-B", "Z2V7-A"]
+    assert ids.index("Z9V1-B") + 1 == ids.index("Z10V-A")
+
+
+def test_natural_key_orders_digit_runs_by_value_without_converting_them():
+    ids = ["Z10V-A", "Z2V4-A", "D-02", "D-1", "D-10", "X" + "9" * 5000, "X" + "1" + "0" * 5000, "X9"]
+    assert sorted(ids, key=natural_key) == ["D-1", "D-02", "D-10", "X9", "X" + "9" * 5000, "X1" + "0" * 5000,
+                                            "Z2V4-A", "Z10V-A"]  # fmt: skip
 
 
 def test_list_csv_export_and_remove(run_cli, library_path, tmp_path):

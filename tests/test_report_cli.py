@@ -95,7 +95,7 @@ def test_report_of_one_design(report_db, tmp_path):
     [
         (["--stack", "NOPE"], 1, "Error: unknown part 'NOPE' (not in the library, or filtered out)"),
         (["--stack", "2*"], 2, "Error: --stack: term 1 '2*' is not [COUNT*]PART, e.g. '2*D1'"),
-        (["--target", "five"], 1, None),
+        (["--target", "five"], 2, None),
         (["--top", "0"], 2, "Error: Invalid value for '--top': 0 is not in the range 1<=x<=100. (see 'railwright report --help')"),
         (["--monte-carlo", "0"], 2, "Error: Invalid value for '--monte-carlo': 0 is not in the range 1<=x<=1000000. (see 'railwright report --help')"),
     ],

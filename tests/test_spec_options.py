@@ -126,9 +126,10 @@ def test_file_value_equals_the_same_value_by_option(runner):
          "Error: --families: unknown family 'thyristor'; known: signal, rectifier, schottky, led, zener\n"),
     ],
 )
-def test_option_errors_name_the_option_and_exit_1(runner, extra, message):
+def test_option_errors_name_the_option_and_exit_2(runner, extra, message):
+    # A bad option value is a usage error, as click's own (DESIGN §4: 2 usage).
     result = run(runner, [*QUICK, *extra])
-    assert result.exit_code == 1
+    assert result.exit_code == 2
     assert result.stdout == ""
     assert result.stderr == message
 
@@ -142,7 +143,7 @@ def test_file_errors_name_the_file_and_key(runner, tmp_path):
 
 def test_missing_keys_are_one_line(runner):
     result = run(runner, ["echo", "--target", "5V"])
-    assert result.exit_code == 1
+    assert result.exit_code == 2
     assert result.stderr == (
         "Error: missing --tolerance, --supply-min, --supply-max, --load-min, --load-max, "
         "--ambient-min, --ambient-max (or give them in a --spec FILE)\n"

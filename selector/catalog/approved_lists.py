@@ -28,7 +28,7 @@ from sqlalchemy.orm import Session
 
 from selector.catalog import audit
 from selector.catalog.models import LIST_NAME_LENGTH, ApprovedList, ListEntry, Part
-from selector.errors import OptionError, RailwrightError
+from selector.errors import OptionError, RailwrightError, UnknownPartError
 from selector.partset import PartSet
 from selector.spec import LIST_STATUSES, UNUSABLE_STATUSES
 from selector.units import shown
@@ -147,6 +147,20 @@ def missing_parts(library, names: Sequence[str]) -> set[str]:
     """Which of ``names`` are not parts of the library."""
     with library.session() as session:
         return set(names) - set(find_parts(session, names))
+
+
+def check_history_subject(library, part: str | None, list_name: str | None) -> None:
+    """Refuse a part or list the library never had: not in it now and named by no event.
+
+    Raises
+    ------
+    UnknownPartError, UnknownListError
+    """
+    if part and missing_parts(library, [part]) and not audit.history(library, part=part):
+        raise UnknownPartError(f"unknown part '{shown(part[:60])}': not in the library, and no event names it")
+    if list_name and not audit.history(library, list_name=list_name):
+        with library.session() as session:
+            find_list(session, list_name)
 
 
 def lists_summary(library) -> list[dict[str, object]]:

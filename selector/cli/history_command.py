@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import click
 
+from selector.catalog.approved_lists import check_history_subject
 from selector.catalog.audit import HISTORY_COLUMNS, history, parse_since
 from selector.csv_safety import write_rows
 
@@ -45,12 +46,12 @@ def history_command(state, part: str | None, list_name: str | None, since: str |
 
     The trail is append-only: the library refuses to change or delete an event.
     """
-    rows = history(
-        state.library(),
-        part=part.strip() if part else None,
-        list_name=list_name.strip() if list_name else None,
-        since=parse_since(since) if since is not None else None,
-    )
+    part = part.strip() if part else None
+    list_name = list_name.strip() if list_name else None
+    rows = history(state.library(), part=part, list_name=list_name,
+                   since=parse_since(since) if since is not None else None)  # fmt: skip
+    if not rows:
+        check_history_subject(state.library(), part, list_name)
     if csv_path == "-":
         write_rows("-", HISTORY_COLUMNS, rows)
         return
