@@ -12,6 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from selector.circuit import STATUS_NAMES, STATUS_SOLVED
 from selector.corners import CornerSet, DesignMetrics, worst_case_corners
 from selector.montecarlo import MonteCarloResult
 from selector.partset import PartSet
@@ -80,7 +81,12 @@ def _verdict(design: CheckedDesign) -> str:
         return "MEETS the spec at every corner"
     if ev.feasible[0]:
         return "feasible, but OUTSIDE the tolerance window"
-    return f"NOT FEASIBLE ({ev.reason_name(0)})"
+    if ev.solved[0]:
+        return f"NOT FEASIBLE ({ev.reason_name(0)})"
+    status = ev.corner_status[0]
+    causes = "; ".join(f"{STATUS_NAMES[code]} at {np.count_nonzero(status == code)}"
+                       for code in np.unique(status[status != STATUS_SOLVED]))  # fmt: skip
+    return f"NOT FEASIBLE (no solution at {np.count_nonzero(status != STATUS_SOLVED)} of {status.size} corners: {causes})"
 
 
 def check_json(design: CheckedDesign) -> dict:
@@ -154,6 +160,7 @@ def _corner_objects(design: CheckedDesign, corners: CornerSet) -> list[dict]:
                 "resistor_ohm": design.resistor_ohm * float(corners.resistor_factor[c]),
                 "tolerance_sign": float(corners.tolerance_sign[c]),
                 "solved": solved,
+                "status": STATUS_NAMES[ev.corner_status[0, c]],
                 "vout_v": float(ev.vout_v[0, c]) if solved else None,
                 "stack_current_a": float(ev.stack_current_a[0, c]) if solved else None,
                 "load_current_a": float(ev.load_current_a[0, c]) if solved else None,
@@ -252,6 +259,6 @@ def _corner_table(design: CheckedDesign) -> list[str]:
                 f"{1e3 * ev.resistor_power_w[0, c]:>10.1f} {ev.hottest_junction_c[0, c]:>11.1f}"
             )
         else:
-            cells += "  no solution"
+            cells += f"  no solution: {STATUS_NAMES[ev.corner_status[0, c]]}"
         rows.append(" " + cells)
     return rows

@@ -125,6 +125,7 @@ class DesignEvaluation:
     Attributes
     ----------
     vout_nom_v, vout_low_v, vout_high_v : array [V]
+        NaN where the nominal point has no solution; 0 where a corner has none.
     error_v : array [V]
         ``max(|vout_high − target|, |vout_low − target|)``; inf where a corner has no solution.
     margin : array [1]
@@ -139,6 +140,9 @@ class DesignEvaluation:
         Per element, with ``detail=True`` (padding slots: ambient, 0, 1).
     hottest_junction_c : array (designs, 32) [°C]
     corner_solved : array (designs, 32) of bool
+    corner_status : int array (designs, 32)
+        Each corner's solver status, an index into :data:`selector.circuit.STATUS_NAMES`
+        (why a corner has no solution).
     nominal : dict or None
         With ``detail=True``: the nominal point's ``stack_current_a``, ``load_current_a``,
         ``resistor_power_w``, ``junction_c`` and ``element_power_w`` per design.
@@ -161,6 +165,7 @@ class DesignEvaluation:
     resistor_power_w: np.ndarray
     hottest_junction_c: np.ndarray
     corner_solved: np.ndarray
+    corner_status: np.ndarray
     junction_c: np.ndarray | None = None
     element_power_w: np.ndarray | None = None
     element_margin: np.ndarray | None = None
@@ -303,7 +308,7 @@ def evaluate_designs(
             ),
         )
     return DesignEvaluation(
-        vout_nom_v=vout_all[:, CORNER_COUNT],
+        vout_nom_v=np.where(solved_all[:, CORNER_COUNT], vout_all[:, CORNER_COUNT], np.nan),
         vout_low_v=vout_low,
         vout_high_v=vout_high,
         error_v=error,
@@ -319,6 +324,7 @@ def evaluate_designs(
         resistor_power_w=resistor_power,
         hottest_junction_c=points.hottest_junction_c[:, :CORNER_COUNT],
         corner_solved=corner_solved,
+        corner_status=points.status[:, :CORNER_COUNT],
         **extra,
     )
 

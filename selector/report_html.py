@@ -452,7 +452,7 @@ def _corner_table(candidate: CandidateReview) -> str:
         rail = corner["vout_v"]
         mark = "lowest rail" if rail is not None and rail == low else "highest rail" if rail is not None and rail == high else ""
         if not corner["solved"]:
-            mark = "no solution"
+            mark = f"no solution: {corner['status']}"
         load = format_quantity(corner[load_key], "Ω" if load_key == "load_ohm" else "A", 3)
         junction = corner["junction_c"]
         cells = [

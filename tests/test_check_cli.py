@@ -118,3 +118,24 @@ def test_help_has_an_example():
     assert result.exit_code == 0
     assert 'railwright check --spec rail.toml --stack "Z4V7-A + 2*D-SIG1"' in result.output
     assert "3 sigma at the limit" in result.output
+
+
+def test_a_design_without_a_solution_says_why_at_each_corner(setup):
+    # 11–13 V through 1 Ω into one signal diode: amperes, a junction far past any survival.
+    result = run(setup, "--stack", "D-SIG1", "--resistor", "1")
+    assert result.exit_code == 0, result.output
+    lines = result.output.splitlines()
+    assert lines[2] == "Verdict: NOT FEASIBLE (no solution at 32 of 32 corners: thermal runaway at 32)"
+    assert sum(line.endswith("no solution: thermal runaway") for line in lines) == 32
+    document = json.loads(run(setup, "--stack", "D-SIG1", "--resistor", "1", "--json").output)
+    assert document["vout_nom_v"] is None and document["feasible"] is False
+    assert {corner["status"] for corner in document["corners"]} == {"thermal runaway"}
+
+
+def test_a_load_past_what_the_supply_can_give_is_named(setup):
+    result = run(setup, "--stack", "Z5V1-B", "--resistor", "1200", "--load-max", "20mA")
+    assert result.exit_code == 0, result.output
+    assert result.output.splitlines()[2] == (
+        "Verdict: NOT FEASIBLE (no solution at 16 of 32 corners: load takes all the supply can give at 16)")
+    document = json.loads(run(setup, "--stack", "Z5V1-B", "--resistor", "1200", "--load-max", "20mA", "--json").output)
+    assert [corner["status"] for corner in document["corners"]].count("solved") == 16
