@@ -82,6 +82,13 @@ def brentq_point(parts, stack, supply, resistor, ambient, sign, load):
     return brentq(residual, 1e-15, (supply - resistor * load) / resistor, xtol=1e-15, rtol=1e-12)
 
 
+def positive_count(text: str) -> int:
+    """A whole number of at least 1, for argparse."""
+    if not text.strip().isdigit() or int(text) < 1:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a whole number of at least 1")
+    return int(text)
+
+
 def timed(solve, repeat: int):
     """``solve()`` run ``repeat`` times: its last result, and the wall and CPU seconds of each run."""
     wall, cpu = [], []
@@ -107,7 +114,7 @@ def main() -> None:
     parser.add_argument("--points", type=int, default=1_000_000)
     parser.add_argument("--stacks", type=int, default=31_250)
     parser.add_argument("--reference", type=int, default=300)
-    parser.add_argument("--repeat", type=int, default=5, help="runs of each vectorised workload (default 5)")
+    parser.add_argument("--repeat", type=positive_count, default=5, help="runs of each vectorised workload (default 5)")
     args = parser.parse_args()
     parts = PartSet.from_records(INVENTED_PARTS)
 

@@ -44,6 +44,11 @@ class CheckedDesign:
         return [str(self.parts.part[i]) for i in self.stack if i >= 0]
 
 
+def _margin_text(margin: float, format_spec: str = ".1%") -> str:
+    """A margin as a percentage, or why there is none (no allowed dissipation)."""
+    return "none (no allowed dissipation at the ambient)" if margin == -np.inf else format(margin, format_spec)
+
+
 def _finite(value) -> float | None:
     value = float(value)
     return value if math.isfinite(value) else None
@@ -55,7 +60,10 @@ def design_cautions(design: CheckedDesign) -> list[str]:
     lines = [f"{line} (this tool is not a safety assessment)" for line in spec_cautions(spec)]
     for position, part in enumerate(design.elements):
         margin = metrics.element_worst_margin[position]
-        if margin < CAUTION_MARGIN:
+        if margin == -np.inf:
+            lines.append(f"{part} (position {position + 1}) may dissipate nothing at the hottest ambient "
+                         f"(at or past its Tjmax); {DEFER}")  # fmt: skip
+        elif margin < CAUTION_MARGIN:
             lines.append(
                 f"{part} (position {position + 1}) has {margin:.0%} dissipation margin at its worst "
                 f"corner, under 20 %; {DEFER}"
@@ -189,9 +197,10 @@ def check_lines(design: CheckedDesign) -> list[str]:
     ]
     if ev.solved[0]:
         lines += [
-            f"  rail {volts(ev.vout_nom_v[0])} nominal, {volts(ev.vout_low_v[0])} … {volts(ev.vout_high_v[0])} "
+            f"  rail {volts(ev.vout_nom_v[0]) if np.isfinite(ev.vout_nom_v[0]) else '— (no solution)'} nominal, "
+            f"{volts(ev.vout_low_v[0])} … {volts(ev.vout_high_v[0])} "
             f"worst case; error {volts(ev.error_v[0])} (allowed {volts(spec.tolerance_v)})",
-            f"  least stack current {amps(ev.i_min_a[0])}; least margin {ev.margin[0]:.1%}",
+            f"  least stack current {amps(ev.i_min_a[0])}; least margin {_margin_text(ev.margin[0])}",
         ]
     lines += ["", "Corners (< lowest rail, > highest rail, ! no solution; parts −/+: every part at its low/high tolerance):"]
     lines += _corner_table(design)
@@ -216,7 +225,7 @@ def check_lines(design: CheckedDesign) -> list[str]:
         for position, part in enumerate(design.elements):
             lines.append(
                 f"  {position + 1:>2}. {part:<16} {format_quantity(metrics.element_worst_power_w[position], 'W', 3):>10}"
-                f"   margin {metrics.element_worst_margin[position]:7.1%}"
+                f"   margin {_margin_text(metrics.element_worst_margin[position], '7.1%')}"
             )
     if design.monte_carlo is not None:
         mc = design.monte_carlo

@@ -52,6 +52,7 @@ from selector.devices import (
     JUNCTION_CEILING_C,
     RUNAWAY_LOOP_GAIN,
     ZERO_CELSIUS_K,
+    forward_junction_floor_c,
     self_heated_element,
 )
 from selector.partset import PartSet
@@ -62,6 +63,8 @@ LEAST_CURRENT_A = 1e-15
 KCL_TOLERANCE_V = 1e-10
 #: Thermal residual at which a forward junction counts as settled [K].
 THERMAL_TOLERANCE_K = 1e-7
+#: Margins below this come from a slot with no allowed power (see _assembled).
+_NO_ALLOWED_POWER_MARGIN = -1e250
 #: Iterations before a point is given up as not converged.
 MAX_ITERATIONS = 120
 #: Points solved together; keeps the working set in cache and memory proportional to it.
@@ -240,6 +243,9 @@ def _assembled(log_current, vout, status, worst_margin, hottest, supply, resisto
     every unsolved point set to its flagged values. A junction above
     :data:`~selector.devices.JUNCTION_CEILING_C` is no physical steady state: runaway."""
     status[(status == STATUS_SOLVED) & (hottest > JUNCTION_CEILING_C)] = STATUS_RUNAWAY
+    # A slot with no allowed power (ambient at or past its Tjmax) carries 1/P_max = 1e300 in
+    # for ∞, so its margin lands far below −1e250, where no real P/P_max can reach: −∞.
+    worst_margin[worst_margin < _NO_ALLOWED_POWER_MARGIN] = -np.inf
     unsolved = np.nonzero(status != STATUS_SOLVED)
     log_current[unsolved] = 0.0
     current = np.exp(log_current)
@@ -605,9 +611,10 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
         stack_v = (fw.multiplicity * v_settled).sum(axis=0) + (zn.multiplicity * v_z).sum(axis=0)
         stack_slope = (fw.multiplicity * slope_f).sum(axis=0) + (zn.multiplicity * slope_z).sum(axis=0)
         worst_gain = np.maximum(gain_f.max(axis=0, initial=-np.inf), gain_z.max(axis=0, initial=-np.inf))
-        # A junction at the ceiling is far past every rating: too much current, like runaway.
-        overheated = (junction_f >= JUNCTION_CEILING_C).any(axis=0) if junction_f.size else np.zeros(u.size, bool)
-        runaway = (worst_gain >= RUNAWAY_LOOP_GAIN) | overheated
+        runaway = worst_gain >= RUNAWAY_LOOP_GAIN
+        # A junction iterate held at the ceiling: one that would settle above it if the
+        # point ends there (a transient stay is corrected by the next coupled step).
+        pinned = (junction_f >= JUNCTION_CEILING_C).any(axis=0) if junction_f.size else np.zeros(u.size, bool)
         unsettled = np.abs(thermal_residual).max(axis=0, initial=0.0) > THERMAL_TOLERANCE_K
 
         load_gain_w = work["load_gain"]
@@ -640,9 +647,11 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
         # before the update below, which follows the next trial current (a bisection step for
         # a converged point) and so no longer belongs to the solution.
         settled_junction_f = junction_f - thermal_residual / headroom_f
-        # Coupled Newton update of the forward junctions (Schur complement of the thermal rows).
+        # Coupled Newton update of the forward junctions (Schur complement of the thermal rows),
+        # kept between the least junction possible at the next current and the ceiling.
+        floor_f = forward_junction_floor_c(fw.ambient, fw.theta * np.exp(new_u), fw.offset)
         junction_f = np.clip(junction_f - (thermal_residual + dr_du * (new_u - u)) / headroom_f,
-                             fw.ambient, JUNCTION_CEILING_C)
+                             floor_f, JUNCTION_CEILING_C)
         work.update(u=new_u, lo=lo_w, hi=hi_w, seen_positive=seen_positive, seen_negative=seen_negative)
 
         if finished.any():
@@ -651,8 +660,8 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
             out_v[where] = stack_v[finished]
             # Element margin 1 − V·I/P_max and the hottest junction, at the solution.
             i_done = current[finished]
-            # An ambient at or above Tjmax leaves no allowed power (1/P_max = 1e300): the
-            # margin overflows to −inf, which is what it is (as in the fast path's _record).
+            # An ambient at or above Tjmax leaves no allowed power (1/P_max = 1e300); the
+            # margin may overflow there, and _assembled makes it −inf.
             with np.errstate(over="ignore"):
                 load_f = (v_settled[:, finished] * i_done * fw.inverse_p_max[:, finished]).max(axis=0, initial=0.0)
                 load_z = (v_z[:, finished] * i_done * zn.inverse_p_max[:, finished]).max(axis=0, initial=0.0)
@@ -666,7 +675,7 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
             failed = ~done[finished]
             outcome[failed & ~seen_negative[finished]] = STATUS_SUPPLY_EXHAUSTED
             outcome[failed & ~seen_positive[finished]] = STATUS_BELOW_LEAST_CURRENT
-            outcome[failed & runaway[finished]] = STATUS_RUNAWAY
+            outcome[failed & (runaway | pinned)[finished]] = STATUS_RUNAWAY
             status[where] = outcome
             active &= ~finished
     return out_u, out_v, status, out_margin, out_hottest
@@ -674,6 +683,11 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
 
 #: Newton evaluations the fast path spends on a point before handing it to the safeguarded solver.
 FAST_EVALUATIONS = 8
+#: How far below the ambient the fast path lets a forward junction go [K]. A negative
+#: tolerance can settle one a little colder (:func:`selector.devices.forward_junction_floor_c`;
+#: by microkelvins at the small currents where it happens); a point colder still goes to
+#: the bracketed solver, which uses that floor itself.
+_FAST_BELOW_AMBIENT_K = 1.0
 #: Zener loop gain ``θ·tc·I`` the fast path stays below, so ``1/(1 − g)`` stays modest.
 _FAST_LOOP_GAIN = 0.999
 #: Blended Newton steps on the cold stack's load line that give the fast path its start.
@@ -980,6 +994,7 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
     size = current_cap.shape
     # At its own shape: a (corners, 1) ambient row stays one value per corner.
     ambient_k = np.add(ambient, ZERO_CELSIUS_K, out=work("ambient_k", ambient.shape))
+    coldest_k = ambient_k - _FAST_BELOW_AMBIENT_K
     lo = np.log(LEAST_CURRENT_A)
     hi = np.log(current_cap, out=current_cap)
 
@@ -1139,6 +1154,7 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
                         take(a)
                         for a in (u, residual, falling, resistor_slope, current, ambient_k, drive, load_gain, resistor, hi)
                     )
+                    coldest_k = ambient_k - _FAST_BELOW_AMBIENT_K
                     forward = [[take(row) for row in f] for f in forward]
                     breakdown = [[take(row) for row in z] for z in breakdown]
                     junction = [take(t) for t in junction]
@@ -1166,7 +1182,7 @@ def _newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, loa
             residual_t *= inverse
             temperature = junction[j]
             temperature -= residual_t
-            np.maximum(temperature, ambient_k, out=temperature)
+            np.maximum(temperature, coldest_k, out=temperature)
     return out_u, out_v, status, out_margin, out_hottest
 
 

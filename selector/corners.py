@@ -199,6 +199,14 @@ def allowed_power_w(parts: PartSet, part_index: np.ndarray, ambient_c: np.ndarra
     return np.minimum(parts.pd_w[part_index], (parts.tj_max_c[part_index] - ambient_c) / parts.theta_ja_k_per_w[part_index])
 
 
+def dissipation_margin(power_w: np.ndarray, allowed_w: np.ndarray) -> np.ndarray:
+    """``1 − P/P_max`` [1] (DESIGN §3); −inf where nothing is allowed (``P_max ≤ 0``: the
+    ambient at or past the part's Tjmax)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        margin = 1.0 - power_w / allowed_w
+    return np.where(allowed_w > 0, margin, -np.inf)
+
+
 def evaluate_designs(
     parts: PartSet,
     stacks: np.ndarray,
@@ -297,7 +305,7 @@ def evaluate_designs(
         extra = dict(
             junction_c=junction[:, :CORNER_COUNT],
             element_power_w=power[:, :CORNER_COUNT],
-            element_margin=np.where(present, 1.0 - power[:, :CORNER_COUNT] / p_max, 1.0),
+            element_margin=np.where(present, dissipation_margin(power[:, :CORNER_COUNT], p_max), 1.0),
             nominal=dict(
                 stack_current_a=points.stack_current_a[:, CORNER_COUNT],
                 load_current_a=points.load_current_a[:, CORNER_COUNT],

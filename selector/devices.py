@@ -400,19 +400,41 @@ def _breakdown_steady_state(u, ambient, theta, sign, vz, izt, tol, tc, tnom, a, 
     junction = (ambient + heating * cold_v) / headroom
     voltage = cold_v + tc * junction
     total_du, _, _ = self_heated_slope(current, voltage, du, tc, theta)
+    runaway |= junction > JUNCTION_CEILING_C
     return voltage, junction, total_du, tc + 0.0 * u, loop_gain, runaway
+
+
+def forward_junction_floor_c(ambient_c, heating_k_per_v, offset_v):
+    """Least junction temperature a forward element can settle at [°C].
+
+    ``V ≥ s·vf_tol`` (the diode and ohmic terms are ≥ 0), so ``Tj = Ta + θ·I·V ≥
+    Ta + θ·I·min(0, s·vf_tol)``: a negative tolerance makes ``V`` negative at small
+    currents, and the junction a little colder than the ambient. The floor is kept above
+    half the ambient's absolute temperature, so that trial currents far too large for that
+    to happen leave the model defined.
+
+    Parameters
+    ----------
+    ambient_c : array [°C]
+    heating_k_per_v : array [K/V]
+        ``θ·I``.
+    offset_v : array [V]
+        ``s·vf_tol``.
+    """
+    floor = ambient_c + heating_k_per_v * np.minimum(offset_v, 0.0)
+    return np.maximum(floor, 0.5 * (ambient_c + ZERO_CELSIUS_K) - ZERO_CELSIUS_K)
 
 
 def _forward_steady_state(u, ambient, theta, sign, guess, fields):
     """Forward junction at ``Tj − Ta − θ·I·V(I, Tj) = 0``, by Newton's method kept inside a
-    bracket that starts as ``[Ta, JUNCTION_CEILING_C]``, with bisection where a step would
-    leave it or the slope ``1 − θ·I·∂V/∂T`` is not positive (the loop gain of the junction at
-    or above 1 there, as it can be at the ambient far past a part's rating). A forward element
-    is never colder than ambient (V·I ≥ 0). A residual still negative at the ceiling, or not
-    settled, is runaway."""
+    bracket that starts as ``[Ta + θ·I·min(0, s·vf_tol), JUNCTION_CEILING_C]``, with bisection
+    where a step would leave it or the slope ``1 − θ·I·∂V/∂T`` is not positive (the loop gain
+    of the junction at or above 1 there, as it can be at the ambient far past a part's
+    rating); the lower end is :func:`forward_junction_floor_c`. A residual still negative at
+    the ceiling, or not settled, is runaway."""
     current = np.exp(u)
     heating = theta * current
-    low = np.array(ambient, dtype=float, copy=True)
+    low = forward_junction_floor_c(ambient, heating, sign * fields[FORWARD_FIELDS.index("vf_tol_v")])
     high = np.full(u.shape, JUNCTION_CEILING_C)
     junction = np.clip(guess, low, high)
     active = np.ones(u.shape, dtype=bool)

@@ -94,7 +94,7 @@ _TABLE = (
     ("stack", "stack", str),
     ("n", "parts", str),
     ("R [Ω]", "resistor_ohm", lambda v: format_quantity(v, "", digits=3)),
-    ("Vnom [V]", "vout_nom_v", lambda v: f"{v:.4f}"),
+    ("Vnom [V]", "vout_nom_v", lambda v: f"{v:.4f}" if math.isfinite(v) else "—"),  # NaN: no nominal solution
     ("Vlow [V]", "vout_low_v", lambda v: f"{v:.4f}"),
     ("Vhigh [V]", "vout_high_v", lambda v: f"{v:.4f}"),
     ("error [mV]", "error_v", lambda v: f"{1000 * v:.1f}"),

@@ -29,6 +29,17 @@ def is_valid_part_id(text: str) -> bool:
     return bool(_PART_ID.match(text))
 
 
+def part_id_order(part: str) -> tuple[list[object], str]:
+    """Sort key that orders the digit runs of a part id by value: Z2V4-A before Z10V-A.
+
+    A digit run compares by its length without leading zeros, then its digits (no integer
+    conversion, so a run of any length is safe); the id itself breaks ties.
+    """
+    # re.split with a group alternates text and digit runs, so every position holds one kind.
+    runs = re.split(r"([0-9]+)", part)
+    return [(len(run.lstrip("0")), run.lstrip("0")) if i % 2 else run for i, run in enumerate(runs)], part
+
+
 def parse_stack(text: str) -> list[tuple[int, str]]:
     """Read a stack text into (count, part) terms, in the order written.
 

@@ -13,6 +13,7 @@ from selector.catalog import resources, store
 from selector.catalog.store import default_library_path, open_library, resolve_location
 from selector.errors import LibraryError, OptionError, UnknownPartError
 from selector.partset import FAMILIES
+from selector.stack_notation import part_id_order
 
 
 def test_missing_default_library_is_created_with_the_demo_sets(private_user_dirs):
@@ -129,7 +130,7 @@ def test_in_memory_sqlite_url_works():
 def test_load_partset_is_sorted_filtered_and_may_be_empty(backend_library):
     demo_library = backend_library
     everything = demo_library.load_partset()
-    assert list(everything.part) == sorted(everything.part)
+    assert list(everything.part) == sorted(everything.part, key=part_id_order)
     zeners = demo_library.load_partset(["zener"])
     assert set(zeners.family) == {"zener"} and zeners.is_zener.all()
     forward = demo_library.load_partset(["signal", "led"])

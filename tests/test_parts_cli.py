@@ -5,9 +5,9 @@ from __future__ import annotations
 import click
 import pytest
 
-from selector.catalog.part_sheet import natural_key
 from selector.catalog.store import default_library_path, head_revision, open_library
 from selector.cli import main
+from selector.stack_notation import part_id_order
 
 GOOD = "part,family,is_a,n,pd_w,description\nD-T1,signal,2.5n,1.9,500m,test diode\n"
 
@@ -127,9 +127,9 @@ def test_list_orders_numbers_in_ids_by_value(run_cli, library_path):
     assert ids.index("Z9V1-B") + 1 == ids.index("Z10V-A")
 
 
-def test_natural_key_orders_digit_runs_by_value_without_converting_them():
+def test_part_id_order_takes_digit_runs_by_value_without_converting_them():
     ids = ["Z10V-A", "Z2V4-A", "D-02", "D-1", "D-10", "X" + "9" * 5000, "X" + "1" + "0" * 5000, "X9"]
-    assert sorted(ids, key=natural_key) == ["D-1", "D-02", "D-10", "X9", "X" + "9" * 5000, "X1" + "0" * 5000,
+    assert sorted(ids, key=part_id_order) == ["D-1", "D-02", "D-10", "X9", "X" + "9" * 5000, "X1" + "0" * 5000,
                                             "Z2V4-A", "Z10V-A"]  # fmt: skip
 
 

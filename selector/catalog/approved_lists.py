@@ -156,9 +156,9 @@ def check_history_subject(library, part: str | None, list_name: str | None) -> N
     ------
     UnknownPartError, UnknownListError
     """
-    if part and missing_parts(library, [part]) and not audit.history(library, part=part):
+    if part and missing_parts(library, [part]) and not audit.has_events(library, part=part):
         raise UnknownPartError(f"unknown part '{shown(part[:60])}': not in the library, and no event names it")
-    if list_name and not audit.history(library, list_name=list_name):
+    if list_name and not audit.has_events(library, list_name=list_name):
         with library.session() as session:
             find_list(session, list_name)
 

@@ -192,6 +192,12 @@ def event_row(event: AuditEvent) -> dict[str, object]:
     }
 
 
+def has_events(library, part: str | None = None, list_name: str | None = None) -> bool:
+    """Whether any event is about ``part`` and/or ``list_name``."""
+    with library.session() as session:
+        return session.scalar(history_query(part, list_name).limit(1)) is not None
+
+
 def history(
     library, part: str | None = None, list_name: str | None = None, since: datetime | None = None
 ) -> list[dict[str, object]]:

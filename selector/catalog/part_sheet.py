@@ -7,7 +7,6 @@ all with the junction at 25 °C and nominal tolerance) come from the element mod
 
 from __future__ import annotations
 
-import re
 from collections.abc import Mapping, Sequence
 
 import numpy as np
@@ -54,17 +53,6 @@ def characteristic_voltages(parts: PartSet, currents_a: np.ndarray) -> np.ndarra
         return np.empty(0)
     voltage, _, _ = element_voltage_slopes(parts, np.arange(len(parts)), currents_a, SHEET_JUNCTION_C)
     return voltage
-
-
-def natural_key(part: str) -> tuple[list[object], str]:
-    """Sort key that orders the digit runs of a part id by value: Z2V4-A before Z10V-A.
-
-    A digit run compares by its length without leading zeros, then its digits (no integer
-    conversion, so a run of any length is safe); the id itself breaks ties.
-    """
-    # re.split with a group alternates text and digit runs, so every position holds one kind.
-    runs = re.split(r"([0-9]+)", part)
-    return [(len(run.lstrip("0")), run.lstrip("0")) if i % 2 else run for i, run in enumerate(runs)], part
 
 
 def list_rows(records: Sequence[Mapping[str, object]]) -> list[dict[str, str]]:

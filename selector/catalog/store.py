@@ -48,6 +48,7 @@ from selector.catalog.parts_import import ImportPlan, PartsFile, load_parts_csv,
 from selector.catalog.resources import demo_csv_path, migrations_folder
 from selector.errors import LibraryError, OptionError, UnknownPartError
 from selector.partset import FAMILIES, PartSet
+from selector.stack_notation import part_id_order
 
 #: File name of the default library inside the per-user data directory.
 DEFAULT_LIBRARY_FILE = "library.sqlite"
@@ -307,7 +308,8 @@ class Library:
     # Reading ---------------------------------------------------------------------------
 
     def part_records(self, families: Sequence[str] | None = None) -> list[dict[str, object]]:
-        """Every part as a record (parts-CSV columns plus ``source``), sorted by part id.
+        """Every part as a record (parts-CSV columns plus ``source``), in part-id order
+        (:func:`selector.stack_notation.part_id_order`).
 
         Raises
         ------
@@ -324,8 +326,9 @@ class Library:
             query = query.where(Part.family.in_(list(families)))
         with self.session() as session:
             records = [part.record() for part in session.scalars(query)]
-        # Sorted here, not in SQL, so the order is the same on every database's collation.
-        return sorted(records, key=lambda record: record["part"])
+        # Sorted here, not in SQL, so the order is the same on every database's collation;
+        # numbers in ids by value (Z2V4 before Z10V).
+        return sorted(records, key=lambda record: part_id_order(record["part"]))
 
     def load_partset(
         self,
@@ -334,7 +337,7 @@ class Library:
         list_name: str | None = None,
         statuses: Sequence[str] | None = None,
     ) -> PartSet:
-        """The library's parts as arrays, sorted by part id.
+        """The library's parts as arrays, in part-id order.
 
         Parameters
         ----------

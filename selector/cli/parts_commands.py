@@ -6,7 +6,7 @@ import click
 
 from selector.catalog.fit_records import fitted_parts_file, parse_points
 from selector.catalog.model_cards import load_model_cards
-from selector.catalog.part_sheet import format_table, list_rows, natural_key, part_sheet
+from selector.catalog.part_sheet import format_table, list_rows, part_sheet
 from selector.catalog.parts_export import write_parts_csv
 from selector.catalog.parts_import import ImportPlan, load_parts_csv, parse_column_settings
 from selector.errors import UnknownPartError
@@ -59,7 +59,6 @@ def list_command(state, families: tuple[str, ...], csv_path: str | None) -> None
       railwright parts list --family zener --csv zeners.csv
     """
     records = state.library().part_records([family.lower() for family in families] or None)
-    records.sort(key=lambda record: natural_key(record["part"]))
     if csv_path == "-":
         write_parts_csv("-", records)
         return
@@ -194,7 +193,6 @@ def export_command(state, csv_file: str, families: tuple[str, ...]) -> None:
       railwright parts export zeners.csv --family zener
     """
     records = state.library().part_records([family.lower() for family in families] or None)
-    records.sort(key=lambda record: natural_key(record["part"]))
     count = write_parts_csv(csv_file, records)
     if csv_file != "-":
         click.echo(f"wrote {count} parts to {csv_file}")
