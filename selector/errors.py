@@ -38,7 +38,7 @@ class SpecError(InputDataError):
     """A rail requirement is malformed or contradicts itself (exit 1)."""
 
 
-class SpecOptionError(SpecError):
+class SpecOptionError(SpecError, OptionError):
     """A rail requirement's command-line option is malformed or contradicts the rest (exit 2:
     it comes from an option, like click's own usage errors)."""
 

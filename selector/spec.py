@@ -331,7 +331,7 @@ def _word_list(entry: _Entry, known: tuple[str, ...], what: str) -> tuple[str, .
 
 def _blame(first: _Entry, second: _Entry) -> tuple[_Entry, _Entry]:
     """Which of two clashing values to name first: the one typed on the command line."""
-    if first.place.startswith("--") or not second.place.startswith("--"):
+    if first.from_option or not second.from_option:
         return first, second
     return second, first
 
@@ -382,6 +382,8 @@ def _rail(entries: dict[str, _Entry]) -> dict:
     if tolerance <= 0:
         raise _fail(tolerance_entry, f"{_volts(tolerance)} must be above 0 V (e.g. '3 %' or '0.1 V')")
     if tolerance >= target:
+        if _blame(tolerance_entry, target_entry)[0] is target_entry:
+            raise _fail(target_entry, f"{_volts(target)} is not above {tolerance_entry.label} ({_volts(tolerance)})")
         raise _fail(
             tolerance_entry,
             f"{_volts(tolerance)} is not below {target_entry.label} ({_volts(target)})",

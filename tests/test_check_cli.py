@@ -139,3 +139,22 @@ def test_a_load_past_what_the_supply_can_give_is_named(setup):
         "Verdict: NOT FEASIBLE (no solution at 16 of 32 corners: load takes all the supply can give at 16)")
     document = json.loads(run(setup, "--stack", "Z5V1-B", "--resistor", "1200", "--load-max", "20mA", "--json").output)
     assert [corner["status"] for corner in document["corners"]].count("solved") == 16
+
+
+def test_microamperes_at_a_negative_tolerance_solve_at_every_corner(setup):
+    # At 4.7 MΩ the schottky carries about 1.5 µA; at its low tolerance its voltage is
+    # negative, and its junction settles a little below the ambient (once "did not converge").
+    result = run(setup, "--stack", "Z4V7-A + D-SCH3", "--resistor", "4.7M", "--ambient-max", "85", "--load-max", "0",
+                 "--json")  # fmt: skip
+    assert result.exit_code == 0, result.output
+    assert {corner["status"] for corner in json.loads(result.output)["corners"]} == {"solved"}
+
+
+def test_a_clash_caused_by_an_option_exits_2_and_names_the_option(setup, tmp_path):
+    db, _ = setup
+    spec = tmp_path / "absolute.toml"
+    spec.write_text(RAIL_TOML.replace('tolerance = "5 %"', 'tolerance = "0.3 V"'), encoding="utf-8")
+    result = CliRunner().invoke(main, ["--db", db, "check", "--spec", str(spec), "--stack", "Z5V1-A", "--target", "0.2V"])
+    assert (result.exit_code, result.stderr) == (2, "Error: --target: 200 mV is not above [rail] tolerance (300 mV)\n")
+    result = CliRunner().invoke(main, ["--db", db, "check", "--spec", str(spec), "--stack", "Z5V1-A", "--tolerance", "6V"])
+    assert (result.exit_code, result.stderr) == (2, "Error: --tolerance: 6 V is not below [rail] target (5.6 V)\n")

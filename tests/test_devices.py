@@ -8,6 +8,7 @@ from scipy import constants
 
 from selector.corners import allowed_power_w
 from selector.devices import (
+    JUNCTION_CEILING_C,
     element_voltage_slopes,
     forward_log_saturation_current,
     self_heated_element,
@@ -152,3 +153,33 @@ def test_stack_voltage_sums_self_heated_elements(parts):
 def test_thermal_voltage_from_scipy_constants():
     # scipy.constants (CODATA 2018): k/q·300 K = 25.852 mV.
     assert thermal_voltage_v(300.0 - 273.15) == pytest.approx(constants.k * 300 / constants.e, rel=1e-15)
+
+
+# An invented LED-like set with a large series resistance: amperes heat it past any rating.
+_HOT_LED = dict(part="INV-HOT", family="led", is_a=1e-20, n=2.5, rs_ohm=1.85, eg_ev=2.68, xti=6.9, tnom_c=9.0,
+                pd_w=0.17, tj_max_c=200.0)  # fmt: skip
+
+
+def test_junction_far_above_ambient_settles_and_past_the_ceiling_is_runaway():
+    parts = PartSet.from_records([_HOT_LED])
+    state = self_heated_element(parts, np.array([0, 0]), np.log([1.0, 2.0]), 20.0)
+    theta = parts.theta_ja_k_per_w[0]
+    # 1 A: a steady state some 2,400 K above the ambient (absurd, but a solution of the model).
+    assert not state.runaway[0] and 2000.0 < state.junction_c[0] < JUNCTION_CEILING_C
+    assert abs(state.junction_c[0] - 20.0 - theta * 1.0 * state.voltage_v[0]) < 1e-6
+    # 2 A: no steady state below JUNCTION_CEILING_C.
+    assert state.runaway[1]
+
+
+def test_zener_junction_past_the_ceiling_is_runaway(parts):
+    # INV-Z3V3 (θ = 250 K/W, negative tc): 3 A would settle far past the ceiling.
+    state = self_heated_element(parts, np.array([2, 2]), np.log([0.02, 3.0]), 25.0)
+    assert state.runaway.tolist() == [False, True]
+
+
+def test_negative_tolerance_can_settle_a_junction_below_the_ambient(parts):
+    # INV-REC at its low tolerance (−30 mV) and 1 nA: V < 0, so Tj = Ta + θ·V·I < Ta.
+    state = self_heated_element(parts, np.array([1]), np.log([1e-9]), 40.0, -1.0)
+    assert state.voltage_v[0] < 0 and state.junction_c[0] < 40.0 and not state.runaway[0]
+    theta = parts.theta_ja_k_per_w[1]
+    assert abs(state.junction_c[0] - 40.0 - theta * 1e-9 * state.voltage_v[0]) < 1e-12

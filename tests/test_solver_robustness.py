@@ -15,8 +15,12 @@ import numpy as np
 from hypothesis import HealthCheck, Phase, example, given, settings
 from hypothesis import strategies as st
 
-from selector.circuit import STATUS_NAMES, STATUS_SOLVED, solve_operating_points
-from selector.devices import JUNCTION_CEILING_C
+from selector.circuit import (
+    STATUS_NAMES,
+    STATUS_NOT_CONVERGED,
+    STATUS_SOLVED,
+    solve_operating_points,
+)
 from selector.partset import PartSet
 from selector.stack_bounds import voltage_range_fixed_current
 
@@ -112,10 +116,9 @@ def test_random_valid_points_are_solved_within_1_nV_or_flagged_with_a_reason(pro
     assert all(STATUS_NAMES[code] for code in points.status[~solved])
     assert not np.isnan(points.worst_element_margin[solved]).any()
     # The reported hottest junction is the hottest element's, each element solved on its own
-    # (selector.devices.self_heated_element); none is past the ceiling.
+    # (selector.devices.self_heated_element).
     hottest = np.where(stacks >= 0, points.junction_c, -np.inf).max(axis=1)
     np.testing.assert_allclose(points.hottest_junction_c[solved], hottest[solved], rtol=0, atol=1e-3)
-    assert np.all(points.hottest_junction_c[solved] <= JUNCTION_CEILING_C)
 
 
 def test_stack_bounds_at_absurd_currents_give_no_warning():
@@ -130,3 +133,45 @@ def test_stack_bounds_at_absurd_currents_give_no_warning():
         warnings.simplefilter("error")
         low, high = voltage_range_fixed_current(parts, np.array([0, 0, 0, 1, 1]), current, 25.0, 150.0, 1.0)
     assert not np.isnan(low).any() and not np.isnan(high).any()
+
+
+def _random_record(rng, index: int) -> dict:
+    """One invented parameter set over the ranges of the property above."""
+    def log_uniform(low, high):
+        return float(10.0 ** rng.uniform(np.log10(low), np.log10(high)))
+
+    if rng.random() < 0.5:
+        return {"part": f"RC-{index}", "family": str(rng.choice(["signal", "rectifier", "schottky", "led"])),
+                "is_a": log_uniform(1e-20, 1e-4), "n": rng.uniform(1.0, 4.0), "rs_ohm": rng.uniform(0.0, 50.0),
+                "eg_ev": rng.uniform(0.5, 3.5), "xti": rng.uniform(-5.0, 10.0), "tnom_c": rng.uniform(-20.0, 80.0),
+                "vf_tol_v": rng.uniform(0.0, 0.1), "pd_w": log_uniform(0.01, 50.0), "tj_max_c": rng.uniform(100.0, 200.0)}
+    izt, zzt = log_uniform(1e-4, 0.5), rng.uniform(0.2, 200.0)
+    return {"part": f"RC-{index}", "family": "zener", "vz_v": rng.uniform(1.5, 200.0), "izt_a": izt, "zzt_ohm": zzt,
+            "izk_a": izt * rng.uniform(0.01, 0.5), "zzk_ohm": zzt * rng.uniform(1.0, 100.0),
+            "vz_tol_pct": rng.uniform(0.0, 10.0), "tc_v_per_k": rng.uniform(-0.01, 0.05), "pd_w": log_uniform(0.05, 50.0),
+            "tj_max_c": rng.uniform(100.0, 200.0)}  # fmt: skip
+
+
+def test_few_random_points_end_as_not_converged():
+    # A census over 300 seeded problems of the property's ranges (9,600 points). "Did not
+    # converge" is left where the tolerance is out of reach in double precision (a 1 nV
+    # residual behind a load gain 1 + R/R_L of thousands) or next to runaway. Measured: 32
+    # points here (0.33 %); 95 (0.99 %) before junctions could settle below the ambient at
+    # a negative tolerance, which the bound of 0.6 % catches.
+    rng = np.random.default_rng(20261202)
+    counts = np.zeros(len(STATUS_NAMES), dtype=int)
+    for _ in range(300):
+        records = [_random_record(rng, i) for i in range(rng.integers(1, 5))]
+        parts = PartSet.from_records(records)
+        stacks = rng.integers(-1, len(records), size=(POINTS, 4))
+        stacks[:, 0] = rng.integers(0, len(records), size=POINTS)
+        supply = 10.0 ** rng.uniform(-0.5, 2.5, POINTS)
+        resistor = 10.0 ** rng.uniform(0.0, 7.0, POINTS)
+        ambient = rng.uniform(-55.0, 150.0, POINTS)
+        sign = rng.choice([-1.0, 0.0, 1.0], POINTS)
+        load = np.where(rng.random(POINTS) < 0.5, 0.0, 10.0 ** rng.uniform(-6, -1, POINTS))
+        conductance = np.where(rng.random(POINTS) < 0.7, 0.0, 1.0 / 10.0 ** rng.uniform(1, 6, POINTS))
+        points = solve_operating_points(parts, stacks, supply, resistor, ambient, sign, load, conductance)
+        counts += np.bincount(points.status, minlength=len(STATUS_NAMES))
+    assert counts[STATUS_NOT_CONVERGED] <= 0.006 * counts.sum(), dict(zip(STATUS_NAMES, counts.tolist(), strict=True))
+    assert counts[STATUS_SOLVED] >= 0.3 * counts.sum()
