@@ -204,7 +204,7 @@ def check_lines(design: CheckedDesign) -> list[str]:
         ]
     lines += ["", "Corners (< lowest rail, > highest rail, ! no solution; parts −/+: every part at its low/high tolerance):"]
     lines += _corner_table(design)
-    if ev.solved[0]:
+    if ev.solved[0] and np.isfinite(ev.vout_nom_v[0]):
         lines += [
             "",
             "At nominal:",

@@ -107,8 +107,9 @@ class OperatingPoints:
     status : int array
         Index into :data:`STATUS_NAMES`.
     worst_element_margin : array [1]
-        Least ``1 − P/P_max`` over the stack's elements, ``P_max = min(pd, (Tjmax − Ta)/θ)``
-        (DESIGN §3); −inf where not solved.
+        Least ``1 − max(P, 0)/P_max`` over the stack's elements, ``P_max = min(pd, (Tjmax −
+        Ta)/θ)`` (DESIGN §3); −inf where not solved, or where an element dissipates with
+        nothing allowed (the ambient at or past its Tjmax).
     hottest_junction_c : array [°C]
         Hottest element junction; the ambient where not solved.
     junction_c, element_voltage_v, element_power_w, element_loop_gain : array (n, max_len) or None
@@ -548,7 +549,10 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
     out_margin = np.full(count, -np.inf)
     out_hottest = ambient.copy()
     load_gain = 1.0 + resistor * load_conductance
-    headroom_current = (supply - resistor * load_fixed) / resistor
+    # The most current the supply can drive: with the stack at its least voltage, which a
+    # negative forward tolerance can make negative (V ≥ s·vf_tol per forward element).
+    least_stack_v = (fw.multiplicity * np.minimum(fw.offset, 0.0)).sum(axis=0)
+    headroom_current = (supply - resistor * load_fixed - load_gain * least_stack_v) / resistor
     exhausted = headroom_current <= LEAST_CURRENT_A
     status[exhausted] = STATUS_SUPPLY_EXHAUSTED
     lo = np.full(count, np.log(LEAST_CURRENT_A))
@@ -666,9 +670,11 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
                 load_f = (v_settled[:, finished] * i_done * fw.inverse_p_max[:, finished]).max(axis=0, initial=0.0)
                 load_z = (v_z[:, finished] * i_done * zn.inverse_p_max[:, finished]).max(axis=0, initial=0.0)
             out_margin[where] = 1.0 - np.maximum(load_f, load_z)
+            # The hottest element's junction, which a negative tolerance can put below the
+            # ambient (so the ambient is no floor); empty slots take no part.
             out_hottest[where] = np.maximum(
-                np.maximum(settled_junction_f[:, finished].max(axis=0, initial=-np.inf), ambient[where]),
-                tj_z[:, finished].max(axis=0, initial=-np.inf),
+                np.where(fw.multiplicity > 0, settled_junction_f, -np.inf)[:, finished].max(axis=0, initial=-np.inf),
+                np.where(zn.multiplicity > 0, tj_z, -np.inf)[:, finished].max(axis=0, initial=-np.inf),
             )
             outcome = np.full(where.size, STATUS_NOT_CONVERGED, dtype=np.int8)
             outcome[done[finished]] = STATUS_SOLVED
@@ -678,6 +684,9 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
             outcome[failed & (runaway | pinned)[finished]] = STATUS_RUNAWAY
             status[where] = outcome
             active &= ~finished
+    if active.any():
+        # Out of iterations with a junction held at the ceiling: it would settle above it.
+        status[index[active & pinned]] = STATUS_RUNAWAY
     return out_u, out_v, status, out_margin, out_hottest
 
 
@@ -1296,7 +1305,7 @@ def _record(done, fresh, index, u, current, stack_v, ambient_k, forward, breakdo
     load = work(("record", 1), size)
     load.fill(0.0)
     hottest = work(("record", 2), size)
-    np.copyto(hottest, ambient_k)
+    hottest.fill(-np.inf)  # the hottest element's junction, even below the ambient
     scratch = work(("record", 3), size)
     # Worked out for the whole block, the points not verified included: their iterates may
     # be far out (and overflow), but only verified points, whose voltages are within the

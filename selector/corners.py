@@ -200,11 +200,14 @@ def allowed_power_w(parts: PartSet, part_index: np.ndarray, ambient_c: np.ndarra
 
 
 def dissipation_margin(power_w: np.ndarray, allowed_w: np.ndarray) -> np.ndarray:
-    """``1 − P/P_max`` [1] (DESIGN §3); −inf where nothing is allowed (``P_max ≤ 0``: the
-    ambient at or past the part's Tjmax)."""
+    """``1 − max(P, 0)/P_max`` [1] (DESIGN §3), as the solver reports it: 1 for a part that
+    dissipates nothing (a negative tolerance can make its voltage negative at small
+    currents), −inf for one that dissipates where nothing is allowed (``P_max ≤ 0``: the
+    ambient at or past its Tjmax)."""
+    heat = np.maximum(power_w, 0.0)
     with np.errstate(divide="ignore", invalid="ignore"):
-        margin = 1.0 - power_w / allowed_w
-    return np.where(allowed_w > 0, margin, -np.inf)
+        margin = 1.0 - heat / allowed_w
+    return np.where(heat == 0, 1.0, np.where(allowed_w > 0, margin, -np.inf))
 
 
 def evaluate_designs(

@@ -174,9 +174,11 @@ def _option_entry(dotted: str, raw: object) -> _Entry:
     return _Entry(raw, option, option, from_option=True)
 
 
-def _fail(entry: _Entry, message: str) -> SpecError:
-    error = SpecOptionError if entry.from_option else SpecError
-    return error(f"{entry.place}: {message}")
+def _fail(entry: _Entry, message: str, *involved: _Entry | None) -> SpecError:
+    """The error about ``entry``; a usage error (exit 2) when it, or any other value the
+    clash ``involved``, came from a command-line option."""
+    from_option = entry.from_option or any(other is not None and other.from_option for other in involved)
+    return (SpecOptionError if from_option else SpecError)(f"{entry.place}: {message}")
 
 
 def _read_toml(path: str | Path) -> tuple[str, dict]:
@@ -381,6 +383,8 @@ def _rail(entries: dict[str, _Entry]) -> dict:
         )
     if tolerance <= 0:
         raise _fail(tolerance_entry, f"{_volts(tolerance)} must be above 0 V (e.g. '3 %' or '0.1 V')")
+    if kind is units.PERCENT and value >= 100:
+        raise _fail(tolerance_entry, f"{value:g} %: a tolerance must be below 100 % of the target")
     if tolerance >= target:
         if _blame(tolerance_entry, target_entry)[0] is target_entry:
             raise _fail(target_entry, f"{_volts(target)} is not above {tolerance_entry.label} ({_volts(tolerance)})")
@@ -406,7 +410,9 @@ def _supply(entries: dict[str, _Entry], target_v: float) -> dict:
         if not low <= nominal <= high:
             raise _fail(
                 nominal_entry,
-                f"{_volts(nominal)} is outside the supply range {_volts(low)} … {_volts(high)}",
+                f"{_volts(nominal)} is outside the supply range {_volts(low)} … {_volts(high)}"
+                + (f" ({low_entry.label} … {high_entry.label})" if low_entry.from_option or high_entry.from_option else ""),
+                low_entry, high_entry,
             )
     if target_v >= low:
         target_entry = entries["rail.target"]
@@ -559,10 +565,11 @@ def _resistor(entries: dict[str, _Entry]) -> dict:
                     fixed_entry,
                     f"{_ohms(fixed)} is outside the range {_ohms(low)} … {_ohms(high)} "
                     f"({bound_entry.label})",
+                    bound_entry,
                 )
     elif series_values(series, low, high).size == 0:
         blame = high_entry or low_entry or series_entry
-        raise _fail(blame, f"no {series} value lies in {_ohms(low)} … {_ohms(high)}")
+        raise _fail(blame, f"no {series} value lies in {_ohms(low)} … {_ohms(high)}", low_entry, series_entry)
     return fields
 
 

@@ -13,7 +13,6 @@ from selector.catalog import resources, store
 from selector.catalog.store import default_library_path, open_library, resolve_location
 from selector.errors import LibraryError, OptionError, UnknownPartError
 from selector.partset import FAMILIES
-from selector.stack_notation import part_id_order
 
 
 def test_missing_default_library_is_created_with_the_demo_sets(private_user_dirs):
@@ -130,7 +129,8 @@ def test_in_memory_sqlite_url_works():
 def test_load_partset_is_sorted_filtered_and_may_be_empty(backend_library):
     demo_library = backend_library
     everything = demo_library.load_partset()
-    assert list(everything.part) == sorted(everything.part, key=part_id_order)
+    ids = list(everything.part)
+    assert ids.index("D-SIG1") < ids.index("D-SIG2") < ids.index("Z2V4-A") < ids.index("Z9V1-B") < ids.index("Z10V-A")
     zeners = demo_library.load_partset(["zener"])
     assert set(zeners.family) == {"zener"} and zeners.is_zener.all()
     forward = demo_library.load_partset(["signal", "led"])

@@ -86,6 +86,20 @@ _LOOP_GAIN_AT_AMBIENT_CASE = ([{"part": "RB-0", "family": "led", "is_a": 1e-20, 
                                 "tj_max_c": 199.99999999999997}], 0)  # fmt: skip
 
 
+def _random_points(rng, part_count: int):
+    """POINTS random stacks of up to four of the parts and their conditions: stacks, supply,
+    resistor, ambient, tolerance sign, load current and load conductance."""
+    stacks = rng.integers(-1, part_count, size=(POINTS, 4))
+    stacks[:, 0] = rng.integers(0, part_count, size=POINTS)  # at least one element
+    supply = 10.0 ** rng.uniform(-0.5, 2.5, POINTS)
+    resistor = 10.0 ** rng.uniform(0.0, 7.0, POINTS)
+    ambient = rng.uniform(-55.0, 150.0, POINTS)
+    sign = rng.choice([-1.0, 0.0, 1.0], POINTS)
+    load = np.where(rng.random(POINTS) < 0.5, 0.0, 10.0 ** rng.uniform(-6, -1, POINTS))
+    conductance = np.where(rng.random(POINTS) < 0.7, 0.0, 1.0 / 10.0 ** rng.uniform(1, 6, POINTS))
+    return stacks, supply, resistor, ambient, sign, load, conductance
+
+
 @CASES
 @given(problem=problems())
 @example(problem=_OVERFLOW_CASE)
@@ -94,16 +108,7 @@ _LOOP_GAIN_AT_AMBIENT_CASE = ([{"part": "RB-0", "family": "led", "is_a": 1e-20, 
 def test_random_valid_points_are_solved_within_1_nV_or_flagged_with_a_reason(problem):
     records, seed = problem
     parts = PartSet.from_records(records)
-    rng = np.random.default_rng(seed)
-    width = 4
-    stacks = rng.integers(-1, len(records), size=(POINTS, width))
-    stacks[:, 0] = rng.integers(0, len(records), size=POINTS)  # at least one element
-    supply = 10.0 ** rng.uniform(-0.5, 2.5, POINTS)
-    resistor = 10.0 ** rng.uniform(0.0, 7.0, POINTS)
-    ambient = rng.uniform(-55.0, 150.0, POINTS)
-    sign = rng.choice([-1.0, 0.0, 1.0], POINTS)
-    load = np.where(rng.random(POINTS) < 0.5, 0.0, 10.0 ** rng.uniform(-6, -1, POINTS))
-    conductance = np.where(rng.random(POINTS) < 0.7, 0.0, 1.0 / 10.0 ** rng.uniform(1, 6, POINTS))
+    stacks, supply, resistor, ambient, sign, load, conductance = _random_points(np.random.default_rng(seed), len(records))
     with warnings.catch_warnings(), np.errstate(all="raise", under="ignore"):
         warnings.simplefilter("error")
         points = solve_operating_points(parts, stacks, supply, resistor, ambient, sign, load, conductance, detail=True)
@@ -163,15 +168,7 @@ def test_few_random_points_end_as_not_converged():
     for _ in range(300):
         records = [_random_record(rng, i) for i in range(rng.integers(1, 5))]
         parts = PartSet.from_records(records)
-        stacks = rng.integers(-1, len(records), size=(POINTS, 4))
-        stacks[:, 0] = rng.integers(0, len(records), size=POINTS)
-        supply = 10.0 ** rng.uniform(-0.5, 2.5, POINTS)
-        resistor = 10.0 ** rng.uniform(0.0, 7.0, POINTS)
-        ambient = rng.uniform(-55.0, 150.0, POINTS)
-        sign = rng.choice([-1.0, 0.0, 1.0], POINTS)
-        load = np.where(rng.random(POINTS) < 0.5, 0.0, 10.0 ** rng.uniform(-6, -1, POINTS))
-        conductance = np.where(rng.random(POINTS) < 0.7, 0.0, 1.0 / 10.0 ** rng.uniform(1, 6, POINTS))
-        points = solve_operating_points(parts, stacks, supply, resistor, ambient, sign, load, conductance)
+        points = solve_operating_points(parts, *_random_points(rng, len(records)))
         counts += np.bincount(points.status, minlength=len(STATUS_NAMES))
     assert counts[STATUS_NOT_CONVERGED] <= 0.006 * counts.sum(), dict(zip(STATUS_NAMES, counts.tolist(), strict=True))
     assert counts[STATUS_SOLVED] >= 0.3 * counts.sum()

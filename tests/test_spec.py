@@ -274,7 +274,7 @@ def test_missing_keys_without_a_file_name_the_options():
         ('tolerance = "3 %"', 'tolerance = "5 V"',
          "[rail] tolerance: 5 V is not below [rail] target (5 V)"),
         ('tolerance = "3 %"', 'tolerance = "100 %"',
-         "[rail] tolerance: 5 V is not below [rail] target (5 V)"),
+         "[rail] tolerance: 100 %: a tolerance must be below 100 % of the target"),
         ('tolerance = "3 %"', 'tolerance = "3 mA"',
          "[rail] tolerance: '3 mA' is a current; a voltage or a percentage is expected"),
         ('min = "11 V"', 'min = "14 V"', "[supply] min: 14 V is above [supply] max (13 V)"),

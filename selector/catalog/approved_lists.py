@@ -31,6 +31,7 @@ from selector.catalog.models import LIST_NAME_LENGTH, ApprovedList, ListEntry, P
 from selector.errors import OptionError, RailwrightError, UnknownPartError
 from selector.partset import PartSet
 from selector.spec import LIST_STATUSES, UNUSABLE_STATUSES
+from selector.stack_notation import part_id_order
 from selector.units import shown
 
 #: Statuses a search uses when it names a list but no statuses.
@@ -183,7 +184,7 @@ def lists_summary(library) -> list[dict[str, object]]:
 
 
 def list_entries(library, list_name: str, status: str | None = None) -> list[dict[str, object]]:
-    """The entries of a list (optionally of one status) sorted by part.
+    """The entries of a list (optionally of one status) in part-id order.
 
     Each row has ``part, status, reason, condition, since`` (UTC) and ``by``, plus the
     part's ``family``, ``package``, ``description`` and key parameters
@@ -212,7 +213,7 @@ def list_entries(library, list_name: str, status: str | None = None) -> list[dic
             }
             for entry, part in session.execute(query)
         ]
-    return sorted(rows, key=lambda row: row["part"])
+    return sorted(rows, key=lambda row: part_id_order(row["part"]))
 
 
 #: Part columns an exported list carries beside each entry, for the reader's benefit.
@@ -318,7 +319,7 @@ def stack_notes(view: ListView, parts: PartSet, stack: Sequence[int]) -> tuple[l
 
 
 def compare_lists(library, first: str, second: str) -> list[dict[str, str]]:
-    """Parts whose status (or condition) differs between two lists, sorted by part.
+    """Parts whose status (or condition) differs between two lists, in part-id order.
 
     Each row: ``part``, and the status text on each list (empty when not on it).
     """
@@ -330,7 +331,7 @@ def compare_lists(library, first: str, second: str) -> list[dict[str, str]]:
                 for row in list_entries(library, name)
             }
         )
-    parts = sorted(set(texts[0]) | set(texts[1]))
+    parts = sorted(set(texts[0]) | set(texts[1]), key=part_id_order)
     return [
         {"part": part, first: texts[0].get(part, ""), second: texts[1].get(part, "")}
         for part in parts
