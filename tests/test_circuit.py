@@ -16,7 +16,12 @@ from selector.circuit import (
     family_slots,
     solve_operating_points,
 )
-from selector.devices import self_heated_element, stack_voltage, thermal_voltage_v
+from selector.devices import (
+    JUNCTION_CEILING_C,
+    self_heated_element,
+    stack_voltage,
+    thermal_voltage_v,
+)
 from selector.partset import PartSet
 
 INVENTED_PARTS = [
@@ -133,6 +138,18 @@ def test_extremes_of_current_and_temperature_are_safe(parts):
     assert op.status.tolist() == [STATUS_SOLVED, STATUS_RUNAWAY, STATUS_SOLVED, STATUS_RUNAWAY]
     assert 1e-13 < op.stack_current_a[0] < 1e-9  # picoamps
     assert op.worst_element_margin[2] < 0  # an ambient of 200 °C leaves the parts no allowed power
+
+
+@pytest.mark.parametrize("fast_evaluations", [circuit.FAST_EVALUATIONS, 0], ids=["fast path", "fallback alone"])
+def test_a_junction_past_the_ceiling_is_runaway_in_either_solver_path(parts, monkeypatch, fast_evaluations):
+    # The signal diode at about 10 A (60 V through 5 Ω) would settle near 21,000 °C; at
+    # 0.3 A (60 V through 200 Ω) it settles below the ceiling and is solved.
+    monkeypatch.setattr(circuit, "FAST_EVALUATIONS", fast_evaluations)
+    stacks = np.array([[1, 3, -1]] * 2)
+    with np.errstate(all="raise", under="ignore"):
+        op = solve_operating_points(parts, stacks, np.array([60.0, 60.0]), np.array([5.0, 200.0]), 125.0, 1.0)
+    assert op.status.tolist() == [STATUS_RUNAWAY, STATUS_SOLVED]
+    assert 125.0 < op.hottest_junction_c[1] < JUNCTION_CEILING_C
 
 
 def test_equal_parts_and_padding_give_the_same_answer_as_spelled_out(parts):
