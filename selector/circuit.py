@@ -63,7 +63,10 @@ LEAST_CURRENT_A = 1e-15
 KCL_TOLERANCE_V = 1e-10
 #: Thermal residual at which a forward junction counts as settled [K].
 THERMAL_TOLERANCE_K = 1e-7
-#: Margins below this come from a slot with no allowed power (see _assembled).
+#: Allowed power a slot with none is given [W], so that 1/P_max stays finite (and
+#: 0·1/P_max is no NaN) while any real dissipation exceeds it.
+_NO_ALLOWED_POWER_W = 1e-300
+#: Margins below this can only come from such a slot (see _assembled).
 _NO_ALLOWED_POWER_MARGIN = -1e250
 #: Iterations before a point is given up as not converged.
 MAX_ITERATIONS = 120
@@ -244,8 +247,8 @@ def _assembled(log_current, vout, status, worst_margin, hottest, supply, resisto
     every unsolved point set to its flagged values. A junction above
     :data:`~selector.devices.JUNCTION_CEILING_C` is no physical steady state: runaway."""
     status[(status == STATUS_SOLVED) & (hottest > JUNCTION_CEILING_C)] = STATUS_RUNAWAY
-    # A slot with no allowed power (ambient at or past its Tjmax) carries 1/P_max = 1e300 in
-    # for ∞, so its margin lands far below −1e250, where no real P/P_max can reach: −∞.
+    # A slot with no allowed power (ambient at or past its Tjmax) carries _NO_ALLOWED_POWER_W
+    # in for 0 W, so its margin lands far below −1e250, where no real P/P_max can reach: −∞.
     worst_margin[worst_margin < _NO_ALLOWED_POWER_MARGIN] = -np.inf
     unsolved = np.nonzero(status != STATUS_SOLVED)
     log_current[unsolved] = 0.0
@@ -478,9 +481,9 @@ class _Family:
         theta = parts.theta_ja_k_per_w[part_index]
         self.theta = theta * present
         self.ambient = np.broadcast_to(ambient, part_index.shape)
-        allowed = np.minimum(parts.pd_w[part_index], (parts.tj_max_c[part_index] - self.ambient) / theta)
-        # Empty slots get no limit that could bind: their power is 0 and 1/inverse stays finite.
-        self.inverse_p_max = np.where(present, 1.0 / np.where(allowed > 0, allowed, 1e-300), 0.0)
+        # Empty slots get no limit that could bind: their power is 0.
+        inverse = _inverse_allowed_power(parts.pd_w[part_index], parts.tj_max_c[part_index], theta, self.ambient)
+        self.inverse_p_max = np.where(present, inverse, 0.0)
         if forward:
             n = parts.n[part_index]
             nominal_k = parts.tnom_c[part_index] + ZERO_CELSIUS_K
@@ -664,7 +667,7 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
             out_v[where] = stack_v[finished]
             # Element margin 1 − V·I/P_max and the hottest junction, at the solution.
             i_done = current[finished]
-            # An ambient at or above Tjmax leaves no allowed power (1/P_max = 1e300); the
+            # An ambient at or above Tjmax leaves no allowed power (_NO_ALLOWED_POWER_W); the
             # margin may overflow there, and _assembled makes it −inf.
             with np.errstate(over="ignore"):
                 load_f = (v_settled[:, finished] * i_done * fw.inverse_p_max[:, finished]).max(axis=0, initial=0.0)
@@ -812,13 +815,13 @@ def _key_tables(parts: PartSet, multiplicity: int) -> tuple[np.ndarray, np.ndarr
 
 
 def _inverse_allowed_power(pd, tj_max, theta, ambient_c):
-    """``1/P_max`` [1/W] of a slot, ``P_max = min(pd, (Tjmax − Ta)/θ)`` (DESIGN §3; rows of
-    :func:`_key_tables`, so for the slot's elements together); a limit at or below 0 W
-    counts as 1e-300 W, which any power exceeds."""
+    """``1/P_max`` [1/W], ``P_max = min(pd, (Tjmax − Ta)/θ)`` (DESIGN §3), of one element or,
+    from rows of :func:`_key_tables`, of a slot's elements together; a limit at or below 0 W
+    counts as :data:`_NO_ALLOWED_POWER_W`, which any power exceeds."""
     allowed = np.subtract(tj_max, ambient_c)
     allowed /= theta
     np.minimum(allowed, pd, out=allowed)
-    np.maximum(allowed, 1e-300, out=allowed)
+    np.maximum(allowed, _NO_ALLOWED_POWER_W, out=allowed)
     return np.divide(1.0, allowed, out=allowed)
 
 

@@ -10,12 +10,12 @@ After a successful call the library's export imports back unchanged. All parts i
 
 from __future__ import annotations
 
-import csv
 import io
 import math
 
 import pytest
 from click.testing import CliRunner
+from csv_fuzzing import assert_located_errors, spoiled_csv_bytes
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -65,23 +65,7 @@ def parts_files(draw) -> bytes:
         if draw(st.integers(0, 9)) == 0:
             cells["family"] = draw(st.sampled_from(FAMILY_CELLS))
         rows.append([cells.get(column, draw(_CELL)) for column in columns])
-    delimiter = draw(st.sampled_from([",", ",", ",", ";"]))
-    buffer = io.StringIO()
-    writer = csv.writer(buffer, delimiter=delimiter, lineterminator=draw(st.sampled_from(["\n", "\r\n"])))
-    writer.writerow(columns)
-    writer.writerows(rows)
-    text = buffer.getvalue()
-    encoding = draw(st.sampled_from(["utf-8", "utf-8", "utf-8", "utf-8-sig", "utf-16", "latin-1", "cp1252"]))
-    data = text.encode(encoding, errors="replace")
-    spoil = draw(st.integers(0, 7))
-    if spoil == 0 and data:  # truncated anywhere
-        data = data[: draw(st.integers(0, len(data)))]
-    elif spoil == 1:  # a NUL or stray byte somewhere
-        at = draw(st.integers(0, len(data)))
-        data = data[:at] + draw(st.sampled_from([b"\x00", b"\xff", b"\x80", b"\""])) + data[at:]
-    elif spoil == 2:  # an unterminated quote
-        data += b'"unterminated'
-    return data
+    return spoiled_csv_bytes(draw, columns, rows)
 
 
 @pytest.fixture(scope="module")
@@ -128,8 +112,5 @@ def test_parts_import_of_any_file_is_clean_or_a_located_error_and_leaves_the_lib
         plan = library.import_parts_file(load_parts_csv(exported), dry_run=True)
         assert plan.added == [] and plan.changed == []
     else:
-        assert result.exit_code in (1, 2), (result.exit_code, output)
-        errors = [line for line in output.splitlines() if not line.startswith("Warning: ")]
-        assert errors[0].startswith(f"Error: {csv_path}")
-        assert all(line.startswith(str(csv_path)) for line in errors[1:]), errors
+        assert_located_errors(result.exit_code, output, csv_path)
         assert after == before
