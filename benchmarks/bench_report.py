@@ -26,14 +26,14 @@ import time
 from pathlib import Path
 
 from selector.catalog.store import open_library
-from selector.report_html import (
+from selector.search.engine import seek
+from selector.spec.rail_spec import load_spec
+from selector.views.report_html import (
     DEFAULT_SCATTER_DESIGNS,
     DEFAULT_SWEEP_DESIGNS,
     search_review,
     write_report,
 )
-from selector.search import seek
-from selector.spec import load_spec
 
 DEMO_SPEC = {"rail.target": "5V", "rail.tolerance": "3%", "supply.min": "11V", "supply.max": "13V",
              "load.min": "0", "load.max": "10mA", "ambient.min": "0", "ambient.max": "50"}

@@ -19,13 +19,13 @@ import time
 
 import numpy as np
 
-from selector.candidates import iterate_multisets
-from selector.corners import allowed_power_w, worst_case_corners
-from selector.devices import self_heated_element, stack_voltage
-from selector.eseries import series_values
-from selector.partset import PartSet
-from selector.search import search_library
-from selector.spec import RailSpec
+from selector.physics.corners import allowed_power_w, worst_case_corners
+from selector.physics.devices import self_heated_element, stack_voltage
+from selector.physics.partset import PartSet
+from selector.search.candidates import iterate_multisets
+from selector.search.engine import search_library
+from selector.spec.eseries import series_values
+from selector.spec.rail_spec import RailSpec
 
 E24_STEPS = (1.0, 1.1, 1.2, 1.3, 1.5, 1.6, 1.8, 2.0, 2.2, 2.4, 2.7, 3.0, 3.3, 3.6, 3.9, 4.3, 4.7, 5.1, 5.6, 6.2, 6.8, 7.5, 8.2, 9.1)
 

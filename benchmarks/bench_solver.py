@@ -5,16 +5,16 @@ two zener kinds, mixed at random), self-heating on. Two workloads:
 
 * random points: every point its own stack and conditions over a plausible rail range;
 * stack-major: random stacks, each with its own series resistor, at the 32 corners of one
-  rail spec, through :func:`selector.corners.evaluate_designs` (which also solves each
+  rail spec, through :func:`selector.physics.corners.evaluate_designs` (which also solves each
   design's nominal point, not counted in the figure, and reduces the metrics) and through
-  :func:`selector.circuit.solve_stack_corners` alone.
+  :func:`selector.physics.circuit.solve_stack_corners` alone.
 
 Every vectorised workload runs ``--repeat`` times; the figures are the median run's and the
 best run's, in wall time and in CPU time of the process (CPU time is less affected by
 other work on the machine, but a busy neighbour core still slows the shared caches).
 
 The reference solves a subsample of the random points one at a time with
-``scipy.optimize.brentq`` on the same model (``selector.devices.stack_voltage``).
+``scipy.optimize.brentq`` on the same model (``selector.physics.devices.stack_voltage``).
 
 Run:  python benchmarks/bench_solver.py [--points N] [--stacks S] [--reference M] [--repeat K]
 """
@@ -27,11 +27,11 @@ import time
 import numpy as np
 from scipy.optimize import brentq
 
-from selector.circuit import solve_operating_points, solve_stack_corners
-from selector.corners import CORNER_COUNT, evaluate_designs, worst_case_corners
-from selector.devices import stack_voltage
-from selector.partset import PartSet
-from selector.spec import RailSpec
+from selector.physics.circuit import solve_operating_points, solve_stack_corners
+from selector.physics.corners import CORNER_COUNT, evaluate_designs, worst_case_corners
+from selector.physics.devices import stack_voltage
+from selector.physics.partset import PartSet
+from selector.spec.rail_spec import RailSpec
 
 INVENTED_PARTS = [
     dict(part="B-SIG", family="signal", is_a=2e-9, n=1.9, rs_ohm=0.6, vf_tol_v=0.02, pd_w=0.4),

@@ -13,11 +13,11 @@ __all__ = ["__version__", "seek", "choose_resistors"]
 def __getattr__(name: str):
     # Imported on first use so that ``import selector`` stays light for the CLI.
     if name == "seek":
-        from selector.search import seek
+        from selector.search.engine import seek
 
         return seek
     if name == "choose_resistors":
-        from selector.resistor_choice import choose_resistors
+        from selector.search.resistor_choice import choose_resistors
 
         return choose_resistors
     raise AttributeError(f"module 'selector' has no attribute {name!r}")

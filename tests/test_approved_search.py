@@ -10,8 +10,8 @@ import pytest
 
 from selector.catalog import list_changes as changes
 from selector.errors import SearchError
-from selector.search import seek
-from selector.spec import load_spec
+from selector.search.engine import seek
+from selector.spec.rail_spec import load_spec
 
 RAIL = {
     "rail.target": "5.1 V", "rail.tolerance": "5 %", "supply.min": "11 V", "supply.max": "13 V",

@@ -71,7 +71,7 @@ def test_the_database_refuses_to_change_or_delete_events(backend_db, statement):
 
 
 def test_history_csv_columns(backend_library, tmp_path):
-    from selector.csv_safety import write_rows
+    from selector.files.csv_writer import write_rows
 
     changes.create_list(backend_library, "line-a", by="=HYPERLINK(x)")
     path = tmp_path / "history.csv"

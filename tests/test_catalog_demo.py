@@ -2,7 +2,7 @@
 
 The ranges checked here are rules of thumb, "common practice (no source)" unless said
 otherwise; the voltages are computed with the contract's element models (DESIGN §3)
-through :mod:`selector.devices`, and cross-checked against the plain SPICE diode
+through :mod:`selector.physics.devices`, and cross-checked against the plain SPICE diode
 equation for the forward sets.
 """
 
@@ -16,9 +16,9 @@ from scipy import constants
 
 from selector.catalog.parts_import import load_parts_csv
 from selector.catalog.resources import demo_csv_path
-from selector.devices import element_voltage_slopes
-from selector.eseries import decade_values
-from selector.partset import PART_COLUMNS, PartSet
+from selector.physics.devices import element_voltage_slopes
+from selector.physics.partset import PART_COLUMNS, PartSet
+from selector.spec.eseries import decade_values
 
 
 @pytest.fixture(scope="module")

@@ -241,7 +241,7 @@ def test_export_import_round_trip_is_exact_for_any_float_and_text(tmp_path, is_a
 
 
 def test_rules_cover_every_numeric_column_with_its_kind():
-    from selector import units
+    from selector.spec import units
 
     assert RULES["tc_v_per_k"].kind is units.VOLTAGE_TEMPCO
     assert RULES["theta_ja_k_per_w"].kind is units.THERMAL_RESISTANCE

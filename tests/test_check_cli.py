@@ -9,8 +9,8 @@ from click.testing import CliRunner
 
 from selector.catalog.store import open_library
 from selector.cli import main
-from selector.resistor_choice import choose_resistors
-from selector.spec import load_spec
+from selector.search.resistor_choice import choose_resistors
+from selector.spec.rail_spec import load_spec
 
 RAIL_TOML = """
 [rail]

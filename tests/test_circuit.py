@@ -7,8 +7,8 @@ import pytest
 from scipy.optimize import brentq
 from scipy.special import wrightomega
 
-from selector import circuit
-from selector.circuit import (
+from selector.physics import circuit
+from selector.physics.circuit import (
     STATUS_BELOW_LEAST_CURRENT,
     STATUS_RUNAWAY,
     STATUS_SOLVED,
@@ -16,13 +16,13 @@ from selector.circuit import (
     family_slots,
     solve_operating_points,
 )
-from selector.devices import (
+from selector.physics.devices import (
     JUNCTION_CEILING_C,
     self_heated_element,
     stack_voltage,
     thermal_voltage_v,
 )
-from selector.partset import PartSet
+from selector.physics.partset import PartSet
 
 INVENTED_PARTS = [
     # invented: a diode with negligible self-heating, for closed-form checks

@@ -7,9 +7,9 @@ from types import SimpleNamespace
 import numpy as np
 import pytest
 
-from selector import corners as corners_module
-from selector.circuit import solve_operating_points, solve_stack_corners
-from selector.corners import (
+from selector.physics import corners as corners_module
+from selector.physics.circuit import solve_operating_points, solve_stack_corners
+from selector.physics.corners import (
     REASON_NAMES,
     design_metrics,
     evaluate_designs,
@@ -17,8 +17,8 @@ from selector.corners import (
     smallest_standard_rating_w,
     worst_case_corners,
 )
-from selector.partset import PartSet
-from selector.spec import RailSpec
+from selector.physics.partset import PartSet
+from selector.spec.rail_spec import RailSpec
 
 INVENTED_PARTS = [
     dict(part="INV-SIG", family="signal", is_a=2e-9, n=1.9, rs_ohm=0.6, vf_tol_v=0.02, pd_w=0.4, if_max_a=0.2),

@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from scipy import constants
 
-from selector.corners import allowed_power_w
-from selector.devices import (
+from selector.physics.corners import allowed_power_w
+from selector.physics.devices import (
     JUNCTION_CEILING_C,
     element_voltage_slopes,
     forward_log_saturation_current,
@@ -15,7 +15,7 @@ from selector.devices import (
     stack_voltage,
     thermal_voltage_v,
 )
-from selector.partset import PartSet
+from selector.physics.partset import PartSet
 
 INVENTED_PARTS = [
     # invented: a small-signal silicon diode

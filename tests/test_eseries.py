@@ -1,4 +1,4 @@
-"""Tests of the IEC 60063 preferred-number series (selector.eseries).
+"""Tests of the IEC 60063 preferred-number series (selector.spec.eseries).
 
 Every table below is written out as literals, independently of the code (which derives
 E48 … E192 by rounding 10**(i/N)). Source of each: the value tables of IEC 60063:2015 —
@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 
 from selector.errors import OptionError
-from selector.eseries import SERIES_STEPS, decade_values, nearest_series_value, series_values
+from selector.spec.eseries import SERIES_STEPS, decade_values, nearest_series_value, series_values
 
 # IEC 60063:2015, two-figure series — from memory.
 E3 = [1.0, 2.2, 4.7]

@@ -1,6 +1,6 @@
 """Export safety: no CSV the tool writes holds a cell a spreadsheet would run as a formula.
 
-The rule (``selector.csv_safety``): a text cell starting with ``=``, ``+``, ``-``, ``@``,
+The rule (``selector.files.csv_cells``): a text cell starting with ``=``, ``+``, ``-``, ``@``,
 a tab or a carriage return — after any apostrophes already there — gets one leading
 apostrophe; numbers are written as numbers; the import removes exactly that apostrophe.
 The trigger characters are those of OWASP's *CSV Injection* page (community page).
@@ -20,7 +20,8 @@ from hypothesis import strategies as st
 
 import selector
 from selector.cli import main
-from selector.csv_safety import FORMULA_TRIGGERS, neutralise_cell, restore_cell, write_rows
+from selector.files.csv_cells import FORMULA_TRIGGERS, neutralise_cell, restore_cell
+from selector.files.csv_writer import write_rows
 
 HYPERLINK = '=HYPERLINK("http://x","y")'
 SPEC_OPTIONS = ["--target", "0.65", "--tolerance", "20%", "--supply-min", "4.5", "--supply-max", "5.5",
@@ -99,11 +100,11 @@ def test_neutralised_cells_never_start_with_a_trigger_and_restore_exactly(text):
 
 
 def _csv_writers_outside_csv_safety() -> list[str]:
-    """Every call that writes CSV (csv.writer, csv.DictWriter, DataFrame.to_csv) outside csv_safety."""
+    """Every call that writes CSV (csv.writer, csv.DictWriter, DataFrame.to_csv) outside selector.files.csv_writer."""
     found = []
     root = Path(selector.__file__).parent
     for path in sorted(root.rglob("*.py")):
-        if path.name == "csv_safety.py":
+        if path.name == "csv_writer.py":
             continue
         for node in ast.walk(ast.parse(path.read_text(encoding="utf-8"))):
             if isinstance(node, ast.Attribute) and node.attr in ("writer", "DictWriter", "to_csv", "writerow", "writerows"):
@@ -118,8 +119,8 @@ def test_csv_safety_is_the_one_csv_writer():
 def test_an_unwritable_csv_destination_is_one_line_and_leaves_nothing(tmp_path):
     import pytest
 
-    from selector.csv_safety import write_rows
     from selector.errors import OptionError
+    from selector.files.csv_writer import write_rows
 
     destination = tmp_path / "no such folder" / "out.csv"
     with pytest.raises(OptionError, match=r"^cannot write '.*out\.csv': No such file or directory$"):

@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 from scipy import constants
 
-from selector.devices import thermal_voltage_v
 from selector.errors import InputDataError
-from selector.fitting import fit_forward_points
+from selector.physics.devices import thermal_voltage_v
+from selector.physics.fitting import fit_forward_points
 
 
 def points(is_a, n, rs_ohm, currents, temperature_c=25.0):

@@ -30,8 +30,8 @@ from selector.catalog.approved_lists import list_entries
 from selector.catalog.audit import history
 from selector.catalog.store import open_library
 from selector.cli import main
-from selector.csv_safety import write_rows
-from selector.spec import LIST_STATUSES
+from selector.files.csv_writer import write_rows
+from selector.spec.rail_spec import LIST_STATUSES
 
 CASES = settings(
     max_examples=2000,

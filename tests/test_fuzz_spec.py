@@ -20,7 +20,7 @@ from hypothesis import strategies as st
 
 from selector.cli import main
 from selector.errors import SpecError
-from selector.spec import OPTION_FOR_KEY, load_spec
+from selector.spec.rail_spec import OPTION_FOR_KEY, load_spec
 
 CASES = settings(
     max_examples=2000,

@@ -12,9 +12,9 @@ import math
 from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
-from selector import units
 from selector.errors import QuantityError, StackNotationError
-from selector.stack_notation import MAX_STACK_ELEMENTS, format_stack, parse_stack
+from selector.spec import units
+from selector.spec.stack_notation import MAX_STACK_ELEMENTS, format_stack, parse_stack
 
 CASES = settings(max_examples=2000, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 

@@ -14,9 +14,9 @@ import sys
 import pytest
 from click.testing import CliRunner
 
-from selector import candidates
 from selector.catalog.parts_import import MAX_FILE_BYTES, MAX_ROWS
 from selector.cli import main
+from selector.search import candidates
 
 SPEC = ["--target", "5V", "--tolerance", "3%", "--supply-min", "11V", "--supply-max", "13V",
         "--load-min", "0", "--load-max", "10mA", "--ambient-min", "0", "--ambient-max", "50"]  # fmt: skip

@@ -9,9 +9,9 @@ import pytest
 from scipy import constants
 
 from selector.catalog.model_cards import load_model_cards, parse_model_cards, parse_spice_number
-from selector.devices import element_voltage_slopes
 from selector.errors import InputDataError
-from selector.partset import PartSet
+from selector.physics.devices import element_voltage_slopes
+from selector.physics.partset import PartSet
 
 CARDS = """* invented test cards
 .MODEL D-C1 d(Is=2.5n n=1.8
@@ -142,7 +142,7 @@ def test_zener_without_bv_is_refused(tmp_path):
 
 def test_zener_mapping_reproduces_the_card_breakdown_curve(tmp_path):
     """The derived datasheet points, put through the contract's breakdown element
-    (DESIGN §3, via selector.devices), give back the card's breakdown branch
+    (DESIGN §3, via selector.physics.devices), give back the card's breakdown branch
     V = BV + N·Vt·ln(I/IBV) + RS·I (SPICE3 diode model, from memory) at every current."""
     path = tmp_path / "z.lib"
     path.write_text(".model Z-C1 D(IS=1e-14 N=1.2 RS=2 BV=5.1 IBV=1m TNOM=25)\n")

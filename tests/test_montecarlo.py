@@ -6,10 +6,10 @@ import numpy as np
 import pytest
 from scipy.stats import norm
 
-from selector.corners import evaluate_designs
-from selector.montecarlo import DEFAULT_SAMPLES, run_monte_carlo, truncated_unit_normal
-from selector.partset import PartSet
-from selector.spec import RailSpec
+from selector.physics.corners import evaluate_designs
+from selector.physics.montecarlo import DEFAULT_SAMPLES, run_monte_carlo, truncated_unit_normal
+from selector.physics.partset import PartSet
+from selector.spec.rail_spec import RailSpec
 
 PARTS = PartSet.from_records([
     dict(part="INV-SIG", family="signal", is_a=2e-9, n=1.9, rs_ohm=0.6, vf_tol_v=0.02, pd_w=0.4),

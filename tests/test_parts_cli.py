@@ -7,7 +7,7 @@ import pytest
 
 from selector.catalog.store import default_library_path, head_revision, open_library
 from selector.cli import main
-from selector.stack_notation import part_id_order
+from selector.spec.stack_notation import part_id_order
 
 GOOD = "part,family,is_a,n,pd_w,description\nD-T1,signal,2.5n,1.9,500m,test diode\n"
 

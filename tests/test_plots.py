@@ -9,10 +9,10 @@ import matplotlib.image
 import numpy as np
 import pytest
 
-from selector import plots
-from selector.montecarlo import run_monte_carlo
-from selector.partset import PartSet
-from selector.spec import RailSpec
+from selector.physics.montecarlo import run_monte_carlo
+from selector.physics.partset import PartSet
+from selector.spec.rail_spec import RailSpec
+from selector.views import plots
 
 #: Invented parts. LIN-Z has zzk = zzt, so a = 0 and its breakdown curve is the straight
 #: line vz + rz·(I − izt) with rz = zzt (DESIGN §3), and no tempco: a closed form exists.

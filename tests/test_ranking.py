@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from selector.errors import OptionError
-from selector.ranking import (
+from selector.search.ranking import (
     beats_threshold,
     pareto_front,
     quantised_error,
@@ -58,9 +58,9 @@ def test_beats_threshold_is_strict_lexicographic():
 
 @pytest.mark.parametrize("order", [("error", "margin", "parts"), ("margin", "error", "parts"), ("parts", "error", "margin")])
 def test_largest_unbeaten_error_is_beaten_above_and_only_error_decides(order):
-    from selector.ranking import largest_unbeaten_error
-    from selector.search import lower_bound_keys
-    from selector.spec import RailSpec
+    from selector.search.engine import lower_bound_keys
+    from selector.search.ranking import largest_unbeaten_error
+    from selector.spec.rail_spec import RailSpec
 
     spec = RailSpec(target_v=5.0, tolerance_v=0.15, supply_min_v=11.0, supply_max_v=13.0, supply_nominal_v=12.0, load_kind="current",
                     load_min=0.0, load_max=0.01, ambient_min_c=0.0, ambient_max_c=50.0)

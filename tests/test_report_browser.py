@@ -14,8 +14,8 @@ import matplotlib.image
 import pytest
 from test_report_html import SPEC_OPTIONS, make_library
 
-from selector.report_html import search_review, write_report
-from selector.spec import load_spec
+from selector.spec.rail_spec import load_spec
+from selector.views.report_html import search_review, write_report
 
 CHROMIUM = next((found for name in ("chromium", "chromium-browser") if (found := shutil.which(name))), None)
 if CHROMIUM is None and Path("/usr/bin/chromium").exists():

@@ -10,14 +10,14 @@ import pytest
 
 from selector.catalog.store import open_library
 from selector.errors import OptionError, UnknownPartError
-from selector.report_html import (
+from selector.spec.rail_spec import load_spec
+from selector.views.report_html import (
     ReviewReport,
     design_review,
     render_html,
     search_review,
     write_report,
 )
-from selector.spec import load_spec
 
 HOSTILE_DESCRIPTION = "invented <script>alert('x')</script> see http://parts.invalid/z & co"
 

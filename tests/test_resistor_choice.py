@@ -11,10 +11,10 @@ import numpy as np
 import pytest
 from test_search import brute_force, invented_parts, rail
 
-from selector.corners import REASON_NAMES, evaluate_designs
 from selector.errors import SearchError
-from selector.eseries import series_values
-from selector.resistor_choice import candidate_resistors, choose_resistors, pick_per_stack
+from selector.physics.corners import REASON_NAMES, evaluate_designs
+from selector.search.resistor_choice import candidate_resistors, choose_resistors, pick_per_stack
+from selector.spec.eseries import series_values
 
 
 def brute_choice(values, error, feasible_row):
@@ -94,7 +94,7 @@ def test_infeasible_stack_keeps_a_reason():
 def test_corner_screen_bounds_the_full_evaluation(changes):
     from test_search import random_invented_library
 
-    from selector.resistor_choice import screen_designs
+    from selector.search.resistor_choice import screen_designs
 
     for seed in range(3):
         parts, spec = (invented_parts() if seed == 0 else random_invented_library(seed)), rail(**changes)

@@ -8,14 +8,19 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from selector.candidates import candidate_count, check_search_size, iterate_multisets, usable_parts
-from selector.corners import evaluate_designs
 from selector.errors import SearchError
-from selector.eseries import series_values
-from selector.partset import PartSet
-from selector.search import REASON_RANK, search_library, seek
-from selector.spec import RailSpec
-from selector.stack_bounds import bound_stacks, part_bound_tables
+from selector.physics.corners import evaluate_designs
+from selector.physics.partset import PartSet
+from selector.search.candidates import (
+    candidate_count,
+    check_search_size,
+    iterate_multisets,
+    usable_parts,
+)
+from selector.search.engine import REASON_RANK, search_library, seek
+from selector.search.stack_bounds import bound_stacks, part_bound_tables
+from selector.spec.eseries import series_values
+from selector.spec.rail_spec import RailSpec
 
 INVENTED = [
     dict(part="TF-SIG", family="signal", description="invented", is_a=2e-9, n=1.8, rs_ohm=0.5, pd_w=0.4, vf_tol_v=0.02),
@@ -98,7 +103,7 @@ def test_seek_frame_lists_contract_columns_and_fills_with_closest_feasible():
 
 
 def test_rank_pruning_is_counted_and_loses_nothing(monkeypatch):
-    import selector.search as search_module
+    import selector.search.engine as search_module
 
     monkeypatch.setattr(search_module, "FIRST_BATCH_STACKS", 4)
     monkeypatch.setattr(search_module, "BATCH_STACKS", 4)
@@ -145,8 +150,8 @@ def random_invented_library(seed: int) -> PartSet:
 
 def brute_force_shortlist(parts: PartSet, spec: RailSpec, top: int):
     """Plain reference: each stack's DESIGN §3 resistor by a loop over every value, then the rank order."""
-    from selector.ranking import sort_designs
-    from selector.resistor_choice import candidate_resistors
+    from selector.search.ranking import sort_designs
+    from selector.search.resistor_choice import candidate_resistors
 
     stacks = np.concatenate(list(iterate_multisets(len(parts), spec.max_parts)))
     values = candidate_resistors(spec)
@@ -192,7 +197,7 @@ def test_random_libraries_shortlist_equals_brute_force(seed):
 
 
 def test_design_bounds_hold_for_every_feasible_design():
-    from selector.design_bounds import cell_bound_tables, design_bounds
+    from selector.search.design_bounds import cell_bound_tables, design_bounds
 
     for changes in ({}, {"load_kind": "resistance", "load_min": 1000.0, "load_max": 5000.0}, {"min_margin": 0.3, "ambient_max_c": 85.0}):
         parts, spec = invented_parts(), rail(**changes)
@@ -208,7 +213,7 @@ def test_design_bounds_hold_for_every_feasible_design():
 
 
 def test_bounded_multisets_are_exactly_those_within_the_limit():
-    from selector.candidates import (
+    from selector.search.candidates import (
         bounded_multiset_count,
         iterate_bounded_multisets,
         multiset_chunks,
@@ -234,7 +239,7 @@ def test_bounded_multisets_are_exactly_those_within_the_limit():
 
 
 def test_separable_bounds_are_below_and_above_every_stack_bound():
-    from selector.stack_bounds import separable_rail_bounds
+    from selector.search.stack_bounds import separable_rail_bounds
 
     for changes in ({}, {"load_kind": "resistance", "load_min": 1000.0, "load_max": 5000.0}, {"min_margin": 0.3}):
         parts, spec = invented_parts(), rail(max_parts=3, **changes)
@@ -255,8 +260,8 @@ def test_separable_bounds_are_below_and_above_every_stack_bound():
 @pytest.mark.parametrize("changes", [{}, {"load_kind": "resistance", "load_min": 1000.0, "load_max": 5000.0},
                                      {"min_margin": 0.3, "ambient_max_c": 85.0}])
 def test_range_bounds_with_capped_cells_hold_for_every_feasible_design(changes):
-    from selector.design_bounds import cell_bound_tables, range_bounds
-    from selector.stack_bounds import part_current_caps
+    from selector.search.design_bounds import cell_bound_tables, range_bounds
+    from selector.search.stack_bounds import part_current_caps
 
     parts, spec = invented_parts(), rail(**changes)
     stacks, values, error, evaluation = brute_force(parts, spec)
@@ -283,8 +288,12 @@ def test_range_bounds_with_capped_cells_hold_for_every_feasible_design(changes):
 
 @pytest.mark.parametrize("seed", [1, 3, 5])
 def test_largest_stacks_left_out_are_counted_and_lose_nothing(seed, monkeypatch):
-    import selector.search as search_module
-    from selector.candidates import candidate_count, iterate_bounded_multisets, multiset_count
+    import selector.search.engine as search_module
+    from selector.search.candidates import (
+        candidate_count,
+        iterate_bounded_multisets,
+        multiset_count,
+    )
 
     enumerated = []
 
@@ -307,10 +316,10 @@ def test_largest_stacks_left_out_are_counted_and_lose_nothing(seed, monkeypatch)
 
 
 def test_cell_tables_built_in_two_processes_equal_one(monkeypatch):
-    import selector.search as search_module
-    from selector.design_bounds import cell_bound_tables
-    from selector.resistor_choice import candidate_resistors
-    from selector.stack_bounds import part_current_caps
+    import selector.search.engine as search_module
+    from selector.search.design_bounds import cell_bound_tables
+    from selector.search.resistor_choice import candidate_resistors
+    from selector.search.stack_bounds import part_current_caps
 
     monkeypatch.setattr(search_module, "PARALLEL_TABLE_PARTS", 1)
     parts, spec = invented_parts(), rail()

@@ -1,7 +1,7 @@
 """Solver robustness: random valid parts, stacks, resistors and corners never give NaN or warnings.
 
 Every point is either solved with a KCL residual within 1 nV, or flagged unsolved with a
-named reason (``selector.circuit.STATUS_NAMES``). Floating-point trouble raises
+named reason (``selector.physics.circuit.STATUS_NAMES``). Floating-point trouble raises
 (``np.errstate(all="raise", under="ignore")``) and warnings are errors. Parameter ranges are those the
 parts import accepts, narrowed only where a value would be absurd for any real part.
 All parts are invented.
@@ -15,14 +15,14 @@ import numpy as np
 from hypothesis import HealthCheck, Phase, example, given, settings
 from hypothesis import strategies as st
 
-from selector.circuit import (
+from selector.physics.circuit import (
     STATUS_NAMES,
     STATUS_NOT_CONVERGED,
     STATUS_SOLVED,
     solve_operating_points,
 )
-from selector.partset import PartSet
-from selector.stack_bounds import voltage_range_fixed_current
+from selector.physics.partset import PartSet
+from selector.search.stack_bounds import voltage_range_fixed_current
 
 CASES = settings(max_examples=2000, deadline=None, suppress_health_check=[HealthCheck.too_slow],
                  phases=[Phase.explicit, Phase.generate])
@@ -121,7 +121,7 @@ def test_random_valid_points_are_solved_within_1_nV_or_flagged_with_a_reason(pro
     assert all(STATUS_NAMES[code] for code in points.status[~solved])
     assert not np.isnan(points.worst_element_margin[solved]).any()
     # The reported hottest junction is the hottest element's, each element solved on its own
-    # (selector.devices.self_heated_element).
+    # (selector.physics.devices.self_heated_element).
     hottest = np.where(stacks >= 0, points.junction_c, -np.inf).max(axis=1)
     np.testing.assert_allclose(points.hottest_junction_c[solved], hottest[solved], rtol=0, atol=1e-3)
 

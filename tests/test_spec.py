@@ -1,4 +1,4 @@
-"""Tests of the rail requirement loader (selector.spec.load_spec) and its validation.
+"""Tests of the rail requirement loader (selector.spec.rail_spec.load_spec) and its validation.
 
 Every spec here is invented for the test. Error texts are asserted exactly: a user sees
 them as the one line of an ``Error:``.
@@ -11,7 +11,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from selector.errors import SpecError
-from selector.spec import (
+from selector.spec.rail_spec import (
     OPTION_FOR_KEY,
     REQUIRED_KEYS,
     RailSpec,

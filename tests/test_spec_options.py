@@ -14,7 +14,7 @@ from click.testing import CliRunner
 
 from selector.cli import RailwrightGroup
 from selector.cli.spec_options import describe_spec, spec_options, spec_to_dict
-from selector.spec import OPTION_FOR_KEY, RailSpec, load_spec
+from selector.spec.rail_spec import OPTION_FOR_KEY, RailSpec, load_spec
 
 
 @click.group(cls=RailwrightGroup)

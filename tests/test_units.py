@@ -1,4 +1,4 @@
-"""Tests of quantity parsing and formatting (selector.units).
+"""Tests of quantity parsing and formatting (selector.spec.units).
 
 Prefix powers are the SI prefixes of the BIPM SI Brochure, 9th ed. (2019), Table 7. The RKM
 code forms ("4k7", "2R2", "R47": the letter stands in place of the decimal point, R for
@@ -15,9 +15,9 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from selector import units
 from selector.errors import QuantityError
-from selector.units import (
+from selector.spec import units
+from selector.spec.units import (
     CURRENT,
     DIMENSIONLESS,
     PERCENT,

@@ -21,10 +21,11 @@ from pathlib import Path
 from selector.catalog.approved_lists import KEY_PARAMETERS, Entry, entry_problems, missing_parts
 from selector.catalog.list_changes import ListPlan, apply_entries
 from selector.catalog.parts_import import MAX_ROWS, decode_text, file_digest, read_input_bytes
-from selector.csv_safety import restore_cell, write_rows
 from selector.errors import InputDataError
-from selector.stack_notation import is_valid_part_id
-from selector.units import shown
+from selector.files.csv_cells import restore_cell
+from selector.files.csv_writer import write_rows
+from selector.spec.stack_notation import is_valid_part_id
+from selector.spec.units import shown
 
 #: Columns a list CSV must have, and the columns an export writes.
 LIST_COLUMNS: tuple[str, ...] = ("part", "status", "reason", "condition")

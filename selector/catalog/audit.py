@@ -22,9 +22,9 @@ from sqlalchemy.orm import Session
 
 from selector.catalog.models import PERSON_LENGTH, AuditEvent
 from selector.catalog.parts_import import ImportPlan
-from selector.csv_safety import format_number
 from selector.errors import OptionError
-from selector.units import shown
+from selector.files.csv_cells import format_number
+from selector.spec.units import shown
 
 ACTION_PART_ADDED = "part added"
 ACTION_PART_CHANGED = "part changed"

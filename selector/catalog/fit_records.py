@@ -1,7 +1,7 @@
 """Turning datasheet points and a fit of them into a part record for the library.
 
 The fit itself (least squares of the forward element's equation) is
-:func:`selector.fitting.fit_forward_points`; this module reads the points as the user
+:func:`selector.physics.fitting.fit_forward_points`; this module reads the points as the user
 writes them, and merges the fitted ``is_a``, ``n`` and ``rs_ohm`` with the part's other
 fields (kept from the library, or given as options) before the usual validation.
 """
@@ -13,10 +13,10 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 
-from selector import units
 from selector.catalog.parts_import import PartsFile, RawRow, validate_rows
 from selector.errors import OptionError
-from selector.partset import BREAKDOWN_FAMILIES
+from selector.physics.partset import BREAKDOWN_FAMILIES
+from selector.spec import units
 
 #: Label of a fit in messages and in the import log.
 FIT_LABEL = "datasheet points"

@@ -44,7 +44,6 @@ from dataclasses import dataclass, field
 from decimal import Decimal, DecimalException
 from pathlib import Path
 
-from selector import units
 from selector.catalog.parts_import import (
     PartsFile,
     RawRow,
@@ -54,9 +53,10 @@ from selector.catalog.parts_import import (
     read_input_bytes,
     validate_rows,
 )
-from selector.devices import thermal_voltage_v
 from selector.errors import InputDataError
-from selector.partset import FORWARD_FAMILIES
+from selector.physics.devices import thermal_voltage_v
+from selector.physics.partset import FORWARD_FAMILIES
+from selector.spec import units
 
 #: SPICE scale suffixes as powers of ten (``meg`` must be tried before ``m``).
 SPICE_SCALE: dict[str, int] = {"f": -15, "p": -12, "n": -9, "u": -6, "m": -3, "k": 3, "meg": 6, "g": 9, "t": 12}

@@ -9,7 +9,7 @@ models describe the same schema for queries, and a test asserts the two never dr
 
 Every numeric column is an SI float (V, A, Ω, W, °C, V/K, K/W, eV, percent points);
 NULL means "not given", and the physics contract's defaults (DESIGN §3) are applied only
-when a :class:`selector.partset.PartSet` is built.
+when a :class:`selector.physics.partset.PartSet` is built.
 """
 
 from __future__ import annotations
@@ -30,8 +30,8 @@ from sqlalchemy import (
 )
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
 
-from selector.partset import FAMILIES, NUMERIC_COLUMNS
-from selector.spec import LIST_STATUSES
+from selector.physics.partset import FAMILIES, NUMERIC_COLUMNS
+from selector.spec.rail_spec import LIST_STATUSES
 
 #: Constraint names are fixed so that SQLite batch migrations can find them again.
 NAMING_CONVENTION = {
@@ -42,7 +42,7 @@ NAMING_CONVENTION = {
     "pk": "pk_%(table_name)s",
 }
 
-#: Longest part id (matches ``selector.stack_notation.PART_ID_PATTERN``).
+#: Longest part id (matches ``selector.spec.stack_notation.PART_ID_PATTERN``).
 PART_ID_LENGTH = 64
 PACKAGE_LENGTH = 64
 DESCRIPTION_LENGTH = 500

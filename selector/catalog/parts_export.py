@@ -1,7 +1,7 @@
 """Writing the library's parts to a parts CSV that imports back exactly.
 
 Floats are written as their shortest exact text (``repr``) and text cells are made
-spreadsheet-safe, both by :func:`selector.csv_safety.write_rows`; the import reverses
+spreadsheet-safe, both by :func:`selector.files.csv_cells.write_rows`; the import reverses
 the safety prefix, so export → import finds every part unchanged.
 """
 
@@ -12,7 +12,7 @@ from pathlib import Path
 from typing import TextIO
 
 from selector.catalog.models import RECORD_COLUMNS
-from selector.csv_safety import write_rows
+from selector.files.csv_writer import write_rows
 
 #: Columns of an exported parts CSV: the contract columns, then ``source`` and
 #: ``model_extra`` (DESIGN §4 allows more columns).

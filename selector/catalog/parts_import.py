@@ -3,7 +3,7 @@
 A parts CSV (DESIGN §4) has one part per row and the contract columns in any order;
 ``source`` and ``model_extra`` are also read, anything else is warned about and ignored.
 Every numeric cell is a plain number in the column's unit or a quantity with prefix and
-unit, read by :mod:`selector.units`; an empty cell means "not given".
+unit, read by :mod:`selector.spec.units`; an empty cell means "not given".
 
 Validation looks at every cell of every row and reports **all** problems, one per line,
 as ``FILE:LINE: column: message``, in a single :class:`~selector.errors.InputDataError`;
@@ -21,23 +21,23 @@ from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from selector import units
 from selector.catalog.models import (
     DESCRIPTION_LENGTH,
     PACKAGE_LENGTH,
     RECORD_COLUMNS,
     SOURCE_LENGTH,
 )
-from selector.csv_safety import format_number, restore_cell
 from selector.errors import InputDataError, OptionError
-from selector.partset import (
+from selector.files.csv_cells import format_number, restore_cell
+from selector.physics.partset import (
     BREAKDOWN_FAMILIES,
     FAMILIES,
     NUMERIC_COLUMNS,
     REQUIRED_BREAKDOWN,
     REQUIRED_FORWARD,
 )
-from selector.stack_notation import is_valid_part_id
+from selector.spec import units
+from selector.spec.stack_notation import is_valid_part_id
 
 #: A parts file larger than this is refused before it is read [bytes].
 MAX_FILE_BYTES = 64 * 1024 * 1024

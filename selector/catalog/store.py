@@ -47,8 +47,8 @@ from selector.catalog.models import (
 from selector.catalog.parts_import import ImportPlan, PartsFile, load_parts_csv, plan_changes
 from selector.catalog.resources import demo_csv_path, migrations_folder
 from selector.errors import LibraryError, OptionError, UnknownPartError
-from selector.partset import FAMILIES, PartSet
-from selector.stack_notation import part_id_order
+from selector.physics.partset import FAMILIES, PartSet
+from selector.spec.stack_notation import part_id_order
 
 #: File name of the default library inside the per-user data directory.
 DEFAULT_LIBRARY_FILE = "library.sqlite"
@@ -309,12 +309,12 @@ class Library:
 
     def part_records(self, families: Sequence[str] | None = None) -> list[dict[str, object]]:
         """Every part as a record (parts-CSV columns plus ``source``), in part-id order
-        (:func:`selector.stack_notation.part_id_order`).
+        (:func:`selector.spec.stack_notation.part_id_order`).
 
         Raises
         ------
         OptionError
-            When a family is not one of :data:`selector.partset.FAMILIES`.
+            When a family is not one of :data:`selector.physics.partset.FAMILIES`.
         """
         query = select(Part)
         if families is not None:

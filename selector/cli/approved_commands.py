@@ -6,8 +6,8 @@ import click
 
 from selector.catalog import approved_lists, list_changes
 from selector.catalog.approved_list_csv import import_list_file, load_list_csv, write_list_csv
-from selector.catalog.part_sheet import format_table
-from selector.spec import LIST_STATUSES
+from selector.spec.rail_spec import LIST_STATUSES
+from selector.views.part_sheet import format_table
 
 _BY_HELP = "Who makes the change (default: your login name)."
 _REASON_HELP = "Why (required), e.g. 'qualified on line A, report 17'."

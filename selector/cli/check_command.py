@@ -7,13 +7,13 @@ import json
 import click
 
 from selector.catalog.approved_lists import list_view, stack_notes
-from selector.check_view import CheckedDesign, check_json, check_lines
 from selector.cli.spec_options import SPEC_OPTIONS_EPILOG, spec_options
-from selector.corners import design_metrics
 from selector.errors import OptionError
-from selector.montecarlo import run_monte_carlo
-from selector.resistor_choice import choose_resistors
-from selector.stack_notation import expand_stack, parse_stack
+from selector.physics.corners import design_metrics
+from selector.physics.montecarlo import run_monte_carlo
+from selector.search.resistor_choice import choose_resistors
+from selector.spec.stack_notation import expand_stack, parse_stack
+from selector.views.check_view import CheckedDesign, check_json, check_lines
 
 MAX_MONTE_CARLO_SAMPLES = 10_000_000
 

@@ -6,7 +6,7 @@ import click
 
 from selector.catalog.approved_lists import check_history_subject
 from selector.catalog.audit import HISTORY_COLUMNS, history, parse_since
-from selector.csv_safety import write_rows
+from selector.files.csv_writer import write_rows
 
 #: Longest old or new value shown on the terminal; ``--csv`` keeps every character.
 SHOWN_VALUE_LIMIT = 100

@@ -6,13 +6,13 @@ import click
 
 from selector.catalog.fit_records import fitted_parts_file, parse_points
 from selector.catalog.model_cards import load_model_cards
-from selector.catalog.part_sheet import format_table, list_rows, part_sheet
 from selector.catalog.parts_export import write_parts_csv
 from selector.catalog.parts_import import ImportPlan, load_parts_csv, parse_column_settings
 from selector.errors import UnknownPartError
-from selector.fitting import fit_forward_points
-from selector.partset import FAMILIES
-from selector.units import format_quantity
+from selector.physics.fitting import fit_forward_points
+from selector.physics.partset import FAMILIES
+from selector.spec.units import format_quantity
+from selector.views.part_sheet import format_table, list_rows, part_sheet
 
 _FAMILY = click.Choice(FAMILIES, case_sensitive=False)
 _LIST_COLUMNS = ("part", "family", "package", "at 25 °C", "pd", "description")

@@ -40,7 +40,7 @@ def report(state, spec, out_path, top, stack_text, png_dir, scatter_designs, swe
     Without --stack it searches the library as 'seek' does and reports the shortlist;
     with --stack it reports that one design.
     """
-    from selector.report_html import design_review, search_review, write_report
+    from selector.views.report_html import design_review, search_review, write_report
 
     library = state.library()
     if stack_text is not None:

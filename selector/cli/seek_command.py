@@ -8,14 +8,14 @@ import time
 import click
 
 from selector.cli.spec_options import SPEC_OPTIONS_EPILOG, describe_spec, spec_options
-from selector.search import seek as seek_library
-from selector.shortlist_view import (
+from selector.search.engine import seek as seek_library
+from selector.spec.units import VOLTAGE, format_quantity, parse_quantity
+from selector.views.shortlist_view import (
     shortlist_json,
     summary_lines,
     terminal_table,
     write_shortlist_csv,
 )
-from selector.units import VOLTAGE, format_quantity, parse_quantity
 
 #: Margin below which a shortlisted design is flagged as running a part near its limit.
 NEAR_LIMIT_MARGIN = 0.1

@@ -1,8 +1,8 @@
 """Command-line options for the rail requirement, shared by ``check`` and ``seek``.
 
 :func:`spec_options` adds ``--spec FILE`` and one text option per spec key (the names of
-:data:`selector.spec.OPTION_FOR_KEY`), builds the :class:`~selector.spec.RailSpec` with
-:func:`selector.spec.load_spec` and hands it to the command as ``spec``.
+:data:`selector.spec.rail_spec.OPTION_FOR_KEY`), builds the :class:`~selector.spec.rail_spec.RailSpec` with
+:func:`selector.spec.rail_spec.load_spec` and hands it to the command as ``spec``.
 :func:`spec_to_dict` and :func:`describe_spec` echo a spec for summaries and reports.
 """
 
@@ -14,8 +14,8 @@ from collections.abc import Callable
 
 import click
 
-from selector.spec import OPTION_FOR_KEY, RailSpec, load_spec, spec_cautions
-from selector.units import format_quantity
+from selector.spec.rail_spec import OPTION_FOR_KEY, RailSpec, load_spec, spec_cautions
+from selector.spec.units import format_quantity
 
 #: Help text per spec key: unit and an example value.
 _HELP: dict[str, tuple[str, str]] = {

@@ -15,10 +15,10 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
 
-from selector import units
 from selector.errors import QuantityError, SpecError, SpecOptionError
-from selector.eseries import SERIES_STEPS, series_values
-from selector.partset import FAMILIES
+from selector.physics.partset import FAMILIES
+from selector.spec import units
+from selector.spec.eseries import SERIES_STEPS, series_values
 
 
 @dataclass(frozen=True)

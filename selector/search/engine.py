@@ -1,10 +1,10 @@
 """Exhaustive search of a parts library for stacks that hold a rail (issue 4).
 
 Every multiset of up to ``max_parts`` usable parts is a candidate
-(:mod:`selector.candidates`). Each is bounded by gathers and sums
-(:mod:`selector.stack_bounds`) and dropped only where the bounds prove that no series
+(:mod:`selector.search.candidates`). Each is bounded by gathers and sums
+(:mod:`selector.search.stack_bounds`) and dropped only where the bounds prove that no series
 resistor makes it feasible, or — once the shortlist is full — that its rank key cannot
-beat the shortlist's last entry (:func:`selector.ranking.beats_threshold`).
+beat the shortlist's last entry (:func:`selector.search.ranking.beats_threshold`).
 
 The stacks of fewer than ``max_parts`` elements are searched first. Once they fill the
 shortlist, the largest stacks are enumerated only where the sum of their elements'
@@ -12,12 +12,12 @@ separable rail bounds can still rank (:func:`largest_stack_chunks`); the rest ar
 counted as considered and pruned by rank without being built. Survivors are taken in
 order of their lower-bound key, so the shortlist fills with good designs early and the
 threshold tightens fast. Each series value of a survivor then gets its own bounds by
-table look-ups (:mod:`selector.design_bounds`, coarse to fine over the resistor range):
+table look-ups (:mod:`selector.search.design_bounds`, coarse to fine over the resistor range):
 the stack is dropped when every value is proven infeasible or its best bound cannot beat
 the shortlist. The values left are solved at a few screening corners, which raise their
-bounds and prove more of them infeasible (:func:`selector.resistor_choice.screen_designs`);
+bounds and prove more of them infeasible (:func:`selector.search.resistor_choice.screen_designs`);
 only the values whose bound can still win are then solved exactly at all 32 corners, with
-the resistor chosen per DESIGN §3 (:mod:`selector.resistor_choice`). The per-value bound
+the resistor chosen per DESIGN §3 (:mod:`selector.search.resistor_choice`). The per-value bound
 tables are built half in a forked worker, and batches are solved in up to two processes.
 """
 
@@ -38,7 +38,9 @@ from typing import NamedTuple
 import numpy as np
 import pandas as pd
 
-from selector.candidates import (
+from selector.errors import OptionError, SearchError
+from selector.physics.partset import PartSet
+from selector.search.candidates import (
     bounded_multiset_count,
     check_search_size,
     iterate_bounded_multisets,
@@ -46,10 +48,8 @@ from selector.candidates import (
     multiset_count,
     usable_parts,
 )
-from selector.design_bounds import cell_bound_tables
-from selector.errors import OptionError, SearchError
-from selector.partset import PartSet
-from selector.ranking import (
+from selector.search.design_bounds import cell_bound_tables
+from selector.search.ranking import (
     DEFAULT_RESOLUTION_V,
     beats_threshold,
     key_columns,
@@ -58,7 +58,7 @@ from selector.ranking import (
     rank_order,
     sort_designs,
 )
-from selector.resistor_choice import (
+from selector.search.resistor_choice import (
     bounded_designs,
     candidate_resistors,
     choose_bounded,
@@ -68,13 +68,13 @@ from selector.resistor_choice import (
     screened_bounds,
     take_designs,
 )
-from selector.spec import RailSpec
-from selector.stack_bounds import (
+from selector.search.stack_bounds import (
     bound_stacks,
     part_bound_tables,
     part_current_caps,
     separable_rail_bounds,
 )
+from selector.spec.rail_spec import RailSpec
 
 #: Stacks solved per batch; the pruning threshold is updated between batches.
 BATCH_STACKS = 3000
@@ -206,7 +206,7 @@ def batch_slices(count: int) -> list[slice]:
 
 
 def lower_bound_keys(error_lower_v, parts, spec: RailSpec, order, resolution_v) -> list[np.ndarray]:
-    """Lower bounds of each rank-key component for stacks (see :mod:`selector.ranking`).
+    """Lower bounds of each rank-key component for stacks (see :mod:`selector.search.ranking`).
 
     ``meets`` cannot hold where the error bound exceeds the tolerance; the error key is
     monotone in the error; margin is at most 1, so its key (−margin) is at least −1; the
@@ -311,7 +311,7 @@ def largest_stack_chunks(part_count: int, spec: RailSpec, tables, error_keep_v: 
 
     A stack is left out only when, for one corner class, the sum of its elements' least
     voltages is above ``target + error_keep_v``
-    (:func:`selector.stack_bounds.separable_rail_bounds`): its error bound is then above
+    (:func:`selector.search.stack_bounds.separable_rail_bounds`): its error bound is then above
     ``error_keep_v``, so the shortlist's last entry beats it. Those left out are counted
     as considered and pruned by rank; the class that leaves out the most is used.
     """
@@ -329,7 +329,7 @@ def largest_stack_chunks(part_count: int, spec: RailSpec, tables, error_keep_v: 
 
 
 def shared_cell_tables(parts: PartSet, spec: RailSpec, tables, worker_count: int):
-    """:func:`selector.design_bounds.cell_bound_tables`, half the parts in a second process.
+    """:func:`selector.search.design_bounds.cell_bound_tables`, half the parts in a second process.
 
     The rows of each part are independent, so every other part is tabulated in a forked
     worker while this process does the rest, and the rows are joined.
@@ -439,7 +439,7 @@ def search_library(
     top : int
         Shortlist length.
     rank_by : str or sequence of str, optional
-        Key order after ``meets`` (:func:`selector.ranking.rank_order`).
+        Key order after ``meets`` (:func:`selector.search.ranking.rank_order`).
     resolution_v : float [V]
         Error quantum of the ranking.
     usable_mask, conditions : optional
@@ -562,8 +562,8 @@ def seek(
     >>> from selector import seek                                   # doctest: +SKIP
     >>> shortlist, summary = seek("rail.toml", "parts.sqlite", top=5)  # doctest: +SKIP
     """
-    from selector.shortlist_view import shortlist_frame
-    from selector.spec import load_spec
+    from selector.spec.rail_spec import load_spec
+    from selector.views.shortlist_view import shortlist_frame
 
     if not isinstance(spec, RailSpec):
         spec = load_spec(spec, {})

@@ -20,7 +20,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from selector.errors import SearchError
-from selector.partset import FAMILIES, PartSet
+from selector.physics.partset import FAMILIES, PartSet
 
 #: Candidate counts above this need ``force``: the search would take minutes or more.
 CANDIDATE_LIMIT = 50_000_000

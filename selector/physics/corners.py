@@ -18,9 +18,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from selector.circuit import solve_operating_points, solve_stack_corners
-from selector.partset import PartSet
-from selector.spec import RailSpec
+from selector.physics.circuit import solve_operating_points, solve_stack_corners
+from selector.physics.partset import PartSet
+from selector.spec.rail_spec import RailSpec
 
 #: Infeasibility reasons, indexed by :attr:`DesignEvaluation.reason`.
 REASON_NAMES: tuple[str, ...] = ("ok", "bias", "current limit", "dissipation", "no solution")
@@ -141,7 +141,7 @@ class DesignEvaluation:
     hottest_junction_c : array (designs, 32) [°C]
     corner_solved : array (designs, 32) of bool
     corner_status : int array (designs, 32)
-        Each corner's solver status, an index into :data:`selector.circuit.STATUS_NAMES`
+        Each corner's solver status, an index into :data:`selector.physics.circuit.STATUS_NAMES`
         (why a corner has no solution).
     nominal : dict or None
         With ``detail=True``: the nominal point's ``stack_current_a``, ``load_current_a``,

@@ -2,7 +2,7 @@
 
 The characteristic voltages (forward voltage at 1 mA and 10 mA, zener voltage at Izt,
 all with the junction at 25 °C and nominal tolerance) come from the element models in
-:mod:`selector.devices`; this module only chooses the points and formats the results.
+:mod:`selector.physics.devices`; this module only chooses the points and formats the results.
 """
 
 from __future__ import annotations
@@ -11,10 +11,10 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 
-from selector import units
 from selector.catalog.parts_import import RULES
-from selector.devices import element_voltage_slopes
-from selector.partset import CONTRACT_DEFAULTS, NUMERIC_COLUMNS, PartSet
+from selector.physics.devices import element_voltage_slopes
+from selector.physics.partset import CONTRACT_DEFAULTS, NUMERIC_COLUMNS, PartSet
+from selector.spec import units
 
 #: Junction temperature of the characteristic voltages [°C].
 SHEET_JUNCTION_C = 25.0

@@ -5,8 +5,8 @@ between 1 Ω and 10 MΩ (narrowed by the spec's resistor range), among feasible 
 the least ``error_v``; ties within 1 nV go to the larger R.
 
 Only values inside each stack's provable resistor range
-(:func:`selector.stack_bounds.bound_stacks`, point 7) can be feasible. Each of them gets
-a provable lower bound on its error (:func:`selector.design_bounds.design_bounds`); the
+(:func:`selector.search.stack_bounds.bound_stacks`, point 7) can be feasible. Each of them gets
+a provable lower bound on its error (:func:`selector.search.design_bounds.design_bounds`); the
 values are solved per stack in order of that bound, in rounds of growing size, and a
 value is left unsolved only once a feasible design of the same stack has an error more
 than the tie window below its bound — it can then neither win nor tie, so the choice
@@ -38,15 +38,20 @@ import dataclasses
 
 import numpy as np
 
-from selector.circuit import solve_stack_corners
-from selector.corners import evaluate_designs, stack_current_limits, worst_case_corners
-from selector.design_bounds import CellBoundTables, cell_bound_tables, range_bounds
 from selector.errors import SearchError
-from selector.eseries import series_values
-from selector.partset import PartSet
-from selector.spec import RailSpec
-from selector.stack_bounds import StackBounds, bound_stacks, part_bound_tables, part_current_caps
-from selector.units import format_quantity
+from selector.physics.circuit import solve_stack_corners
+from selector.physics.corners import evaluate_designs, stack_current_limits, worst_case_corners
+from selector.physics.partset import PartSet
+from selector.search.design_bounds import CellBoundTables, cell_bound_tables, range_bounds
+from selector.search.stack_bounds import (
+    StackBounds,
+    bound_stacks,
+    part_bound_tables,
+    part_current_caps,
+)
+from selector.spec.eseries import series_values
+from selector.spec.rail_spec import RailSpec
+from selector.spec.units import format_quantity
 
 #: Ties in error closer than this go to the larger resistor (DESIGN §3) [V].
 TIE_WINDOW_V = 1e-9
@@ -55,13 +60,13 @@ CONTRACT_RESISTOR_RANGE_OHM = (1.0, 10e6)
 #: Designs per call of the corner evaluation (each is 32 operating points).
 DESIGNS_PER_CALL = 4096
 #: Corners of the screen (module docstring), by index into
-#: :func:`selector.corners.worst_case_corners` (16·supply + 8·load + 4·ambient + 2·resistor
+#: :func:`selector.physics.corners.worst_case_corners` (16·supply + 8·load + 4·ambient + 2·resistor
 #: + sign): lowest rail (10, 14: supply min, most load, R high, parts low), least current
 #: (11, 15: the same with parts high), highest rail (17, 21: supply max, least load, R low,
 #: parts high) and most current (16, 20: the same with parts low), each at both ambients.
 SCREEN_CORNERS = (10, 14, 11, 15, 17, 21, 16, 20)
 #: Widening of the screen's error bound [V], far above the solver's residual (as
-#: :data:`selector.stack_bounds.VOLTAGE_SLACK_V`).
+#: :data:`selector.search.stack_bounds.VOLTAGE_SLACK_V`).
 SCREEN_SLACK_V = 1e-7
 #: Consecutive series values bounded together before each gets its own bound.
 RANGE_BLOCK = 8
@@ -120,7 +125,7 @@ def concatenate_designs(evaluations: list):
 
 
 def evaluate_in_calls(parts: PartSet, stacks: np.ndarray, resistor_ohm: np.ndarray, spec: RailSpec):
-    """:func:`selector.corners.evaluate_designs` over many designs, a bounded batch at a time."""
+    """:func:`selector.physics.corners.evaluate_designs` over many designs, a bounded batch at a time."""
     pieces = [
         evaluate_designs(parts, stacks[start : start + DESIGNS_PER_CALL], resistor_ohm[start : start + DESIGNS_PER_CALL], spec)
         for start in range(0, len(stacks), DESIGNS_PER_CALL)
@@ -140,7 +145,7 @@ def screen_designs(parts: PartSet, stacks: np.ndarray, resistor_ohm: np.ndarray,
     resistor_ohm : array (n,) [Ω]
     spec : RailSpec
     corner_index : sequence of int
-        Corners to solve, indices into :func:`selector.corners.worst_case_corners`.
+        Corners to solve, indices into :func:`selector.physics.corners.worst_case_corners`.
 
     Returns
     -------
@@ -252,7 +257,7 @@ def bounded_designs(cell_tables: CellBoundTables, stacks: np.ndarray, bounds: St
                     error_cut_v: float = np.inf):
     """Each stack's series values in its provable range, with their error bounds.
 
-    The bounds are refined coarse to fine (:func:`selector.design_bounds.range_bounds`):
+    The bounds are refined coarse to fine (:func:`selector.search.design_bounds.range_bounds`):
     first over each stack's whole range, then over blocks of :data:`RANGE_BLOCK`
     consecutive values, then per value, each level only where the last one left the
     bound at most ``error_cut_v`` and proved no shortfall. A coarse bound holds for every

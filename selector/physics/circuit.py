@@ -30,7 +30,7 @@ arithmetic as :func:`solve_operating_points`.
 Points without a physical solution are flagged, never NaN: the load draws more than the
 supply can give through ``R``; the stack current would be below 1 fA; an element reaches
 electro-thermal loop gain ``θ·I·∂V/∂T ≥ 1``, or a junction would settle above
-:data:`~selector.devices.JUNCTION_CEILING_C` (thermal runaway); or the iteration did not
+:data:`~selector.physics.devices.JUNCTION_CEILING_C` (thermal runaway); or the iteration did not
 converge.
 
 References
@@ -47,7 +47,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from selector.devices import (
+from selector.physics.devices import (
     BOLTZMANN_OVER_CHARGE_V_PER_K,
     JUNCTION_CEILING_C,
     RUNAWAY_LOOP_GAIN,
@@ -55,7 +55,7 @@ from selector.devices import (
     forward_junction_floor_c,
     self_heated_element,
 )
-from selector.partset import PartSet
+from selector.physics.partset import PartSet
 
 #: Least stack current the model is solved for [A].
 LEAST_CURRENT_A = 1e-15
@@ -245,7 +245,7 @@ def _assembled(log_current, vout, status, worst_margin, hottest, supply, resisto
     """The fields of :class:`OperatingPoints` from the solved state (in place; any shape):
     load ``I_Lc + G_L·Vout``, resistor power ``R·(I + I_L)²`` and the KCL residual, with
     every unsolved point set to its flagged values. A junction above
-    :data:`~selector.devices.JUNCTION_CEILING_C` is no physical steady state: runaway."""
+    :data:`~selector.physics.devices.JUNCTION_CEILING_C` is no physical steady state: runaway."""
     status[(status == STATUS_SOLVED) & (hottest > JUNCTION_CEILING_C)] = STATUS_RUNAWAY
     # A slot with no allowed power (ambient at or past its Tjmax) carries _NO_ALLOWED_POWER_W
     # in for 0 W, so its margin lands far below −1e250, where no real P/P_max can reach: −∞.
@@ -516,7 +516,7 @@ class _Family:
 
 
 def _forward_terms(fam: _Family, u, current, junction_c):
-    """Forward voltage and its slopes: :func:`selector.devices.forward_voltage_slopes` with
+    """Forward voltage and its slopes: :func:`selector.physics.devices.forward_voltage_slopes` with
     per-slot constants folded in (same formulas, SPICE3 diode model, DESIGN §3).
 
     ``ln(1 + I/Is) = x + log1p(exp(−x))`` and ``I/(I + Is) = 1/(1 + exp(−x))``; ``x`` is
@@ -696,7 +696,7 @@ def _solve_block(parts, forward_part, forward_count, forward_sign, breakdown_par
 #: Newton evaluations the fast path spends on a point before handing it to the safeguarded solver.
 FAST_EVALUATIONS = 8
 #: How far below the ambient the fast path lets a forward junction go [K]. A negative
-#: tolerance can settle one a little colder (:func:`selector.devices.forward_junction_floor_c`;
+#: tolerance can settle one a little colder (:func:`selector.physics.devices.forward_junction_floor_c`;
 #: by microkelvins at the small currents where it happens); a point colder still goes to
 #: the bracketed solver, which uses that floor itself.
 _FAST_BELOW_AMBIENT_K = 1.0

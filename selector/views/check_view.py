@@ -12,13 +12,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from selector.circuit import STATUS_NAMES, STATUS_SOLVED
-from selector.corners import CornerSet, DesignMetrics, worst_case_corners
-from selector.montecarlo import MonteCarloResult
-from selector.partset import PartSet
-from selector.spec import RailSpec, spec_cautions
-from selector.stack_notation import format_stack
-from selector.units import format_quantity
+from selector.physics.circuit import STATUS_NAMES, STATUS_SOLVED
+from selector.physics.corners import CornerSet, DesignMetrics, worst_case_corners
+from selector.physics.montecarlo import MonteCarloResult
+from selector.physics.partset import PartSet
+from selector.spec.rail_spec import RailSpec, spec_cautions
+from selector.spec.stack_notation import format_stack
+from selector.spec.units import format_quantity
 
 #: Element margins below this draw a caution (common practice, no source: 20 % headroom).
 CAUTION_MARGIN = 0.20

@@ -13,8 +13,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import least_squares
 
-from selector.devices import thermal_voltage_v
 from selector.errors import InputDataError
+from selector.physics.devices import thermal_voltage_v
 
 
 @dataclass(frozen=True)

@@ -20,10 +20,10 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.special import ndtr, ndtri
 
-from selector.circuit import solve_operating_points
-from selector.corners import load_terms
-from selector.partset import PartSet
-from selector.spec import RailSpec
+from selector.physics.circuit import solve_operating_points
+from selector.physics.corners import load_terms
+from selector.physics.partset import PartSet
+from selector.spec.rail_spec import RailSpec
 
 DEFAULT_SAMPLES = 10_000
 #: Percentiles reported [%]: ±3σ-equivalent, ±2σ-equivalent and the median.

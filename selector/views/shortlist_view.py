@@ -15,10 +15,10 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from selector.csv_safety import write_rows
-from selector.ranking import pareto_front
-from selector.stack_notation import format_stack
-from selector.units import format_quantity
+from selector.files.csv_writer import write_rows
+from selector.search.ranking import pareto_front
+from selector.spec.stack_notation import format_stack
+from selector.spec.units import format_quantity
 
 CONTRACT_COLUMNS: tuple[str, ...] = (
     "rank", "stack", "parts", "resistor_ohm", "vout_nom_v", "vout_low_v", "vout_high_v",

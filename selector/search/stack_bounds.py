@@ -55,13 +55,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from selector.devices import (
+from selector.physics.devices import (
     element_voltage_slopes,
     forward_log_saturation_current,
     thermal_voltage_v,
 )
-from selector.partset import PartSet
-from selector.spec import RailSpec
+from selector.physics.partset import PartSet
+from selector.spec.rail_spec import RailSpec
 
 #: Widening of every voltage bound [V]: far above the solver's residual, far below a mV.
 VOLTAGE_SLACK_V = 1e-7
@@ -108,7 +108,7 @@ def voltage_range_fixed_current(
 
     Points 1 and 4 of the module docstring: the junction runs from
     ``Ta − θ·vf_tol·I`` to ``junction_high_c``. Voltages come from
-    :func:`selector.devices.element_voltage_slopes`; this function only brackets them.
+    :func:`selector.physics.devices.element_voltage_slopes`; this function only brackets them.
 
     Parameters
     ----------

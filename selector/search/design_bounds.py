@@ -1,6 +1,6 @@
 """Provable bounds on one (stack, series resistor) design's rail, by table look-ups alone.
 
-:mod:`selector.stack_bounds` bounds a stack over every resistor at once; here each
+:mod:`selector.search.stack_bounds` bounds a stack over every resistor at once; here each
 series value of a stack gets its own bounds, so that most values are ruled out without
 solving the circuit. Like the stack bounds, every bound holds for every *feasible*
 design (DESIGN §3); infeasible designs are never shortlisted, so they need none.
@@ -20,7 +20,7 @@ Why the bounds hold
    ``V`` in ``[lo, hi]`` and ``I`` in the cell, the junction range narrows to
    ``[Ta + θ·min(lo·I_k, lo·I_{k+1}), Ta + θ·max(hi·I_k, hi·I_{k+1})]``; each pass
    (:data:`NARROWING_PASSES`) narrows it further. One pass suffices for the search: the
-   corner screen (:mod:`selector.resistor_choice`) sharpens whatever these bounds leave.
+   corner screen (:mod:`selector.search.resistor_choice`) sharpens whatever these bounds leave.
 3. *Monotone envelopes.* ``L_k = min_{j ≥ k} lo_j`` and ``U_k = max_{j ≤ k} hi_j`` are
    still bounds on each cell, and are non-decreasing in ``k``; per stack they are summed
    over the elements, which share one current.
@@ -55,7 +55,7 @@ Why the bounds hold
    target − upper(Vout_c'; R₁))``, and a shortfall proven at ``R₁`` holds for the whole
    range (:func:`range_bounds`).
 
-A small slack (:data:`selector.stack_bounds.VOLTAGE_SLACK_V`) widens every voltage bound.
+A small slack (:data:`selector.search.stack_bounds.VOLTAGE_SLACK_V`) widens every voltage bound.
 """
 
 from __future__ import annotations
@@ -64,15 +64,15 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from selector.partset import PartSet
-from selector.spec import RailSpec
-from selector.stack_bounds import (
+from selector.physics.partset import PartSet
+from selector.search.stack_bounds import (
     CLASS_SIGNS,
     CURRENT_FLOOR_A,
     VOLTAGE_SLACK_V,
     _junction_ranges,
     voltage_range_fixed_current,
 )
+from selector.spec.rail_spec import RailSpec
 
 #: Ratio of a current cell's ends: the bounds' looseness is about one cell's voltage step.
 CELL_RATIO = 1.04
@@ -158,7 +158,7 @@ def cell_bound_tables(
         Ratio of each cell's ends.
     part_caps_a : array (4, n_parts) [A], optional
         Each part's current cap per corner class
-        (:func:`selector.stack_bounds.part_current_caps`); cells above it are left out.
+        (:func:`selector.search.stack_bounds.part_current_caps`); cells above it are left out.
     part_mask : array (n_parts,) of bool, optional
         Parts to tabulate (so that two processes can share the work). The rows of the
         others hold the trivial bounds ``∓D``, true of any voltage.

@@ -34,7 +34,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import constants
 
-from selector.partset import PartSet
+from selector.physics.partset import PartSet
 
 #: k/q [V/K] from CODATA via scipy.constants.
 BOLTZMANN_OVER_CHARGE_V_PER_K: float = constants.k / constants.e
@@ -178,7 +178,7 @@ def breakdown_voltage_slopes(
     """Breakdown (zener) element voltage and its slopes in log-current and temperature.
 
     ``V = vz·(1 + s·tol/100) + tc·(T − tnom) + a·ln(I/Izt) + rz·(I − Izt)``, with
-    ``a`` and ``rz`` from :func:`selector.partset.zener_curve_coefficients` (DESIGN §3).
+    ``a`` and ``rz`` from :func:`selector.physics.partset.zener_curve_coefficients` (DESIGN §3).
 
     Parameters
     ----------

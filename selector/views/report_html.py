@@ -1,9 +1,9 @@
 """The design review report: one self-contained HTML file of a search or of one design.
 
 :func:`search_review` and :func:`design_review` gather what the report shows by calling
-the search (:func:`selector.search.seek`), the corner proof
-(:func:`selector.corners.design_metrics`, :func:`selector.check_view.check_json`) and the
-Monte Carlo run (:func:`selector.montecarlo.run_monte_carlo`); nothing here recomputes
+the search (:func:`selector.search.engine.seek`), the corner proof
+(:func:`selector.physics.corners.design_metrics`, :func:`selector.views.check_view.check_json`) and the
+Monte Carlo run (:func:`selector.physics.montecarlo.run_monte_carlo`); nothing here recomputes
 what those compute. :func:`render_html` turns a :class:`ReviewReport` and its figures'
 SVG into one HTML page: inline CSS, inline SVG, no script and no external reference, so
 it opens offline. Every text that comes from the library, the spec or the user passes
@@ -21,18 +21,18 @@ import numpy as np
 import pandas as pd
 
 from selector import __version__
-from selector.check_view import CheckedDesign, check_json, design_cautions
 from selector.cli.spec_options import describe_spec
-from selector.corners import design_metrics
 from selector.errors import OptionError
-from selector.montecarlo import DEFAULT_SAMPLES, run_monte_carlo
-from selector.partset import PartSet
-from selector.ranking import DEFAULT_RESOLUTION_V, pareto_front
-from selector.resistor_choice import choose_resistors
-from selector.shortlist_view import frame_records, summary_lines
-from selector.spec import RailSpec, spec_cautions
-from selector.stack_notation import expand_stack, parse_stack
-from selector.units import format_quantity
+from selector.physics.corners import design_metrics
+from selector.physics.montecarlo import DEFAULT_SAMPLES, run_monte_carlo
+from selector.physics.partset import PartSet
+from selector.search.ranking import DEFAULT_RESOLUTION_V, pareto_front
+from selector.search.resistor_choice import choose_resistors
+from selector.spec.rail_spec import RailSpec, spec_cautions
+from selector.spec.stack_notation import expand_stack, parse_stack
+from selector.spec.units import format_quantity
+from selector.views.check_view import CheckedDesign, check_json, design_cautions
+from selector.views.shortlist_view import frame_records, summary_lines
 
 #: Feasible designs asked of the search for the error-against-margin figure by default.
 DEFAULT_SCATTER_DESIGNS = 100
@@ -52,7 +52,7 @@ class CandidateReview:
     design : CheckedDesign
         Stack, resistor, corner metrics and Monte Carlo run.
     document : dict
-        :func:`selector.check_view.check_json` of the design (corners, margins, cautions).
+        :func:`selector.views.check_view.check_json` of the design (corners, margins, cautions).
     conditions : str
         Conditions of use of its parts from the approved list (empty when none).
     """
@@ -187,9 +187,9 @@ def search_review(
     samples, seed : int
         Monte Carlo samples and seed of each detailed design.
     rank_by, resolution_v, force, progress
-        As for :func:`selector.search.seek`.
+        As for :func:`selector.search.engine.seek`.
     """
-    from selector.search import seek
+    from selector.search.engine import seek
 
     if scatter_designs < 1:
         raise OptionError(f"--scatter: must be at least 1, not {scatter_designs}")
@@ -243,7 +243,7 @@ def report_figures(report: ReviewReport, sweep_designs: int = DEFAULT_SWEEP_DESI
     Every design gets its Monte Carlo histogram; the first ``sweep_designs`` designs
     also get their supply and ambient sweeps (each figure costs about 0.1 s to draw).
     """
-    from selector import plots
+    from selector.views import plots
 
     figures: dict[str, object] = {}
     spec = report.spec
@@ -289,7 +289,7 @@ def write_report(
     OptionError
         When ``--out`` or ``--png`` cannot be written, naming the option and the path.
     """
-    from selector import plots
+    from selector.views import plots
 
     figures = report_figures(report, sweep_designs)
     written = []

@@ -1,6 +1,6 @@
 """Figures of the design review report: rail sweeps, error against margin, Monte Carlo spread.
 
-The sweep curves are solved with :func:`selector.circuit.solve_operating_points`, one
+The sweep curves are solved with :func:`selector.physics.circuit.solve_operating_points`, one
 vectorised call per sweep (every curve and every point at once), with the design's exact
 resistor and every element at its nominal value (tolerance sign 0). The figures are
 plain :class:`matplotlib.figure.Figure` objects drawn without ``pyplot``, so making them
@@ -20,13 +20,13 @@ from pathlib import Path
 
 import numpy as np
 
-from selector.circuit import solve_operating_points
-from selector.corners import load_terms, worst_case_corners
-from selector.montecarlo import MonteCarloResult
-from selector.partset import PartSet
-from selector.ranking import pareto_front
-from selector.spec import AMBIENT_LIMITS_C, RailSpec
-from selector.units import format_quantity
+from selector.physics.circuit import solve_operating_points
+from selector.physics.corners import load_terms, worst_case_corners
+from selector.physics.montecarlo import MonteCarloResult
+from selector.physics.partset import PartSet
+from selector.search.ranking import pareto_front
+from selector.spec.rail_spec import AMBIENT_LIMITS_C, RailSpec
+from selector.spec.units import format_quantity
 
 #: Points per sweep curve.
 SWEEP_POINTS = 121
@@ -166,7 +166,7 @@ def ambient_sweep(parts: PartSet, stack: np.ndarray, resistor_ohm: float, spec: 
     """Rail voltage against ambient temperature, one curve per supply extreme × load extreme.
 
     Parameters and result as for :func:`supply_sweep`; the sweep stays within the
-    ambient range the tool accepts (:data:`selector.spec.AMBIENT_LIMITS_C`).
+    ambient range the tool accepts (:data:`selector.spec.rail_spec.AMBIENT_LIMITS_C`).
     """
     corners = worst_case_corners(spec)
     supplies = (corners.supply_v[0], corners.supply_v[16])
@@ -272,7 +272,7 @@ def error_margin_figure(
     Notes
     -----
     The front is the designs no other design beats on both error (lower) and margin
-    (higher), from :func:`selector.ranking.pareto_front` with the part count held equal.
+    (higher), from :func:`selector.search.ranking.pareto_front` with the part count held equal.
     """
     error_v, margin = np.asarray(error_v, dtype=float), np.asarray(margin, dtype=float)
 
