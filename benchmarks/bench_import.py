@@ -18,7 +18,7 @@ import numpy as np
 from selector.catalog.parts_import import load_parts_csv
 from selector.catalog.store import open_library
 from selector.files.csv_writer import write_rows
-from selector.physics.partset import PART_COLUMNS
+from selector.spec.part_fields import PART_COLUMNS
 
 
 def generated_rows(count: int, seed: int = 7) -> list[dict[str, object]]:

@@ -25,8 +25,8 @@ import tempfile
 import time
 from pathlib import Path
 
+from selector.api import seek
 from selector.catalog.store import open_library
-from selector.search.engine import seek
 from selector.spec.rail_spec import load_spec
 from selector.views.report_html import (
     DEFAULT_SCATTER_DESIGNS,

@@ -13,7 +13,7 @@ __all__ = ["__version__", "seek", "choose_resistors"]
 def __getattr__(name: str):
     # Imported on first use so that ``import selector`` stays light for the CLI.
     if name == "seek":
-        from selector.search.engine import seek
+        from selector.api import seek
 
         return seek
     if name == "choose_resistors":

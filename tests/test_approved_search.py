@@ -8,9 +8,9 @@ import json
 import numpy as np
 import pytest
 
+from selector.api import seek
 from selector.catalog import list_changes as changes
 from selector.errors import SearchError
-from selector.search.engine import seek
 from selector.spec.rail_spec import load_spec
 
 RAIL = {

@@ -17,8 +17,9 @@ from scipy import constants
 from selector.catalog.parts_import import load_parts_csv
 from selector.catalog.resources import demo_csv_path
 from selector.physics.devices import element_voltage_slopes
-from selector.physics.partset import PART_COLUMNS, PartSet
+from selector.physics.partset import PartSet
 from selector.spec.eseries import decade_values
+from selector.spec.part_fields import PART_COLUMNS
 
 
 @pytest.fixture(scope="module")

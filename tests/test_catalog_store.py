@@ -12,7 +12,7 @@ from sqlalchemy import text
 from selector.catalog import resources, store
 from selector.catalog.store import default_library_path, open_library, resolve_location
 from selector.errors import LibraryError, OptionError, UnknownPartError
-from selector.physics.partset import FAMILIES
+from selector.spec.part_fields import FAMILIES
 
 
 def test_missing_default_library_is_created_with_the_demo_sets(private_user_dirs):

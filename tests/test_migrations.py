@@ -15,7 +15,7 @@ from selector.catalog import models
 from selector.catalog.parts_import import load_parts_csv
 from selector.catalog.resources import demo_csv_path, migrations_folder
 from selector.catalog.store import alembic_config, head_revision, open_library
-from selector.physics.partset import FAMILIES, NUMERIC_COLUMNS
+from selector.spec.part_fields import FAMILIES, NUMERIC_COLUMNS
 
 
 def _revisions() -> list[str]:

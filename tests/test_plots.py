@@ -9,6 +9,7 @@ import matplotlib.image
 import numpy as np
 import pytest
 
+from selector.physics import sweeps
 from selector.physics.montecarlo import run_monte_carlo
 from selector.physics.partset import PartSet
 from selector.spec.rail_spec import RailSpec
@@ -38,8 +39,8 @@ def linear_zener_rail(supply_v, load_a, resistor_ohm, vz_v=5.0, rz_ohm=10.0, izt
 
 def test_supply_sweep_matches_the_closed_form_of_a_straight_line_zener():
     rail_spec = spec()
-    sweep = plots.supply_sweep(PARTS, np.array([0]), 330.0, rail_spec)
-    assert sweep.vout_v.shape == (4, plots.SWEEP_POINTS)
+    sweep = sweeps.supply_sweep(PARTS, np.array([0]), 330.0, rail_spec)
+    assert sweep.vout_v.shape == (4, sweeps.SWEEP_POINTS)
     loads = [0.0, 0.0, 0.01, 0.01]  # curve order: load least/most × ambient min/max
     for curve, load in zip(sweep.vout_v, loads, strict=True):
         expected = linear_zener_rail(sweep.x, load, 330.0)
@@ -48,8 +49,8 @@ def test_supply_sweep_matches_the_closed_form_of_a_straight_line_zener():
 
 def test_sweeps_span_the_spec_range_and_beyond():
     rail_spec = spec()
-    supply = plots.supply_sweep(PARTS, np.array([0]), 330.0, rail_spec)
-    ambient = plots.ambient_sweep(PARTS, np.array([0, 1]), 330.0, rail_spec)
+    supply = sweeps.supply_sweep(PARTS, np.array([0]), 330.0, rail_spec)
+    ambient = sweeps.ambient_sweep(PARTS, np.array([0, 1]), 330.0, rail_spec)
     assert supply.x[0] < 11.0 and supply.x[-1] > 13.0
     assert ambient.x[0] < 0.0 < 50.0 < ambient.x[-1]
     assert ambient.x[0] >= -55.0 and ambient.x[-1] <= 150.0
@@ -58,28 +59,28 @@ def test_sweeps_span_the_spec_range_and_beyond():
 
 def test_ambient_sweep_follows_the_forward_diode_tempco():
     # A forward diode's voltage falls as it warms: about −2 mV/K for silicon (from memory).
-    sweep = plots.ambient_sweep(PARTS, np.array([1]), 1000.0, spec(target_v=0.7, tolerance_v=0.1))
+    sweep = sweeps.ambient_sweep(PARTS, np.array([1]), 1000.0, spec(target_v=0.7, tolerance_v=0.1))
     slope = np.polyfit(sweep.x, sweep.vout_v[0], 1)[0]
     assert -3e-3 < slope < -1e-3
 
 
 def test_each_sweep_is_one_solver_call(monkeypatch):
     calls = []
-    original = plots.solve_operating_points
+    original = sweeps.solve_operating_points
 
     def counting(*args, **kwargs):
         calls.append(args[1].shape[0])
         return original(*args, **kwargs)
 
-    monkeypatch.setattr(plots, "solve_operating_points", counting)
-    plots.supply_sweep(PARTS, np.array([0, 1]), 330.0, spec())
-    plots.ambient_sweep(PARTS, np.array([0, 1]), 330.0, spec())
-    assert calls == [4 * plots.SWEEP_POINTS, 4 * plots.SWEEP_POINTS]
+    monkeypatch.setattr(sweeps, "solve_operating_points", counting)
+    sweeps.supply_sweep(PARTS, np.array([0, 1]), 330.0, spec())
+    sweeps.ambient_sweep(PARTS, np.array([0, 1]), 330.0, spec())
+    assert calls == [4 * sweeps.SWEEP_POINTS, 4 * sweeps.SWEEP_POINTS]
 
 
 def test_unsolvable_points_are_gaps_not_zeros():
     # 13 V through 330 Ω gives at most 39 mA, so a 100 mA load has no operating point.
-    sweep = plots.supply_sweep(PARTS, np.array([0]), 330.0, spec(load_max=0.1))
+    sweep = sweeps.supply_sweep(PARTS, np.array([0]), 330.0, spec(load_max=0.1))
     assert np.isfinite(sweep.vout_v[:2]).all()
     assert np.isnan(sweep.vout_v[2:]).all()
 
@@ -90,7 +91,7 @@ def _ids(svg: str) -> list[str]:
 
 def test_svg_markup_is_inline_ready_and_ids_are_prefixed():
     rail_spec = spec()
-    figure = plots.sweep_figure(plots.supply_sweep(PARTS, np.array([0]), 330.0, rail_spec), rail_spec, "t <&>")
+    figure = plots.sweep_figure(sweeps.supply_sweep(PARTS, np.array([0]), 330.0, rail_spec), rail_spec, "t <&>")
     first, second = plots.svg_markup(figure, "one"), plots.svg_markup(figure, "two")
     assert first.startswith("<svg") and first.endswith("</svg>")
     assert "http://" not in first and "https://" not in first and "<?xml" not in first
@@ -148,7 +149,7 @@ def test_pareto_front_drawn_is_the_undominated_set():
 def test_curves_differ_by_more_than_colour(maker):
     rail_spec = spec()
     if maker == "sweep":
-        figure = plots.sweep_figure(plots.supply_sweep(PARTS, np.array([0]), 330.0, rail_spec), rail_spec, "s")
+        figure = plots.sweep_figure(sweeps.supply_sweep(PARTS, np.array([0]), 330.0, rail_spec), rail_spec, "s")
         lines = [line for line in figure.axes[0].get_lines() if not line.get_label().startswith("_")]
         assert len({(line.get_linestyle(), line.get_marker()) for line in lines}) == len(lines) == 4
     elif maker == "scatter":

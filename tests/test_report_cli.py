@@ -10,7 +10,7 @@ from click.testing import CliRunner
 from test_report_html import QUICK, make_library
 
 from selector.cli import main
-from selector.views.shortlist_view import CONTRACT_COLUMNS
+from selector.search.shortlist import CONTRACT_COLUMNS
 
 
 @pytest.fixture

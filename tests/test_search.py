@@ -8,6 +8,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from selector.api import seek
 from selector.errors import SearchError
 from selector.physics.corners import evaluate_designs
 from selector.physics.partset import PartSet
@@ -17,7 +18,7 @@ from selector.search.candidates import (
     iterate_multisets,
     usable_parts,
 )
-from selector.search.engine import REASON_RANK, search_library, seek
+from selector.search.engine import REASON_RANK, search_library
 from selector.search.stack_bounds import bound_stacks, part_bound_tables
 from selector.spec.eseries import series_values
 from selector.spec.rail_spec import RailSpec

@@ -13,8 +13,9 @@ import pytest
 from click.testing import CliRunner
 
 from selector.cli import RailwrightGroup
-from selector.cli.spec_options import describe_spec, spec_options, spec_to_dict
+from selector.cli.spec_options import spec_options
 from selector.spec.rail_spec import OPTION_FOR_KEY, RailSpec, load_spec
+from selector.spec.spec_summary import describe_spec, spec_to_dict
 
 
 @click.group(cls=RailwrightGroup)

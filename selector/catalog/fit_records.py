@@ -15,8 +15,8 @@ import numpy as np
 
 from selector.catalog.parts_import import PartsFile, RawRow, validate_rows
 from selector.errors import OptionError
-from selector.physics.partset import BREAKDOWN_FAMILIES
 from selector.spec import units
+from selector.spec.part_fields import BREAKDOWN_FAMILIES
 
 #: Label of a fit in messages and in the import log.
 FIT_LABEL = "datasheet points"

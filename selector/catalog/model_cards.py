@@ -55,8 +55,8 @@ from selector.catalog.parts_import import (
 )
 from selector.errors import InputDataError
 from selector.physics.devices import thermal_voltage_v
-from selector.physics.partset import FORWARD_FAMILIES
 from selector.spec import units
+from selector.spec.part_fields import FORWARD_FAMILIES
 
 #: SPICE scale suffixes as powers of ten (``meg`` must be tried before ``m``).
 SPICE_SCALE: dict[str, int] = {"f": -15, "p": -12, "n": -9, "u": -6, "m": -3, "k": 3, "meg": 6, "g": 9, "t": 12}

@@ -30,7 +30,7 @@ from sqlalchemy import (
 )
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
 
-from selector.physics.partset import FAMILIES, NUMERIC_COLUMNS
+from selector.spec.part_fields import FAMILIES, NUMERIC_COLUMNS
 from selector.spec.rail_spec import LIST_STATUSES
 
 #: Constraint names are fixed so that SQLite batch migrations can find them again.

@@ -29,14 +29,14 @@ from selector.catalog.models import (
 )
 from selector.errors import InputDataError, OptionError
 from selector.files.csv_cells import format_number, restore_cell
-from selector.physics.partset import (
+from selector.spec import units
+from selector.spec.part_fields import (
     BREAKDOWN_FAMILIES,
     FAMILIES,
     NUMERIC_COLUMNS,
     REQUIRED_BREAKDOWN,
     REQUIRED_FORWARD,
 )
-from selector.spec import units
 from selector.spec.stack_notation import is_valid_part_id
 
 #: A parts file larger than this is refused before it is read [bytes].

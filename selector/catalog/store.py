@@ -47,7 +47,8 @@ from selector.catalog.models import (
 from selector.catalog.parts_import import ImportPlan, PartsFile, load_parts_csv, plan_changes
 from selector.catalog.resources import demo_csv_path, migrations_folder
 from selector.errors import LibraryError, OptionError, UnknownPartError
-from selector.physics.partset import FAMILIES, PartSet
+from selector.physics.partset import PartSet
+from selector.spec.part_fields import FAMILIES
 from selector.spec.stack_notation import part_id_order
 
 #: File name of the default library inside the per-user data directory.

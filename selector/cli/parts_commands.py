@@ -10,7 +10,7 @@ from selector.catalog.parts_export import write_parts_csv
 from selector.catalog.parts_import import ImportPlan, load_parts_csv, parse_column_settings
 from selector.errors import UnknownPartError
 from selector.physics.fitting import fit_forward_points
-from selector.physics.partset import FAMILIES
+from selector.spec.part_fields import FAMILIES
 from selector.spec.units import format_quantity
 from selector.views.part_sheet import format_table, list_rows, part_sheet
 

@@ -7,8 +7,9 @@ import time
 
 import click
 
-from selector.cli.spec_options import SPEC_OPTIONS_EPILOG, describe_spec, spec_options
-from selector.search.engine import seek as seek_library
+from selector.api import seek as seek_library
+from selector.cli.spec_options import SPEC_OPTIONS_EPILOG, spec_options
+from selector.spec.spec_summary import describe_spec
 from selector.spec.units import VOLTAGE, format_quantity, parse_quantity
 from selector.views.shortlist_view import (
     shortlist_json,

@@ -22,34 +22,10 @@ from dataclasses import dataclass, fields
 import numpy as np
 
 from selector.errors import UnknownPartError
-
-FORWARD_FAMILIES: tuple[str, ...] = ("signal", "rectifier", "schottky", "led")
-BREAKDOWN_FAMILIES: tuple[str, ...] = ("zener",)
-FAMILIES: tuple[str, ...] = FORWARD_FAMILIES + BREAKDOWN_FAMILIES
-
-#: Parts CSV columns of the interface contract (DESIGN §4), in contract order.
-PART_COLUMNS: tuple[str, ...] = (
-    "part", "family", "description", "package", "is_a", "n", "rs_ohm", "eg_ev", "xti",
-    "tnom_c", "vf_tol_v", "vz_v", "izt_a", "zzt_ohm", "izk_a", "zzk_ohm", "vz_tol_pct",
-    "tc_v_per_k", "pd_w", "tj_max_c", "theta_ja_k_per_w", "if_max_a", "i_min_a",
-)  # fmt: skip
-
-#: The numeric columns, all SI floats.
-NUMERIC_COLUMNS: tuple[str, ...] = PART_COLUMNS[4:]
-
-REQUIRED_FORWARD: tuple[str, ...] = ("is_a", "n", "pd_w")
-REQUIRED_BREAKDOWN: tuple[str, ...] = ("vz_v", "izt_a", "zzt_ohm", "izk_a", "zzk_ohm", "pd_w")
-
-CONTRACT_DEFAULTS: dict[str, float] = {
-    "eg_ev": 1.11,
-    "xti": 3.0,
-    "rs_ohm": 0.0,
-    "vf_tol_v": 0.0,
-    "tnom_c": 25.0,
-    "vz_tol_pct": 0.0,
-    "tc_v_per_k": 0.0,
-    "tj_max_c": 150.0,
-}
+from selector.spec.part_fields import (
+    CONTRACT_DEFAULTS,
+    NUMERIC_COLUMNS,
+)
 
 #: Stand-in values for fields that do not apply to an element's family.
 _BENIGN_FORWARD = {"is_a": 1e-14, "n": 1.0}

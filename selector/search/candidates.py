@@ -20,7 +20,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from selector.errors import SearchError
-from selector.physics.partset import FAMILIES, PartSet
+from selector.physics.partset import PartSet
+from selector.spec.part_fields import FAMILIES
 
 #: Candidate counts above this need ``force``: the search would take minutes or more.
 CANDIDATE_LIMIT = 50_000_000

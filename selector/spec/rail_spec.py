@@ -16,9 +16,9 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from selector.errors import QuantityError, SpecError, SpecOptionError
-from selector.physics.partset import FAMILIES
 from selector.spec import units
 from selector.spec.eseries import SERIES_STEPS, series_values
+from selector.spec.part_fields import FAMILIES
 
 
 @dataclass(frozen=True)

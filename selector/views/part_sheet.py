@@ -13,8 +13,9 @@ import numpy as np
 
 from selector.catalog.parts_import import RULES
 from selector.physics.devices import element_voltage_slopes
-from selector.physics.partset import CONTRACT_DEFAULTS, NUMERIC_COLUMNS, PartSet
+from selector.physics.partset import PartSet
 from selector.spec import units
+from selector.spec.part_fields import CONTRACT_DEFAULTS, NUMERIC_COLUMNS
 
 #: Junction temperature of the characteristic voltages [°C].
 SHEET_JUNCTION_C = 25.0

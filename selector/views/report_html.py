@@ -21,7 +21,6 @@ import numpy as np
 import pandas as pd
 
 from selector import __version__
-from selector.cli.spec_options import describe_spec
 from selector.errors import OptionError
 from selector.physics.corners import design_metrics
 from selector.physics.montecarlo import DEFAULT_SAMPLES, run_monte_carlo
@@ -29,6 +28,7 @@ from selector.physics.partset import PartSet
 from selector.search.ranking import DEFAULT_RESOLUTION_V, pareto_front
 from selector.search.resistor_choice import choose_resistors
 from selector.spec.rail_spec import RailSpec, spec_cautions
+from selector.spec.spec_summary import describe_spec
 from selector.spec.stack_notation import expand_stack, parse_stack
 from selector.spec.units import format_quantity
 from selector.views.check_view import CheckedDesign, check_json, design_cautions
@@ -189,7 +189,7 @@ def search_review(
     rank_by, resolution_v, force, progress
         As for :func:`selector.search.engine.seek`.
     """
-    from selector.search.engine import seek
+    from selector.api import seek
 
     if scatter_designs < 1:
         raise OptionError(f"--scatter: must be at least 1, not {scatter_designs}")
@@ -243,6 +243,7 @@ def report_figures(report: ReviewReport, sweep_designs: int = DEFAULT_SWEEP_DESI
     Every design gets its Monte Carlo histogram; the first ``sweep_designs`` designs
     also get their supply and ambient sweeps (each figure costs about 0.1 s to draw).
     """
+    from selector.physics import sweeps
     from selector.views import plots
 
     figures: dict[str, object] = {}
@@ -262,9 +263,9 @@ def report_figures(report: ReviewReport, sweep_designs: int = DEFAULT_SWEEP_DESI
         if position >= sweep_designs:
             continue
         figures[f"{candidate.key}-supply"] = plots.sweep_figure(
-            plots.supply_sweep(design.parts, stack, resistor, spec), spec, f"{candidate.title}: rail against supply")
+            sweeps.supply_sweep(design.parts, stack, resistor, spec), spec, f"{candidate.title}: rail against supply")
         figures[f"{candidate.key}-ambient"] = plots.sweep_figure(
-            plots.ambient_sweep(design.parts, stack, resistor, spec), spec, f"{candidate.title}: rail against ambient")
+            sweeps.ambient_sweep(design.parts, stack, resistor, spec), spec, f"{candidate.title}: rail against ambient")
     return figures
 
 

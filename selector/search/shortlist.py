@@ -1,0 +1,60 @@
+"""The shortlist as a DataFrame: the search's result, one row per ranked design.
+
+The columns are the interface contract's (DESIGN §4): ``rank, stack, parts,
+resistor_ohm, vout_nom_v, vout_low_v, vout_high_v, error_v, margin, meets``, followed by
+our additions ``pareto`` (on the front of error, margin and part count), ``i_min_a`` and
+``conditions`` (conditions of use of the stack's parts, when any).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from selector.search.ranking import pareto_front
+from selector.spec.stack_notation import format_stack
+
+CONTRACT_COLUMNS: tuple[str, ...] = (
+    "rank", "stack", "parts", "resistor_ohm", "vout_nom_v", "vout_low_v", "vout_high_v",
+    "error_v", "margin", "meets",
+)  # fmt: skip
+EXTRA_COLUMNS: tuple[str, ...] = ("pareto", "i_min_a", "conditions")
+COLUMNS: tuple[str, ...] = CONTRACT_COLUMNS + EXTRA_COLUMNS
+
+
+def shortlist_frame(parts, stacks: np.ndarray, resistor_ohm: np.ndarray, evaluation, condition: np.ndarray) -> pd.DataFrame:
+    """Build the shortlist DataFrame from ranked designs (best first).
+
+    Parameters
+    ----------
+    parts : PartSet
+        The parts the stack indices refer to.
+    stacks : int array (n, max_len)
+    resistor_ohm : array (n,) [Ω]
+    evaluation : DesignEvaluation or None
+        Of the same designs, in the same order (None: an empty shortlist).
+    condition : array of str
+        Per part, its condition of use (empty when none).
+    """
+    if evaluation is None or len(resistor_ohm) == 0:
+        return pd.DataFrame({column: pd.Series(dtype=object) for column in COLUMNS})
+    rows = [row[row >= 0] for row in stacks]
+    count = np.array([row.size for row in rows])
+    conditions = [
+        "; ".join(dict.fromkeys(f"{parts.part[i]}: {condition[i]}" for i in row if condition[i])) for row in rows
+    ]
+    return pd.DataFrame({
+        "rank": np.arange(1, len(rows) + 1),
+        "stack": [format_stack(parts.part[row]) for row in rows],
+        "parts": count,
+        "resistor_ohm": np.asarray(resistor_ohm, dtype=float),
+        "vout_nom_v": evaluation.vout_nom_v,
+        "vout_low_v": evaluation.vout_low_v,
+        "vout_high_v": evaluation.vout_high_v,
+        "error_v": evaluation.error_v,
+        "margin": evaluation.margin,
+        "meets": np.asarray(evaluation.meets, dtype=bool),
+        "pareto": pareto_front(evaluation.error_v, evaluation.margin, count),
+        "i_min_a": evaluation.i_min_a,
+        "conditions": conditions,
+    })
