@@ -8,7 +8,7 @@ from datetime import UTC, datetime
 import numpy as np
 import pytest
 from alembic import command
-from sqlalchemy import create_engine, insert, inspect, select
+from sqlalchemy import MetaData, Table, create_engine, insert, inspect, select
 
 from selector.catalog import approved_lists as lists
 from selector.catalog import list_changes as changes
@@ -216,19 +216,25 @@ def test_upgrading_a_full_revision_1_library_keeps_everything(backend_db):
         command.upgrade(alembic_config(connection), "0001")
         assert "audit_events" not in inspect(connection).get_table_names()
         now = datetime(2026, 11, 30, 12, 0, tzinfo=UTC)
-        connection.execute(insert(Part), [dict(record, created_at=now, updated_at=now) for record in records])
+        # The parts table as revision 0001 made it (later revisions add columns).
+        old_parts = Table("parts", MetaData(), autoload_with=connection)
+        connection.execute(insert(old_parts), [
+            {**{c: v for c, v in record.items() if c in old_parts.c}, "created_at": now, "updated_at": now}
+            for record in records
+        ])
         connection.execute(insert(ImportLog), [{
             "imported_at": now, "imported_by": "old user", "kind": "parts csv", "file_name": "old.csv",
             "file_sha256": "ab" * 32, "rows_added": len(records), "rows_changed": 0, "rows_unchanged": 0,
         }])
-        before_parts = [tuple(row) for row in connection.execute(select(Part.__table__).order_by(Part.id))]
+        before_parts = [tuple(row) for row in connection.execute(select(old_parts).order_by(old_parts.c.id))]
         before_log = [tuple(row) for row in connection.execute(select(ImportLog.__table__))]
     engine.dispose()
     told: list[str] = []
     library = open_library(backend_db, notify=told.append)
     assert told == [f"upgraded the library {library.location_text()} from schema revision 0001 to {head_revision()}"]
     with library.engine.connect() as connection:
-        assert [tuple(row) for row in connection.execute(select(Part.__table__).order_by(Part.id))] == before_parts
+        kept = select(*(Part.__table__.c[c.name] for c in old_parts.c)).order_by(Part.id)
+        assert [tuple(row) for row in connection.execute(kept)] == before_parts
         assert [tuple(row) for row in connection.execute(select(ImportLog.__table__))] == before_log
     assert history(library) == [] and lists.lists_summary(library) == []
     changes.create_list(library, "line-a")

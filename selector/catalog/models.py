@@ -1,7 +1,8 @@
 """SQLAlchemy 2.x typed ORM models of the parts library.
 
 Parts and the import log (revision 0001); approved-parts lists, their entries and the
-append-only audit trail (revision 0002).
+append-only audit trail (revision 0002); the temperature-coefficient spread of a part
+(revision 0003).
 
 The database schema is made only by the Alembic migrations in ``migrations/``; these
 models describe the same schema for queries, and a test asserts the two never drift
@@ -94,6 +95,8 @@ class Part(Base):
     zzk_ohm: Mapped[float | None] = mapped_column(Float)
     vz_tol_pct: Mapped[float | None] = mapped_column(Float)
     tc_v_per_k: Mapped[float | None] = mapped_column(Float)
+    #: Spread (±) of the temperature coefficient, any family (revision 0003).
+    tc_tol_v_per_k: Mapped[float | None] = mapped_column(Float)
     pd_w: Mapped[float | None] = mapped_column(Float)
     tj_max_c: Mapped[float | None] = mapped_column(Float)
     theta_ja_k_per_w: Mapped[float | None] = mapped_column(Float)

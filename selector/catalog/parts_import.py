@@ -98,6 +98,7 @@ RULES: dict[str, Rule] = {
     "zzk_ohm": Rule(units.RESISTANCE, 0.0, 1e8, low_open=True),
     "vz_tol_pct": Rule(units.PERCENT, 0.0, 50.0),
     "tc_v_per_k": Rule(units.VOLTAGE_TEMPCO, -1.0, 1.0),
+    "tc_tol_v_per_k": Rule(units.VOLTAGE_TEMPCO, 0.0, 1.0),
     "pd_w": Rule(units.POWER, 0.0, 1e4, low_open=True),
     "tj_max_c": Rule(units.TEMPERATURE, 25.0, 400.0, low_open=True),
     "theta_ja_k_per_w": Rule(units.THERMAL_RESISTANCE, 0.0, 1e5, low_open=True),

@@ -79,6 +79,8 @@ class PartSet:
     tnom_c : array [°C]; vf_tol_v : array [V]
     vz_v : array [V]; izt_a : array [A]; zzt_ohm : array [Ω]; izk_a : array [A]; zzk_ohm : array [Ω]
     vz_tol_pct : array [%]; tc_v_per_k : array [V/K]
+    tc_tol_v_per_k : array [V/K]
+        Spread (±) of the temperature coefficient, any family (0 when not given).
     pd_w : array [W]; tj_max_c : array [°C]; theta_ja_k_per_w : array [K/W]
     if_max_a : array [A]
         ``inf`` where the part gives no limit.
@@ -107,6 +109,7 @@ class PartSet:
     zzk_ohm: np.ndarray
     vz_tol_pct: np.ndarray
     tc_v_per_k: np.ndarray
+    tc_tol_v_per_k: np.ndarray
     pd_w: np.ndarray
     tj_max_c: np.ndarray
     theta_ja_k_per_w: np.ndarray

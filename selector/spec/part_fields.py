@@ -12,7 +12,7 @@ FAMILIES: tuple[str, ...] = FORWARD_FAMILIES + BREAKDOWN_FAMILIES
 PART_COLUMNS: tuple[str, ...] = (
     "part", "family", "description", "package", "is_a", "n", "rs_ohm", "eg_ev", "xti",
     "tnom_c", "vf_tol_v", "vz_v", "izt_a", "zzt_ohm", "izk_a", "zzk_ohm", "vz_tol_pct",
-    "tc_v_per_k", "pd_w", "tj_max_c", "theta_ja_k_per_w", "if_max_a", "i_min_a",
+    "tc_v_per_k", "tc_tol_v_per_k", "pd_w", "tj_max_c", "theta_ja_k_per_w", "if_max_a", "i_min_a",
 )  # fmt: skip
 
 #: The numeric columns, all SI floats.
@@ -29,5 +29,6 @@ CONTRACT_DEFAULTS: dict[str, float] = {
     "tnom_c": 25.0,
     "vz_tol_pct": 0.0,
     "tc_v_per_k": 0.0,
+    "tc_tol_v_per_k": 0.0,
     "tj_max_c": 150.0,
 }
