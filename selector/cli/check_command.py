@@ -6,14 +6,10 @@ import json
 
 import click
 
-from selector.catalog.approved_lists import list_view, stack_notes
+from selector.api import check as check_design
 from selector.cli.spec_options import SPEC_OPTIONS_EPILOG, spec_options
 from selector.errors import OptionError
-from selector.physics.corners import design_metrics
-from selector.physics.montecarlo import run_monte_carlo
-from selector.search.resistor_choice import choose_resistors
-from selector.spec.stack_notation import expand_stack, parse_stack
-from selector.views.check_view import CheckedDesign, check_json, check_lines
+from selector.views.check_view import check_json, check_lines
 
 MAX_MONTE_CARLO_SAMPLES = 10_000_000
 
@@ -52,31 +48,10 @@ def check(state, stack_text, as_json, samples, seed, derating, spec):
         raise OptionError(f"--monte-carlo: {samples} is not between 1 and {MAX_MONTE_CARLO_SAMPLES}")
     if not (0.0 < derating <= 1.0):
         raise OptionError(f"--derating: {derating:g} is not in (0, 1]")
-    elements = expand_stack(parse_stack(stack_text))
-    library = state.library()
-    parts = library.load_partset()
-    stack = parts.index_of(elements)
-    warnings, conditions = [], []
-    if spec.list_name is not None:
-        view = list_view(library, parts, spec.list_name, spec.statuses)
-        warnings, conditions = stack_notes(view, parts, stack)
-    for warning in warnings:
+    result = check_design(spec, state.library(), stack_text, derating=derating, samples=samples, seed=seed)
+    for warning in result.list_warnings:
         click.echo(f"Warning: {warning}", err=True)
-    if spec.resistor_fixed_ohm is not None:
-        resistor = float(spec.resistor_fixed_ohm)
-    else:
-        resistor = float(choose_resistors(parts, stack[None, :], spec)[0][0])
-    design = CheckedDesign(
-        spec=spec,
-        parts=parts,
-        stack=stack,
-        resistor_ohm=resistor,
-        resistor_chosen=spec.resistor_fixed_ohm is None,
-        metrics=design_metrics(parts, stack, resistor, spec, resistor_derating=derating),
-        monte_carlo=run_monte_carlo(parts, stack, resistor, spec, samples=samples, seed=seed)
-        if samples
-        else None,
-    )
+    design, warnings, conditions = result.design, result.list_warnings, result.list_conditions
     if as_json:
         document = check_json(design)
         if spec.list_name is not None:

@@ -634,7 +634,11 @@ def _search(entries: dict[str, _Entry]) -> dict:
 
 
 def load_spec(
-    path: str | Path | None = None, overrides: Mapping[str, object] | None = None
+    path: str | Path | None = None,
+    overrides: Mapping[str, object] | None = None,
+    *,
+    table: Mapping[str, object] | None = None,
+    table_label: str = "spec",
 ) -> RailSpec:
     """Read and validate a rail requirement from a spec TOML file and/or overrides.
 
@@ -645,6 +649,9 @@ def load_spec(
     overrides : mapping of str to object, optional
         ``"section.key"`` (e.g. ``"supply.min"``) → the text or number the user typed;
         each replaces the file's value. ``None`` values are ignored.
+    table : mapping, optional
+        The spec as a dict shaped like the TOML (``{"rail": {"target": "5 V"}, …}``),
+        instead of a file; messages name it ``table_label``.
 
     Returns
     -------
@@ -663,6 +670,9 @@ def load_spec(
     file_label = None
     if path is not None:
         file_label, table = _read_toml(path)
+    elif table is not None:
+        file_label, table = table_label, dict(table)
+    if table is not None:
         entries.update(_file_entries(file_label, table))
     entries.update(_option_entries(overrides or {}))
     missing = [dotted for dotted in REQUIRED_KEYS if dotted not in entries]

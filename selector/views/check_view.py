@@ -8,15 +8,13 @@ further keys are added after them. Non-finite numbers become ``null``.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 
 import numpy as np
 
+from selector.physics.checked_design import CheckedDesign
 from selector.physics.circuit import STATUS_NAMES, STATUS_SOLVED
-from selector.physics.corners import CornerSet, DesignMetrics, worst_case_corners
-from selector.physics.montecarlo import MonteCarloResult
-from selector.physics.partset import PartSet
-from selector.spec.rail_spec import RailSpec, spec_cautions
+from selector.physics.corners import CornerSet, worst_case_corners
+from selector.spec.rail_spec import spec_cautions
 from selector.spec.stack_notation import format_stack
 from selector.spec.units import format_quantity
 
@@ -25,23 +23,6 @@ CAUTION_MARGIN = 0.20
 #: Junctions within this of their limit draw a hot-part caution [K] (common practice, no source).
 HOT_PART_HEADROOM_K = 25.0
 DEFER = "this tool is not a safety assessment; follow local codes and licensed practice"
-
-
-@dataclass(frozen=True)
-class CheckedDesign:
-    """Everything the check report shows for one design."""
-
-    spec: RailSpec
-    parts: PartSet
-    stack: np.ndarray
-    resistor_ohm: float
-    resistor_chosen: bool
-    metrics: DesignMetrics
-    monte_carlo: MonteCarloResult | None = None
-
-    @property
-    def elements(self) -> list[str]:
-        return [str(self.parts.part[i]) for i in self.stack if i >= 0]
 
 
 def _margin_text(margin: float, format_spec: str = ".1%") -> str:

@@ -26,7 +26,6 @@ from selector.physics.corners import design_metrics
 from selector.physics.montecarlo import DEFAULT_SAMPLES, run_monte_carlo
 from selector.physics.partset import PartSet
 from selector.search.ranking import DEFAULT_RESOLUTION_V, pareto_front
-from selector.search.resistor_choice import choose_resistors
 from selector.spec.rail_spec import RailSpec, spec_cautions
 from selector.spec.spec_summary import describe_spec
 from selector.spec.stack_notation import expand_stack, parse_stack
@@ -223,14 +222,10 @@ def design_review(spec: RailSpec, library, stack_text: str, *, samples: int = DE
     samples, seed : int
         Monte Carlo samples and seed.
     """
-    parts = library.load_partset()
-    stack = _stack_indices(parts, stack_text)
-    if spec.resistor_fixed_ohm is not None:
-        resistor = float(spec.resistor_fixed_ohm)
-    else:
-        resistor = float(choose_resistors(parts, stack[None, :], spec)[0][0])
-    candidate = review_design(spec, parts, stack, resistor, resistor_chosen=spec.resistor_fixed_ohm is None,
-                              samples=samples, seed=seed)
+    from selector.api import check
+
+    design = check(spec, library, stack_text, samples=samples, seed=seed).design
+    candidate = CandidateReview(rank=None, design=design, document=check_json(design), conditions="")
     return ReviewReport(spec, [candidate], None, None, None, library.location_text(), library.schema_revision(), _now())
 
 

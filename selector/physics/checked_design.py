@@ -1,0 +1,30 @@
+"""One design proven at every corner: the spec, the parts, the stack, the resistor and what
+the physics found (the contract metrics and their detail, and optionally a Monte Carlo run)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from selector.physics.corners import DesignMetrics
+from selector.physics.montecarlo import MonteCarloResult
+from selector.physics.partset import PartSet
+from selector.spec.rail_spec import RailSpec
+
+
+@dataclass(frozen=True)
+class CheckedDesign:
+    """Everything the check report shows for one design."""
+
+    spec: RailSpec
+    parts: PartSet
+    stack: np.ndarray
+    resistor_ohm: float
+    resistor_chosen: bool
+    metrics: DesignMetrics
+    monte_carlo: MonteCarloResult | None = None
+
+    @property
+    def elements(self) -> list[str]:
+        return [str(self.parts.part[i]) for i in self.stack if i >= 0]
