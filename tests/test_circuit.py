@@ -7,7 +7,7 @@ import pytest
 from scipy.optimize import brentq
 from scipy.special import wrightomega
 
-from selector.physics import circuit
+from selector.physics import circuit, fast_newton
 from selector.physics.circuit import (
     STATUS_BELOW_LEAST_CURRENT,
     STATUS_RUNAWAY,
@@ -140,11 +140,11 @@ def test_extremes_of_current_and_temperature_are_safe(parts):
     assert op.worst_element_margin[2] < 0  # an ambient of 200 °C leaves the parts no allowed power
 
 
-@pytest.mark.parametrize("fast_evaluations", [circuit.FAST_EVALUATIONS, 0], ids=["fast path", "fallback alone"])
+@pytest.mark.parametrize("fast_evaluations", [fast_newton.FAST_EVALUATIONS, 0], ids=["fast path", "fallback alone"])
 def test_a_junction_past_the_ceiling_is_runaway_in_either_solver_path(parts, monkeypatch, fast_evaluations):
     # The signal diode at about 10 A (60 V through 5 Ω) would settle near 21,000 °C; at
     # 0.3 A (60 V through 200 Ω) it settles below the ceiling and is solved.
-    monkeypatch.setattr(circuit, "FAST_EVALUATIONS", fast_evaluations)
+    monkeypatch.setattr(fast_newton, "FAST_EVALUATIONS", fast_evaluations)
     stacks = np.array([[1, 3, -1]] * 2)
     with np.errstate(all="raise", under="ignore"):
         op = solve_operating_points(parts, stacks, np.array([60.0, 60.0]), np.array([5.0, 200.0]), 125.0, 1.0)
@@ -184,7 +184,7 @@ def test_fast_path_agrees_with_the_safeguarded_solver(parts, monkeypatch):
             rng.choice([-1.0, 0.0, 1.0], count), rng.uniform(0, 3e-3, count))  # fmt: skip
     with np.errstate(all="raise"):
         fast = circuit.solve_operating_points(parts, *args)
-        monkeypatch.setattr(circuit, "FAST_EVALUATIONS", 0)
+        monkeypatch.setattr(fast_newton, "FAST_EVALUATIONS", 0)
         safe = circuit.solve_operating_points(parts, *args)
     np.testing.assert_array_equal(fast.status, safe.status)
     ok = safe.solved
@@ -251,7 +251,7 @@ def test_fast_path_with_per_element_signs_agrees_with_the_safeguarded_solver(par
     args = _random_points(2000, 13)
     with np.errstate(all="raise"):
         fast = circuit.solve_operating_points(parts, *args)
-        monkeypatch.setattr(circuit, "FAST_EVALUATIONS", 0)
+        monkeypatch.setattr(fast_newton, "FAST_EVALUATIONS", 0)
         safe = circuit.solve_operating_points(parts, *args)
     np.testing.assert_array_equal(fast.status, safe.status)
     ok = safe.solved
@@ -356,7 +356,7 @@ def test_stack_corners_fall_back_to_the_safeguarded_solver(parts, monkeypatch):
     # Plain reference: with no fast evaluations every point goes to the bracketed solver.
     stacks, *conditions = _stack_corner_case(500, 31)
     fast = circuit.solve_stack_corners(parts, stacks, *conditions)
-    monkeypatch.setattr(circuit, "FAST_EVALUATIONS", 0)
+    monkeypatch.setattr(fast_newton, "FAST_EVALUATIONS", 0)
     with np.errstate(all="raise"):
         safe = circuit.solve_stack_corners(parts, stacks, *conditions)
     np.testing.assert_array_equal(fast.status, safe.status)

@@ -1,0 +1,480 @@
+"""The solver's fast path: coupled Newton without a bracket from a close start, keeping
+only the points it verifies (solver internals of :mod:`selector.physics.circuit`; see
+:func:`newton_block`)."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from selector.physics.devices import RUNAWAY_LOOP_GAIN, ZERO_CELSIUS_K
+from selector.physics.slot_constants import (
+    F_EG,
+    F_EG_NKQ,
+    F_INVERSE_P_MAX,
+    F_LOG_IS,
+    F_NKQ,
+    F_OFFSET,
+    F_RS,
+    F_THETA,
+    F_XTI_KQ,
+    F_XTI_N,
+    Z_A,
+    Z_INVERSE_P_MAX,
+    Z_LOOP,
+    Z_OFFSET,
+    Z_RZ,
+    Z_TC,
+    Z_THETA,
+)
+from selector.physics.solver_settings import (
+    KCL_TOLERANCE_V,
+    LEAST_CURRENT_A,
+    STATUS_SOLVED,
+    THERMAL_TOLERANCE_K,
+)
+
+#: Newton evaluations the fast path spends on a point before handing it to the safeguarded solver.
+FAST_EVALUATIONS = 8
+#: How far below the ambient the fast path lets a forward junction go [K]. A negative
+#: tolerance can settle one a little colder (:func:`selector.physics.devices.forward_junction_floor_c`;
+#: by microkelvins at the small currents where it happens); a point colder still goes to
+#: the bracketed solver, which uses that floor itself.
+_FAST_BELOW_AMBIENT_K = 1.0
+#: Zener loop gain ``θ·tc·I`` the fast path stays below, so ``1/(1 − g)`` stays modest.
+_FAST_LOOP_GAIN = 0.999
+#: Blended Newton steps on the cold stack's load line that give the fast path its start.
+_START_STEPS = 1
+#: First fast evaluation at which points are checked. From the cold start the second
+#: evaluation (after one coupled step) is almost never within the tolerances (measured:
+#: 0.01–0.03 % of points), so checking it would cost more than it saves; from the heated
+#: start the first never is (its junctions are only estimates).
+_FIRST_CHECK_COLD, _FIRST_CHECK_HEATED = 2, 1
+
+
+class Workspace:
+    """Named work rows reused by every block of one solve: arithmetic into fresh memory costs
+    about twice as much as into memory already in cache."""
+
+    def __init__(self, length: int):
+        self.length = length
+        self.rows: dict[object, np.ndarray] = {}
+        self.views: dict[tuple[object, object], np.ndarray] = {}
+
+    def __call__(self, name: object, shape: int | tuple[int, ...]) -> np.ndarray:
+        view = self.views.get((name, shape))
+        if view is None:
+            row = self.rows.get(name)
+            if row is None:
+                row = self.rows[name] = np.empty(self.length)
+            view = row[:shape] if isinstance(shape, int) else row[: math.prod(shape)].reshape(shape)
+            if len(self.views) < 4096:  # block shapes repeat; bound the cache all the same
+                self.views[name, shape] = view
+        return view
+
+
+def _taker(keep: np.ndarray, shape: tuple[int, ...]):
+    """A function giving the kept points (flat indices into ``shape``) of any array that
+    broadcasts to ``shape``, as a flat array: per-stack (stacks,) and per-corner (corners, 1)
+    rows of a (corners, stacks) block are read where they are, never spread first."""
+    if len(shape) == 1:
+        return lambda value: value[keep]
+    corner, stack = np.unravel_index(keep, shape)
+
+    def take(value: np.ndarray) -> np.ndarray:
+        if value.shape == shape:
+            return value.reshape(-1)[keep]
+        if value.ndim == 1:
+            return value[stack]
+        if value.shape == (shape[0], 1):
+            return value[corner, 0]
+        return np.broadcast_to(value, shape)[corner, stack]
+
+    return take
+
+
+
+def newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load_conductance, work,
+                  heated_start=False):  # fmt: skip
+    """Fast path: coupled Newton without a bracket, from a close start; keeps what it verifies.
+
+    ``forward`` and ``breakdown`` hold one constant array per slot (rows as in
+    :func:`key_tables`, signs applied, shape (rows, points)). The equations, the coupled
+    thermal step and the acceptance test are those of :func:`solve_block`. The current
+    step is Newton's for the resistor's exponential term and the stack's linear one
+    blended to second order: with ``δ = F/|F'|`` and ``p`` the resistor's share of
+    ``|F'|``, ``Δu = (1 − p)·δ + p·ln(1 + δ)``, exact to second order when
+    ``F = K − R·e^u − S·u`` (Taylor expansion of ``R·I·(e^Δu − 1) + S·Δu = F``).
+
+    The start solves that same form for the stack with every junction at the ambient —
+    ``V ≈ A + B·ln I + C·I`` (each forward element conducting, SPICE3 diode; each zener's
+    curve of DESIGN §3 exactly). Without ``heated_start`` the first evaluation is taken there
+    with every junction at the ambient, so it needs no logarithm per slot, and points are
+    checked from the third. With it, the start adds self-heating to first order: each
+    slot's settled rise ``θ·I·V/(1 − θ·I·∂V/∂T)`` moves its voltage by ``∂V/∂T`` times it, a
+    term in ``I`` that joins ``C``; one more step on that line, the junctions start at
+    ``Ta + θ·I·V``, and points are checked from the second evaluation. Measured on
+    ``benchmarks/bench_solver.py``: the heated start verifies 96 % of its corner workload
+    after one coupled step (and pays), but only 35 % of its wider random points (and does
+    not). Points not verified within :data:`FAST_EVALUATIONS` come back with status −1.
+    """
+    grid = np.broadcast_shapes(supply.shape, resistor.shape, ambient.shape, load_fixed.shape, load_conductance.shape)
+    count = math.prod(grid)
+    drive = np.multiply(resistor, load_fixed, out=work("drive", grid))
+    np.subtract(supply, drive, out=drive)
+    load_gain = np.multiply(resistor, load_conductance, out=work("load_gain", grid))
+    load_gain += 1.0
+    current_cap = np.divide(drive, resistor, out=work("hi", grid))
+    for z in breakdown:
+        # Where θ·tc ≤ 0 the bound is beyond any current (1e-300 stands in for 0).
+        bound = np.maximum(z[Z_LOOP], 1e-300, out=work(0, z[Z_LOOP].shape))
+        np.minimum(current_cap, np.divide(_FAST_LOOP_GAIN, bound, out=bound), out=current_cap)
+    # Every point is either stored by _record or left at status −1 for the safeguarded
+    # solver, which overwrites it, so the outputs need no initial values.
+    status = np.full(count, -1, dtype=np.int8)
+    out_u, out_v, out_margin, out_hottest = (work(("out", name), count) for name in range(4))
+
+    viable = current_cap > 2 * LEAST_CURRENT_A
+    if viable.all():
+        index = slice(None)
+    else:
+        index = np.flatnonzero(viable)
+        take = _taker(index, grid)
+        forward = [[take(row) for row in f] for f in forward]
+        breakdown = [[take(row) for row in z] for z in breakdown]
+        ambient, drive, load_gain, current_cap, resistor = (
+            take(a) for a in (ambient, drive, load_gain, current_cap, resistor)
+        )
+    size = current_cap.shape
+    # At its own shape: a (corners, 1) ambient row stays one value per corner.
+    ambient_k = np.add(ambient, ZERO_CELSIUS_K, out=work("ambient_k", ambient.shape))
+    coldest_k = ambient_k - _FAST_BELOW_AMBIENT_K
+    lo = np.log(LEAST_CURRENT_A)
+    hi = np.log(current_cap, out=current_cap)
+
+    log_ambient = np.log(ambient_k, out=work("log_ambient", ambient.shape))
+    inverse_ambient = np.divide(1.0, ambient_k, out=work("inverse_ambient", ambient.shape))
+    cold_v, cold_log_slope, cold_ohmic, n_vt, log_is, scratch = (work(name, size) for name in range(6))
+    for buffer in (cold_v, cold_log_slope, cold_ohmic):
+        buffer.fill(0.0)
+    # Each forward slot's n·Vt and ln Is at the ambient, kept for the first evaluation or the
+    # heated start.
+    cold = [(work(("cold n_vt", j), size), work(("cold ln Is", j), size)) for j in range(len(forward))]
+    for f, (slot_n_vt, slot_log_is) in zip(forward, cold, strict=True):
+        np.multiply(f[F_NKQ], ambient_k, out=slot_n_vt)
+        np.multiply(f[F_XTI_N], log_ambient, out=slot_log_is)
+        slot_log_is -= np.multiply(f[F_EG_NKQ], inverse_ambient, out=scratch)
+        slot_log_is += f[F_LOG_IS]
+        cold_v += f[F_OFFSET]
+        cold_v -= np.multiply(slot_n_vt, slot_log_is, out=scratch)
+        cold_log_slope += slot_n_vt
+        cold_ohmic += f[F_RS]
+    for z in breakdown:
+        cold_v += z[Z_OFFSET]
+        cold_log_slope += z[Z_A]
+        cold_ohmic += z[Z_RZ]
+    # Load line K − P·e^u − Q·u = 0 of that cold stack.
+    line_k = np.subtract(drive, np.multiply(load_gain, cold_v, out=cold_v), out=cold_v)
+    line_p = np.add(resistor, np.multiply(load_gain, cold_ohmic, out=cold_ohmic), out=cold_ohmic)
+    line_q = np.multiply(load_gain, cold_log_slope, out=cold_log_slope)
+    # First guess: the line with the stack's log-current term left out (kept above 0 by
+    # a floor of 1e-3 of the drive where the cold stack alone would exceed the supply).
+    u = np.multiply(drive, 1e-3, out=work(("u", 1), size))
+    np.maximum(line_k, u, out=u)
+    u /= line_p
+    np.log(u, out=u)
+    np.maximum(u, lo, out=u)
+    np.minimum(u, hi, out=u)
+    exponential, falling, delta = n_vt, log_is, scratch
+    for _ in range(_START_STEPS):
+        _line_step(u, line_k, line_p, line_q, lo, hi, exponential, falling, delta, work(6, size))
+
+    if heated_start:
+        junction = _heated_start(forward, breakdown, cold, u, ambient_k, inverse_ambient, load_gain, line_k, line_p,
+                                 line_q, lo, hi, work, size)  # fmt: skip
+    else:
+        junction = [np.broadcast_to(ambient_k, size).copy() for _ in forward]
+    first_check = _FIRST_CHECK_HEATED if heated_start else _FIRST_CHECK_COLD
+    thermal = [None] * len(forward)  # per slot: residual, its u-slope, 1/(1 − g), settled voltage
+    zener_v = [None] * len(breakdown)
+    pending = np.ones(u.shape, dtype=bool)
+    for evaluation in range(FAST_EVALUATIONS):
+        at_ambient = evaluation == 0 and not heated_start
+        checking = evaluation >= first_check
+        size = u.shape
+        minus_x, tail, log_term, n_vt, ohmic, dv_dt, heating, log_t, inverse_t, scratch = (
+            work(name, size) for name in range(10)
+        )
+        current = np.exp(u, out=work("current", size))
+        stack_v = work("stack_v", size)
+        stack_slope = work("stack_slope", size)
+        worst_residual_t = work("worst_residual_t", size)
+        worst_gain = work("worst_gain", size)
+        for buffer in (stack_v, stack_slope, worst_residual_t, worst_gain) if checking else (stack_v, stack_slope):
+            buffer.fill(0.0)
+        for j, f in enumerate(forward):
+            temperature = junction[j]
+            if at_ambient:
+                # Junctions still at the ambient: n·Vt and ln Is are the start's (used up here).
+                log_tj, inverse_tj = log_ambient, inverse_ambient
+                n_vt, minus_x = cold[j]
+            else:
+                log_tj = np.log(temperature, out=log_t)
+                inverse_tj = np.divide(1.0, temperature, out=inverse_t)
+                np.multiply(f[F_XTI_N], log_tj, out=minus_x)
+                minus_x -= np.multiply(f[F_EG_NKQ], inverse_tj, out=scratch)
+                minus_x += f[F_LOG_IS]
+            minus_x -= u
+            np.maximum(minus_x, -700.0, out=minus_x)
+            np.minimum(minus_x, 700.0, out=minus_x)
+            np.exp(minus_x, out=tail)
+            np.log1p(tail, out=log_term)
+            log_term -= minus_x
+            fraction = np.add(tail, 1.0, out=tail)
+            np.divide(1.0, fraction, out=fraction)
+            if not at_ambient:
+                np.multiply(f[F_NKQ], temperature, out=n_vt)
+            np.multiply(f[F_RS], current, out=ohmic)
+            residual_t, slope_r, inverse, voltage = (work((j, name), size) for name in range(4))
+            np.multiply(n_vt, log_term, out=voltage)
+            voltage += ohmic
+            voltage += f[F_OFFSET]
+            dv_du = np.multiply(n_vt, fraction, out=n_vt)
+            dv_du += ohmic
+            np.multiply(f[F_EG], inverse_tj, out=dv_dt)
+            dv_dt += f[F_XTI_KQ]
+            dv_dt *= fraction
+            np.subtract(np.multiply(f[F_NKQ], log_term, out=log_term), dv_dt, out=dv_dt)
+            np.multiply(f[F_THETA], current, out=heating)
+            if at_ambient:  # Tj − Ta is exactly 0 there
+                np.negative(np.multiply(heating, voltage, out=residual_t), out=residual_t)
+            else:
+                np.subtract(temperature, ambient_k, out=residual_t)
+                residual_t -= np.multiply(heating, voltage, out=ohmic)
+            gain = np.multiply(heating, dv_dt, out=fraction)
+            if checking:
+                np.maximum(worst_gain, gain, out=worst_gain)
+                np.maximum(worst_residual_t, np.abs(residual_t, out=minus_x), out=worst_residual_t)
+            np.subtract(1.0, gain, out=inverse)
+            np.maximum(inverse, 1.0 - RUNAWAY_LOOP_GAIN, out=inverse)
+            np.divide(1.0, inverse, out=inverse)
+            weight = np.multiply(dv_dt, inverse, out=dv_dt)
+            np.add(voltage, dv_du, out=slope_r)
+            slope_r *= heating
+            voltage -= np.multiply(weight, residual_t, out=minus_x)
+            stack_v += voltage
+            dv_du += np.multiply(weight, slope_r, out=minus_x)
+            stack_slope += dv_du
+            thermal[j] = residual_t, slope_r, inverse, voltage
+        for j, z in enumerate(breakdown):
+            np.multiply(z[Z_RZ], current, out=ohmic)
+            loop = np.multiply(z[Z_LOOP], current, out=heating)
+            inverse = np.subtract(1.0, loop, out=scratch)
+            np.divide(1.0, inverse, out=inverse)
+            voltage = np.multiply(z[Z_A], u, out=work(("z", j), size))
+            voltage += z[Z_OFFSET]
+            voltage += ohmic
+            voltage *= inverse
+            stack_v += voltage
+            ohmic += z[Z_A]
+            ohmic += np.multiply(voltage, loop, out=loop)
+            ohmic *= inverse
+            stack_slope += ohmic
+            zener_v[j] = voltage
+        resistor_slope = np.multiply(resistor, current, out=work("resistor_slope", size))
+        residual = np.subtract(drive, resistor_slope, out=work("residual", size))
+        residual -= np.multiply(load_gain, stack_v, out=scratch)
+        falling = np.multiply(load_gain, stack_slope, out=stack_slope)
+        falling += resistor_slope
+        last = evaluation == FAST_EVALUATIONS - 1
+        if checking:
+            done = np.abs(residual, out=scratch) <= KCL_TOLERANCE_V
+            done &= worst_residual_t <= THERMAL_TOLERANCE_K
+            done &= worst_gain < RUNAWAY_LOOP_GAIN
+            done &= falling > 0.0
+            done &= pending
+            if done.any():
+                _record(done, bool(pending.all()), index, u, current, stack_v, ambient_k, forward, breakdown, junction, thermal, zener_v,
+                        out_u, out_v, status, out_margin, out_hottest, work)  # fmt: skip
+                pending &= ~done
+                if not pending.any():
+                    break
+                if pending.sum() < 0.5 * pending.size:
+                    # Integer indices: each copy below costs only the points kept.
+                    keep = np.flatnonzero(pending)
+                    index = (np.arange(count)[index] if isinstance(index, slice) else index)[keep]
+                    take = _taker(keep, u.shape)
+                    u, residual, falling, resistor_slope, current, ambient_k, drive, load_gain, resistor, hi = (
+                        take(a)
+                        for a in (u, residual, falling, resistor_slope, current, ambient_k, drive, load_gain, resistor, hi)
+                    )
+                    coldest_k = ambient_k - _FAST_BELOW_AMBIENT_K
+                    forward = [[take(row) for row in f] for f in forward]
+                    breakdown = [[take(row) for row in z] for z in breakdown]
+                    junction = [take(t) for t in junction]
+                    thermal = [tuple(take(a) for a in state) for state in thermal]
+                    pending = np.ones(u.shape, dtype=bool)
+        if last:
+            break
+        denominator = np.multiply(resistor_slope, 0.5, out=work(0, u.shape))
+        np.maximum(falling, denominator, out=denominator)
+        delta = np.divide(residual, denominator, out=residual)
+        share = np.divide(resistor_slope, denominator, out=resistor_slope)
+        np.minimum(share, 1.0, out=share)
+        step = np.maximum(delta, -0.9, out=work(1, u.shape))
+        np.log1p(step, out=step)
+        step -= delta
+        step *= share
+        step += delta
+        new_u = np.add(u, step, out=work(("u", evaluation % 2), u.shape))
+        np.maximum(new_u, lo, out=new_u)
+        np.minimum(new_u, hi, out=new_u)
+        np.subtract(new_u, u, out=step)
+        u = new_u
+        for j, (residual_t, slope_r, inverse, _) in enumerate(thermal):
+            residual_t -= np.multiply(slope_r, step, out=slope_r)
+            residual_t *= inverse
+            temperature = junction[j]
+            temperature -= residual_t
+            np.maximum(temperature, coldest_k, out=temperature)
+    return out_u, out_v, status, out_margin, out_hottest
+
+
+def _heated_start(forward, breakdown, cold, u, ambient_k, inverse_ambient, load_gain, line_k, line_p, line_q, lo, hi,
+                  work, size):  # fmt: skip
+    """Self-heating in the start of :func:`newton_block`, in place on ``u`` and ``line_p``;
+    returns each forward slot's starting junction [K].
+
+    A slot's voltage moves by ``∂V/∂T·θ·I·V/(1 − θ·I·∂V/∂T)`` (its settled rise, DESIGN §3
+    self-heating, to first order), a term in ``I`` like its ohmic one. With ``∂V/∂T`` and
+    ``V`` of the start so far (SPICE3 diode at the ambient, from each slot's ``cold`` n·Vt
+    and ln Is; zener tc) the load line takes it as more resistance, one more step follows,
+    and each junction starts at ``Ta + θ·I·V`` instead of at the ambient.
+    """
+    exponential, falling, delta = work(3, size), work(4, size), work(5, size)
+    start_current = np.exp(u, out=work("start_current", size))
+    product, gain = work(7, size), work(8, size)
+    slot_v = []
+    for f, (slot_n_vt, slot_log_is) in zip(forward, cold, strict=True):
+        log_part = np.subtract(u, slot_log_is, out=work(("start v", len(slot_v)), size))
+        log_part *= slot_n_vt
+        dv_dt = np.multiply(f[F_XTI_KQ], ambient_k, out=product)
+        dv_dt += f[F_EG]
+        np.subtract(log_part, dv_dt, out=dv_dt)
+        dv_dt *= inverse_ambient
+        voltage = np.add(log_part, f[F_OFFSET], out=log_part)
+        voltage += np.multiply(f[F_RS], start_current, out=gain)
+        # The junction's own loop gain g = θ·I·∂V/∂T settles the rise at θ·I·V/(1 − g).
+        dv_dt *= f[F_THETA]
+        np.multiply(dv_dt, start_current, out=gain)
+        np.subtract(1.0, gain, out=gain)
+        np.maximum(gain, 1.0 - RUNAWAY_LOOP_GAIN, out=gain)
+        dv_dt *= voltage
+        dv_dt /= gain
+        line_p += np.multiply(load_gain, dv_dt, out=dv_dt)
+        slot_v.append(voltage)
+    for z in breakdown:
+        voltage = np.multiply(z[Z_A], u, out=product)
+        voltage += z[Z_OFFSET]
+        voltage += np.multiply(z[Z_RZ], start_current, out=gain)
+        voltage *= z[Z_TC]
+        voltage *= z[Z_THETA]
+        np.multiply(z[Z_LOOP], start_current, out=gain)
+        np.subtract(1.0, gain, out=gain)
+        voltage /= gain
+        line_p += np.multiply(load_gain, voltage, out=voltage)
+    _line_step(u, line_k, line_p, line_q, lo, hi, exponential, falling, delta, work(6, size))
+    np.exp(u, out=start_current)
+    junction = []
+    for f, voltage in zip(forward, slot_v, strict=True):
+        temperature = f[F_THETA] * start_current
+        temperature *= voltage
+        temperature += ambient_k
+        junction.append(np.maximum(temperature, ambient_k, out=temperature))
+    return junction
+
+
+def _line_step(u, line_k, line_p, line_q, lo, hi, exponential, falling, delta, scratch):
+    """One blended Newton step on the load line ``K − P·e^u − Q·u = 0``, in place on ``u``
+    and kept within ``[lo, hi]`` (the step of :func:`newton_block`, exact to second order)."""
+    np.exp(u, out=exponential)
+    exponential *= line_p
+    np.add(exponential, line_q, out=falling)
+    np.maximum(falling, np.multiply(exponential, 0.5, out=delta), out=falling)
+    np.subtract(line_k, exponential, out=delta)
+    delta -= np.multiply(line_q, u, out=scratch)
+    delta /= falling
+    share = np.divide(exponential, falling, out=exponential)
+    u += delta
+    np.maximum(delta, -0.9, out=falling)
+    np.log1p(falling, out=falling)
+    falling -= delta
+    falling *= share
+    u += falling
+    np.maximum(u, lo, out=u)
+    np.minimum(u, hi, out=u)
+
+
+def _record(done, fresh, index, u, current, stack_v, ambient_k, forward, breakdown, junction, thermal, zener_v,
+            out_u, out_v, status, out_margin, out_hottest, work):  # fmt: skip
+    """Store the verified points: rail voltage, element margin ``1 − V·I/P_max`` with
+    ``P_max = min(pd, (Tjmax − Ta)/θ)`` (DESIGN §3), and the hottest junction.
+
+    When most of the block is verified, margin and junction are worked out for every point
+    (whole-array arithmetic is cheaper than picking the verified points first) and stored
+    for those; when few are, for those alone. When nothing of the whole block is stored
+    yet (``index`` a slice, ``fresh``) and most is verified, every point is stored: the
+    others are overwritten later, by a later record or by the safeguarded solver, and a
+    whole-array copy is cheaper than picking.
+    """
+    whole = isinstance(index, slice)
+    if whole and (done.all() or (fresh and 2 * np.count_nonzero(done) >= done.size)):
+        where, chosen = index, slice(None)
+        status[done.reshape(-1)] = STATUS_SOLVED
+    else:
+        chosen = np.flatnonzero(done)
+        where = chosen if whole else index[chosen]
+        status[where] = STATUS_SOLVED
+    out_u[where] = u.reshape(-1)[chosen]
+    out_v[where] = stack_v.reshape(-1)[chosen]
+    if not isinstance(chosen, slice) and 2 * chosen.size < u.size:
+        take = _taker(chosen, u.shape)
+        current, ambient_k = take(current), take(ambient_k)
+        forward = [[take(row) for row in f] for f in forward]
+        breakdown = [[take(row) for row in z] for z in breakdown]
+        junction = [take(t) for t in junction]
+        thermal = [tuple(take(a) for a in state) for state in thermal]
+        zener_v = [take(v) for v in zener_v]
+        chosen = slice(None)
+    size = current.shape
+    load = work(("record", 1), size)
+    load.fill(0.0)
+    hottest = work(("record", 2), size)
+    hottest.fill(-np.inf)  # the hottest element's junction, even below the ambient
+    scratch = work(("record", 3), size)
+    # Worked out for the whole block, the points not verified included: their iterates may
+    # be far out (and overflow), but only verified points, whose voltages are within the
+    # supply's, are stored from here.
+    with np.errstate(over="ignore", invalid="ignore"):
+        _margin_load_and_hottest(forward, breakdown, junction, thermal, zener_v, current, ambient_k, load, hottest, scratch)
+        load *= current
+        np.subtract(1.0, load, out=load)
+        hottest -= ZERO_CELSIUS_K
+    out_margin[where] = load.reshape(-1)[chosen]
+    out_hottest[where] = hottest.reshape(-1)[chosen]
+
+
+def _margin_load_and_hottest(forward, breakdown, junction, thermal, zener_v, current, ambient_k, load, hottest, scratch):
+    """Into ``load`` the most ``V/P_max`` over the slots, into ``hottest`` the hottest settled
+    junction [K]; see :func:`_record`."""
+    for f, temperature, (residual_t, _, inverse, settled_v) in zip(forward, junction, thermal, strict=True):
+        np.maximum(load, np.multiply(settled_v, f[F_INVERSE_P_MAX], out=scratch), out=load)
+        settled_t = np.multiply(residual_t, inverse, out=scratch)
+        np.maximum(hottest, np.subtract(temperature, settled_t, out=settled_t), out=hottest)
+    for z, voltage in zip(breakdown, zener_v, strict=True):
+        np.maximum(load, np.multiply(voltage, z[Z_INVERSE_P_MAX], out=scratch), out=load)
+        rise = np.multiply(z[Z_THETA], current, out=scratch)
+        rise *= voltage
+        rise += ambient_k
+        np.maximum(hottest, rise, out=hottest)
