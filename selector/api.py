@@ -198,7 +198,7 @@ def check(
     >>> result.meets, result.design.resistor_ohm                         # doctest: +SKIP
     """
     from selector.catalog.approved_lists import list_view, stack_notes
-    from selector.physics.corners import design_metrics
+    from selector.physics.design_metrics import design_metrics
     from selector.physics.montecarlo import run_monte_carlo
     from selector.search.resistor_choice import choose_resistors
     from selector.spec.stack_notation import expand_stack, parse_stack

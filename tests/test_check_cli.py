@@ -75,12 +75,13 @@ def test_terminal_report_shows_design_corners_metrics_and_parts(setup):
     assert result.exit_code == 0, result.output
     text = result.output
     assert text.startswith("Design: D-SIG1 + Z4V7-A with 270 Ω (as given)")
-    assert "Corners (< lowest rail, > highest rail, ! no solution; parts −/+: every part at its low/high tolerance):" in text
+    assert ("Corners (< lowest rail, > highest rail, o stack off, ! no solution; R at its tolerance and TCR; "
+            "parts −/+: every part at its low/high tolerance and TC spread):") in text
     assert "rail [V]" in text and "Hottest junction: " in text
     assert " <" in text and " >" in text
     assert "line regulation" in text and "Margin per part (worst corner):" in text
     assert "Monte Carlo (500 samples, seed 0): yield" in text
-    assert "Caution: series resistor has 10% margin" in text
+    assert "Caution: series resistor has 8% margin on its allowed power (corners " in text
 
 
 def test_high_supply_caution_defers_to_codes(setup):

@@ -9,9 +9,9 @@ from scipy.special import wrightomega
 
 from selector.physics import circuit, fast_newton
 from selector.physics.circuit import (
-    STATUS_BELOW_LEAST_CURRENT,
     STATUS_RUNAWAY,
     STATUS_SOLVED,
+    STATUS_STACK_OFF,
     STATUS_SUPPLY_EXHAUSTED,
     family_slots,
     solve_operating_points,
@@ -104,7 +104,7 @@ def test_kcl_residual_below_1nV_and_junctions_at_steady_state_within_1mK(parts):
     load = rng.uniform(0, 2e-3, count)
     with np.errstate(all="raise"):
         op = solve_operating_points(parts, stacks, supply, resistor, ambient, sign, load, detail=True)
-    ok = op.solved
+    ok = op.conducting
     assert ok.mean() > 0.8
     exact, _ = stack_voltage(parts, stacks[ok], op.stack_current_a[ok], ambient[ok], sign[ok])
     kcl = supply[ok] - resistor[ok] * (op.stack_current_a[ok] + op.load_current_a[ok]) - exact
@@ -113,16 +113,27 @@ def test_kcl_residual_below_1nV_and_junctions_at_steady_state_within_1mK(parts):
     theta = parts.theta_ja_k_per_w[stacks[rows, slots]]
     heat = theta * op.element_power_w[rows, slots]
     assert np.max(np.abs(op.junction_c[rows, slots] - ambient[rows] - heat)) <= 1e-3
-    # Every unsolved point is a stack that cannot conduct from this supply.
-    assert np.all(op.status[~ok] == STATUS_BELOW_LEAST_CURRENT)
+    # Every other point is a stack that cannot conduct from this supply: off, with its rail
+    # the supply itself through R (DESIGN §3; Ohm's law, no stack current).
+    off = ~ok
+    assert np.all(op.status[off] == STATUS_STACK_OFF)
+    np.testing.assert_allclose(op.vout_v[off], supply[off] - resistor[off] * load[off], rtol=1e-12)
+    assert np.all(op.stack_current_a[off] == 0.0)
 
 
-def test_no_solution_is_flagged_not_nan(parts):
-    stacks = np.array([[2, 2, 2, 2], [1, -1, -1, -1]])
+def test_a_stack_that_cannot_conduct_is_off_and_a_load_beyond_the_supply_has_no_solution(parts):
+    # INV-ZCOOL's knee exponent m = ln(40/6)/ln(10) < 1, so its curve ends at a positive
+    # voltage at zero current: four of them need more than 12 V to conduct at all.
+    stacks = np.array([[4, 4, 4, 4], [1, -1, -1, -1], [4, -1, -1, -1]])
     with np.errstate(all="raise"):
-        op = solve_operating_points(parts, stacks, np.array([12.0, 12.0]), 1000.0, 25.0, 0.0, np.array([0.0, 0.02]))
-    assert op.status.tolist() == [STATUS_BELOW_LEAST_CURRENT, STATUS_SUPPLY_EXHAUSTED]
-    assert np.all(np.isfinite(op.vout_v)) and np.all(op.vout_v == 0.0)
+        op = solve_operating_points(parts, stacks, np.full(3, 12.0), 1000.0, 25.0, 0.0, np.array([0.0, 0.02, 0.0]),
+                                    np.array([0.0, 0.0, 1 / 100.0]))
+    assert op.status.tolist() == [STATUS_STACK_OFF, STATUS_SUPPLY_EXHAUSTED, STATUS_STACK_OFF]
+    assert op.solved.tolist() == [True, False, True]
+    # Off: Vout = (Vin − R·I_Lc)/(1 + R/R_L) (DESIGN §3), here 12 V and 12/11 V.
+    np.testing.assert_allclose(op.vout_v, [12.0, 0.0, 12.0 / 11.0], rtol=1e-14)
+    assert op.stack_current_a.tolist() == [0.0, 0.0, 0.0]
+    np.testing.assert_allclose(op.resistor_power_w, [0.0, 0.0, 1000.0 * (12.0 / 11.0 / 100.0) ** 2])
 
 
 def test_extremes_of_current_and_temperature_are_safe(parts):
@@ -327,7 +338,7 @@ def test_stack_corners_meet_kcl_and_steady_state_junctions(parts):
         op = circuit.solve_stack_corners(parts, stacks, *conditions, detail=True)
     assert op.junction_c.shape == (*op.vout_v.shape, stacks.shape[1])
     assert np.all(np.isfinite(op.vout_v)) and np.all(op.vout_v[~op.solved] == 0.0)
-    rows, cols = np.nonzero(op.solved)
+    rows, cols = np.nonzero(op.conducting)
     grid = op.vout_v.shape
     exact, _ = stack_voltage(parts, stacks[rows], op.stack_current_a[rows, cols],
                              np.broadcast_to(ambient, grid)[rows, cols], np.broadcast_to(sign, grid)[rows, cols])  # fmt: skip

@@ -11,12 +11,11 @@ from selector.physics import corners as corners_module
 from selector.physics.circuit import solve_operating_points, solve_stack_corners
 from selector.physics.corners import (
     REASON_NAMES,
-    design_metrics,
     evaluate_designs,
     nominal_point,
-    smallest_standard_rating_w,
     worst_case_corners,
 )
+from selector.physics.design_metrics import design_metrics, smallest_standard_rating_w
 from selector.physics.partset import PartSet
 from selector.spec.rail_spec import RailSpec
 
@@ -109,20 +108,32 @@ def test_bias_and_current_limit_reasons(parts):
 
 
 def test_unsolvable_design_is_named_no_solution(parts):
-    ev = evaluate_designs(parts, np.array([[1, 1, 1, 1, 1]]), np.array([100.0]), make_spec())
+    # 0.2 A of load through 100 Ω needs 20 V: the load takes all that 11–13 V can give.
+    ev = evaluate_designs(parts, np.array([[0, -1]]), np.array([100.0]), make_spec(load_max=0.2))
     assert ev.reason_name(0) == "no solution"
     assert not ev.solved[0] and np.isinf(ev.error_v[0])
+
+
+def test_a_stack_that_is_off_is_solved_and_the_feasibility_rules_decide(parts):
+    # Five INV-ZCOOL (knee exponent ln(40/6)/ln 10 < 1, so about 5.9 V each even at no
+    # current) cannot conduct from 13 V: every corner is off, its rail what the supply and
+    # load make (DESIGN §3), and its bias (izk = 1 mA) fails.
+    ev = evaluate_designs(parts, np.array([[2, 2, 2, 2, 2]]), np.array([1000.0]), make_spec(load_max=0.0))
+    assert ev.solved[0] and ev.corner_solved[0].all() and (ev.stack_current_a[0] == 0).all()
+    corners = worst_case_corners(make_spec(load_max=0.0))
+    np.testing.assert_allclose(ev.vout_v[0], corners.supply_v, rtol=1e-14)
+    assert ev.reason_name(0) == "bias" and not ev.feasible[0]
 
 
 def test_small_signal_relations_of_a_shunt_regulator(parts):
     # Textbook shunt-regulator relations (common practice, no source): line regulation
     # dVout/dVin = rz/(R + rz), load regulation dVout/dI_L = −(rz ‖ R), with rz the
-    # zener's dynamic resistance a/I + rz at the operating current.
+    # zener's dynamic resistance zzt·(I/izt)^(−m) at the operating current (DESIGN §3 v2).
     spec = make_spec(target_v=6.2, load_min=0.0, load_max=2e-3, ambient_min_c=25.0, ambient_max_c=25.0)
     resistor = 330.0
     metrics = design_metrics(parts, np.array([2]), resistor, spec)
     current = metrics.evaluation.nominal["stack_current_a"][0]
-    rz = parts.zener_a_v[2] / current + parts.zener_rz_ohm[2]
+    rz = parts.zzt_ohm[2] * (current / parts.izt_a[2]) ** -parts.zener_knee_exponent[2]
     assert metrics.line_regulation_mv_per_v == pytest.approx(1e3 * rz / (resistor + rz), rel=1e-4)
     assert metrics.load_regulation_mv_per_ma == pytest.approx(-(rz * resistor) / (rz + resistor), rel=1e-4)
     assert metrics.ripple_attenuation_db == pytest.approx(-20 * np.log10(rz / (resistor + rz)), rel=1e-4)

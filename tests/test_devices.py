@@ -172,8 +172,9 @@ def test_junction_far_above_ambient_settles_and_past_the_ceiling_is_runaway():
 
 
 def test_zener_junction_past_the_ceiling_is_runaway(parts):
-    # INV-Z3V3 (θ = 250 K/W, negative tc): 3 A would settle far past the ceiling.
-    state = self_heated_element(parts, np.array([2, 2]), np.log([0.02, 3.0]), 25.0)
+    # INV-Z8V2 (θ = 200 K/W, tc +4.5 mV/K): at 1 A the loop gain θ·I·tc is 0.9, below 1,
+    # but Tj = (Ta + θ·I·(V(tnom) − tc·tnom))/(1 − 0.9) comes to some 17,000 °C.
+    state = self_heated_element(parts, np.array([3, 3]), np.log([0.02, 1.0]), 25.0)
     assert state.runaway.tolist() == [False, True]
 
 

@@ -6,7 +6,7 @@ import math
 
 import numpy as np
 import pytest
-from scipy import constants
+from scipy import constants, integrate
 
 from selector.catalog.model_cards import load_model_cards, parse_model_cards, parse_spice_number
 from selector.errors import InputDataError
@@ -140,22 +140,48 @@ def test_zener_without_bv_is_refused(tmp_path):
     assert str(caught.value) == f"{path}:1: Z-1: BV: missing; a card imported as a zener needs BV"
 
 
-def test_zener_mapping_reproduces_the_card_breakdown_curve(tmp_path):
-    """The derived datasheet points, put through the contract's breakdown element
-    (DESIGN §3, via selector.physics.devices), give back the card's breakdown branch
-    V = BV + N·Vt·ln(I/IBV) + RS·I (SPICE3 diode model, from memory) at every current."""
+def test_zener_mapping_meets_the_card_breakdown_curve_at_izt_and_parts_from_it_by_a_known_gap(tmp_path):
+    """The derived datasheet points, put through the contract's breakdown element (DESIGN §3
+    version 2, via selector.physics.devices), meet the card's breakdown branch
+    V = BV + N·Vt·ln(I/IBV) + RS·I (SPICE3 diode model, from memory) in voltage at izt; below
+    it they part by ∫(r_pl − r_card) dI, which scipy.integrate.quad computes independently."""
     path = tmp_path / "z.lib"
     path.write_text(".model Z-C1 D(IS=1e-14 N=1.2 RS=2 BV=5.1 IBV=1m TNOM=25)\n")
     parts_file = load_model_cards(path, overrides={"family": "zener", "pd_w": "0.5", "izt_a": "5m"})
     (record,) = parts_file.records
     vt = constants.k * (25 + constants.zero_Celsius) / constants.e  # scipy.constants
+    a = 1.2 * vt
     assert record["izt_a"] == 5e-3 and record["izk_a"] == pytest.approx(5e-4)
-    assert record["zzt_ohm"] == pytest.approx(1.2 * vt / 5e-3 + 2.0, rel=1e-12)
-    assert record["zzk_ohm"] >= record["zzt_ohm"]
+    assert record["zzt_ohm"] == pytest.approx(a / 5e-3 + 2.0, rel=1e-12)
+    assert record["zzk_ohm"] == pytest.approx(a / 5e-4 + 2.0, rel=1e-12)
     parts = PartSet.from_records([record])
-    currents = np.geomspace(1e-4, 0.1, 13)
-    voltage, _, _ = element_voltage_slopes(parts, np.zeros(13, dtype=int), currents, 25.0)
-    card_curve = 5.1 + 1.2 * vt * np.log(currents / 1e-3) + 2.0 * currents
-    np.testing.assert_allclose(voltage, card_curve, rtol=0, atol=1e-12)
-    assert math.isclose(record["vz_v"], 5.1 + 1.2 * vt * math.log(5.0) + 2.0 * 5e-3, rel_tol=1e-14)
+    currents = np.geomspace(5e-4, 5e-3, 41)
+    voltage, dv_di, _ = element_voltage_slopes(parts, np.zeros(41, dtype=int), currents, 25.0)
+    card_curve = 5.1 + a * np.log(currents / 1e-3) + 2.0 * currents
+    assert voltage[-1] == pytest.approx(card_curve[-1], abs=1e-12)
+    np.testing.assert_allclose(dv_di[[0, -1]], a / currents[[0, -1]] + 2.0, rtol=1e-12)
+    knee = parts.zener_knee_exponent[0]
+
+    def gap(current):
+        return integrate.quad(lambda i: record["zzt_ohm"] * (i / 5e-3) ** -knee - (a / i + 2.0), 5e-3, current,
+                              epsabs=1e-14)[0]  # fmt: skip
+
+    np.testing.assert_allclose(voltage - card_curve, [gap(i) for i in currents], rtol=0, atol=1e-10)
+    # The largest gap is at izk, the 3.2 mV the module docstring states.
+    assert np.argmax(np.abs(voltage - card_curve)) == 0
+    assert abs(voltage[0] - card_curve[0]) == pytest.approx(3.2e-3, abs=0.1e-3)
+    assert math.isclose(record["vz_v"], 5.1 + a * math.log(5.0) + 2.0 * 5e-3, rel_tol=1e-14)
     assert "BV=5.1" in record["model_extra"]
+
+
+def test_a_card_without_series_resistance_is_the_power_law_exactly(tmp_path):
+    # With RS = 0, zzk/zzt = izt/izk, so m = 1 and L_1 = ln (DESIGN §3 v2): the card's curve.
+    path = tmp_path / "z.lib"
+    path.write_text(".model Z-C0 D(N=1.5 BV=6.2 IBV=2m TNOM=25)\n")
+    (record,) = load_model_cards(path, overrides={"family": "zener", "pd_w": "0.5"}).records
+    parts = PartSet.from_records([record])
+    assert parts.zener_knee_exponent[0] == pytest.approx(1.0, abs=1e-12)
+    vt = constants.k * (25 + constants.zero_Celsius) / constants.e
+    currents = np.geomspace(1e-5, 0.05, 13)
+    voltage, _, _ = element_voltage_slopes(parts, np.zeros(13, dtype=int), currents, 25.0)
+    np.testing.assert_allclose(voltage, 6.2 + 1.5 * vt * np.log(currents / 2e-3), rtol=0, atol=1e-9)

@@ -236,7 +236,7 @@ def test_unknown_section_is_an_error_with_a_suggestion(in_tmp):
 def test_unknown_key_is_an_error_with_a_suggestion(in_tmp):
     assert error_of(replaced('target = "5 V"', 'target = "5 V"\ntolerence = "1 %"')) == (
         "rail.toml: [rail]: unknown key 'tolerence' (did you mean 'tolerance'?); "
-        "known: target, tolerance"
+        "known: target, tolerance, min, max, nominal"
     )
 
 
@@ -323,7 +323,8 @@ def test_rail_supply_load_ambient_checks(in_tmp, old, new, message):
         ('min = "2.3 kohm"\nmax = "4.6 kohm"\nseries = "E3"', "[resistor] max: no E3 value lies in 2.3 kΩ … 4.6 kΩ"),
         ('fixed = "100 kohm"\nmax = "47 kohm"',
          "[resistor] fixed: 100 kΩ is outside the range 1 Ω … 47 kΩ ([resistor] max)"),
-        ('wattage = "1 W"', "[resistor]: unknown key 'wattage'; known: series, tolerance, rating, fixed, min, max"),
+        ('wattage = "1 W"', "[resistor]: unknown key 'wattage'; known: series, tolerance, rating, fixed, min, max, tcr, "
+                             "full_power_ambient, zero_power_ambient"),
     ],
 )
 def test_resistor_checks(in_tmp, body, message):

@@ -12,20 +12,26 @@ carries no family and no ratings: those come from the caller (an option or a rat
 CSV keyed by part id) and are merged before the usual row validation.
 
 Zener mapping (``family = zener``; the card must give BV). The card's breakdown branch
-has the SPICE form ``I = IBV·exp((V − BV)/(N·Vt))`` plus the ohmic drop ``RS·I``, so
-its dynamic resistance is ``N·Vt/I + RS``: the contract's ``a/I + rz`` with
-``a = N·Vt(TNOM)`` and ``rz = RS``. With the test current ``izt_a`` (given, else IBV)
-and the knee current ``izk_a`` (given, else izt_a/10) the datasheet points are
+has the SPICE form ``I = IBV·exp((V − BV)/(N·Vt))`` plus the ohmic drop ``RS·I``, so its
+dynamic resistance is ``r_card(I) = a/I + RS`` with ``a = N·Vt(TNOM)``. With the test
+current ``izt_a`` (given, else IBV) and the knee current ``izk_a`` (given, else
+izt_a/10) the datasheet points are
 
     vz_v    = BV + a·ln(izt_a/IBV) + RS·izt_a
     zzt_ohm = a/izt_a + RS
     zzk_ohm = a/izk_a + RS
 
-which the contract's breakdown element (DESIGN §3) turns back into exactly the card's
-curve. Limits: the card has no temperature coefficient (give ``tc_v_per_k``) and no
-tolerance (give ``vz_tol_pct``); the exponential breakdown is a fit of a real zener's
-knee only near IBV, and ``a = N·Vt`` is far smaller than most real low-voltage zeners'
-soft knee, so a card fitted at one current says little about the knee.
+Where the two curves meet: the contract's breakdown element (DESIGN §3, version 2) has the
+power-law dynamic resistance ``zzt·(I/izt)^(−m)`` through both points, so it equals the
+card's voltage at izt and its slope at izt and at izk. With ``RS = 0`` the exponent is
+``m = 1`` and the power law *is* the card's logarithm: the curves are the same at every
+current. With ``RS > 0`` they part between the points, most at izk, by
+``∫ (r_pl − r_card) dI`` from izt to izk: 3.2 mV for ``N = 1.2, RS = 2 Ω`` at 5 mA / 0.5 mA
+(the test's card), 13 mV for ``N = 2, RS = 10 Ω``. Limits: the card has no temperature
+coefficient (give ``tc_v_per_k``) and no tolerance (give ``vz_tol_pct``); the
+exponential breakdown is a fit of a real zener's knee only near IBV, and ``a = N·Vt`` is
+far smaller than most real low-voltage zeners' soft knee, so a card fitted at one current
+says little about the knee.
 
 References
 ----------

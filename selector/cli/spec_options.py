@@ -18,6 +18,10 @@ from selector.spec.rail_spec import OPTION_FOR_KEY, load_spec
 _HELP: dict[str, tuple[str, str]] = {
     "rail.target": ("VOLTS", "Wanted rail voltage [V], e.g. '5 V'."),
     "rail.tolerance": ("PCT|VOLTS", "Allowed worst-case deviation: '3 %' of the target or a voltage, e.g. '0.1 V'."),
+    "rail.min": ("VOLTS", "Least rail voltage [V], with --rail-max instead of target ± tolerance "
+                 "(an asymmetric window), e.g. '4.85 V'."),
+    "rail.max": ("VOLTS", "Greatest rail voltage [V], with --rail-min, e.g. '5.25 V'."),
+    "rail.nominal": ("VOLTS", "Nominal rail voltage [V] for display only, inside the window, e.g. '5 V'."),
     "supply.min": ("VOLTS", "Least supply voltage [V], e.g. '11 V'."),
     "supply.max": ("VOLTS", "Greatest supply voltage [V], e.g. '13 V'."),
     "supply.nominal": ("VOLTS", "Nominal supply [V] for the nominal point (default: the midpoint), e.g. '12 V'."),
@@ -34,12 +38,19 @@ _HELP: dict[str, tuple[str, str]] = {
     "resistor.fixed": ("OHMS", "Use this series resistor [Ω] instead of choosing one, 1 Ω … 10 MΩ, e.g. '4k7' or '4.7 kohm'."),
     "resistor.min": ("OHMS", "Least resistor the choice may use [Ω] (default 1 Ω), e.g. '100'."),
     "resistor.max": ("OHMS", "Greatest resistor the choice may use [Ω] (default 10 MΩ), e.g. '100 kohm'."),
+    "resistor.tcr": ("PPM/K", "Series-resistor temperature coefficient, ± from 25 °C, e.g. '100 ppm/K' (default 0)."),
+    "resistor.full_power_ambient": ("DEGC", "Ambient up to which the resistor may dissipate its full rating "
+                                    "[°C] (default 70)."),
+    "resistor.zero_power_ambient": ("DEGC", "Ambient at which the resistor's allowed power reaches 0, linear "
+                                    "from the full-power ambient [°C] (default 155)."),
     "search.max_parts": ("N", "Most elements in one stack, 1 … 12 (default 3)."),
     "search.families": ("LIST", "Families the search may use, comma-separated, e.g. 'zener,signal' (default: all)."),
     "search.list": ("NAME", "Approved-parts list the search must respect (default: the whole library)."),
     "search.statuses": ("LIST", "Usable statuses on that list, e.g. 'approved,conditional' (the default)."),
     "search.min_current": ("AMPS", "Least stack current at every corner [A], e.g. '1 mA' (default 0)."),
     "search.min_margin": ("PCT", "Least dissipation margin at every corner, e.g. '20 %' or 0.2 (default 0)."),
+    "search.zener_izt_limit": ("RATIO", "Most zener current as a multiple of its test current, a "
+                               "feasibility limit, e.g. 5 (default: none; above 5 × izt a caution)."),
 }
 
 SPEC_OPTIONS_EPILOG = (

@@ -7,7 +7,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from selector.physics.corners import DesignMetrics
+from selector.physics.design_metrics import DesignMetrics
 from selector.physics.montecarlo import MonteCarloResult
 from selector.physics.partset import PartSet
 from selector.spec.rail_spec import RailSpec

@@ -15,11 +15,12 @@ thermal equations and then every ``Tj``. Breakdown elements' junctions are close
 ``I``. Each point keeps a bracket ``[u_lo, u_hi]`` with ``F(u_lo) > 0 > F(u_hi)``; a Newton
 step that leaves it is replaced by bisection, so every point converges or is flagged.
 
-Most points never need the bracket: a fast path (:func:`_newton_block`) groups the points
+Most points never need the bracket: a fast path
+(:func:`selector.physics.fast_newton.newton_block`) groups the points
 by stack layout (distinct parts in the same columns with the same multiplicities), starts
 from the cold stack's load line, takes the same coupled Newton steps without a bracket and
 keeps each point only once it passes the same acceptance test; the rest go to the
-bracketed solver.
+bracketed solver (:func:`selector.physics.bracketed_newton.solve_block`).
 
 :func:`solve_stack_corners` solves each stack at many corners (the worst-case corners of
 a design): the layout, the grouping and every slot's constants are worked out once per
@@ -27,15 +28,20 @@ stack, and each block is laid out (corners, stacks) with those constants broadca
 the corners; the same fast path and fallback then run on it, point for point the same
 arithmetic as :func:`solve_operating_points`.
 
-Points without a physical solution are flagged, never NaN: the load draws more than the
-supply can give through ``R``; the stack current would be below 1 fA; an element reaches
-electro-thermal loop gain ``θ·I·∂V/∂T ≥ 1``, or a junction would settle above
-:data:`~selector.physics.devices.JUNCTION_CEILING_C` (thermal runaway); or the iteration did not
-converge.
+When even a vanishing current (1 fA) leaves the supply side below the stack's voltage,
+the stack is **off**: ``I = 0`` and ``Vout = (Vin − R·I_Lc)/(1 + R·G_L)``, a solution
+marked "stack off" (DESIGN §3); the feasibility rules decide about it. Element voltages
+may be negative (a negative tolerance, or a zener's curve extrapolated far below its
+knee), so the current bracket is widened upward wherever ``F`` is still positive at its
+top; "load takes all the supply can give" means the load alone takes it all
+(``Vin ≤ R·I_Lc``). Points without a solution are flagged, never NaN: that; an element
+reaching electro-thermal loop gain ``θ·I·∂V/∂T ≥ 1``, or a junction that would settle
+above :data:`~selector.physics.devices.JUNCTION_CEILING_C` (thermal runaway); or the
+iteration not converging.
 
 References
 ----------
-.. [1] DESIGN §3, physics contract (circuit, self-heating).
+.. [1] DESIGN §3, physics contract version 2 (circuit, self-heating, stack off).
 .. [2] J. E. Dennis and R. B. Schnabel, *Numerical Methods for Unconstrained Optimization
        and Nonlinear Equations*, SIAM, 1996, §6.1 (safeguarded Newton with bisection).
 """
@@ -62,12 +68,13 @@ from selector.physics.solver_settings import (  # noqa: F401  (the solver's publ
     KCL_TOLERANCE_V,
     LEAST_CURRENT_A,
     NO_ALLOWED_POWER_MARGIN,
+    SOLUTION_STATUSES,
     STACK_CORNER_CHUNK_POINTS,
-    STATUS_BELOW_LEAST_CURRENT,
     STATUS_NAMES,
     STATUS_NOT_CONVERGED,
     STATUS_RUNAWAY,
     STATUS_SOLVED,
+    STATUS_STACK_OFF,
     STATUS_SUPPLY_EXHAUSTED,
     THERMAL_TOLERANCE_K,
 )
@@ -80,21 +87,26 @@ class OperatingPoints:
     Attributes
     ----------
     vout_v : array [V]
-        Rail voltage (the stack voltage); 0 where not solved.
+        Rail voltage (the stack voltage; with the stack off, what the supply, R and the load
+        make); 0 where the circuit has no solution.
     stack_current_a : array [A]
-        Current through the stack; 0 where not solved.
+        Current through the stack; 0 where the stack is off or there is no solution.
     load_current_a : array [A]
         ``I_Lc + G_L·Vout``.
     resistor_power_w : array [W]
         ``R·(I + I_L)²``.
     kcl_residual_v : array [V]
         ``Vin − R·(I + I_L) − Vout`` at the solution.
+    kcl_tolerance_v : array [V]
+        What ``|kcl_residual_v|`` was solved to: 0.1 nV, or, where the circuit equation's
+        terms are so large that double precision cannot resolve that (a load gain of
+        thousands over a zener deep below its knee), 32 rounding units of them.
     status : int array
         Index into :data:`STATUS_NAMES`.
     worst_element_margin : array [1]
         Least ``1 − max(P, 0)/P_max`` over the stack's elements, ``P_max = min(pd, (Tjmax −
-        Ta)/θ)`` (DESIGN §3); −inf where not solved, or where an element dissipates with
-        nothing allowed (the ambient at or past its Tjmax).
+        Ta)/θ)`` (DESIGN §3); 1 with the stack off; −inf where there is no solution, or
+        where an element dissipates with nothing allowed (the ambient at or past its Tjmax).
     hottest_junction_c : array [°C]
         Hottest element junction; the ambient where not solved.
     junction_c, element_voltage_v, element_power_w, element_loop_gain : array (n, max_len) or None
@@ -109,6 +121,7 @@ class OperatingPoints:
     status: np.ndarray
     worst_element_margin: np.ndarray
     hottest_junction_c: np.ndarray
+    kcl_tolerance_v: np.ndarray | None = None
     junction_c: np.ndarray | None = None
     element_voltage_v: np.ndarray | None = None
     element_power_w: np.ndarray | None = None
@@ -116,7 +129,12 @@ class OperatingPoints:
 
     @property
     def solved(self) -> np.ndarray:
-        """Points with a physical, converged solution."""
+        """Points with a circuit solution: conducting, or with the stack off."""
+        return np.isin(self.status, SOLUTION_STATUSES)
+
+    @property
+    def conducting(self) -> np.ndarray:
+        """Points solved with current through the stack."""
         return self.status == STATUS_SOLVED
 
 
@@ -132,6 +150,7 @@ def solve_operating_points(
     *,
     detail: bool = False,
     chunk_points: int = DEFAULT_CHUNK_POINTS,
+    tc_spread_sign: np.ndarray | None = None,
 ) -> OperatingPoints:
     """Solve ``Vin − R·(I + I_L) = V_stack(I)`` at many points at once.
 
@@ -155,6 +174,9 @@ def solve_operating_points(
         Also return per-element junction temperature, voltage and power.
     chunk_points : int
         Points solved together.
+    tc_spread_sign : array (n,) or (n, max_len) [1], optional
+        Position in each element's TC spread, shaped like ``tolerance_sign`` (default: the
+        same as ``tolerance_sign``, as at the worst-case corners).
 
     Returns
     -------
@@ -167,19 +189,25 @@ def solve_operating_points(
         for value in (supply_v, resistor_ohm, ambient_c, load_current_a, load_conductance_s)
     ]
     tolerance_sign = np.asarray(tolerance_sign, dtype=float)
+    spread_sign = tolerance_sign if tc_spread_sign is None else np.asarray(tc_spread_sign, dtype=float)
     per_element = tolerance_sign.ndim == 2
-    element_sign = np.broadcast_to(
-        tolerance_sign if per_element else tolerance_sign.reshape(-1, 1) if tolerance_sign.ndim else tolerance_sign,
-        stacks.shape,
-    )
+    if spread_sign.ndim != tolerance_sign.ndim:
+        raise ValueError("tc_spread_sign must be shaped like tolerance_sign")
+
+    def per_element_signs(sign):
+        return np.broadcast_to(sign if per_element else sign.reshape(-1, 1) if sign.ndim else sign, stacks.shape)
+
+    element_sign, element_spread = per_element_signs(tolerance_sign), per_element_signs(spread_sign)
     log_current = np.zeros(count)
     status = np.zeros(count, dtype=np.int8)
+    tolerance = np.full(count, KCL_TOLERANCE_V)
     vout = np.zeros(count)
     worst_margin = np.zeros(count)
     hottest = np.zeros(count)
     width = stacks.shape[1]
     merge = not per_element
     point_sign = None if per_element else np.broadcast_to(tolerance_sign.reshape(-1), (count,))
+    point_spread = None if per_element else np.broadcast_to(spread_sign.reshape(-1), (count,))
     keys, signature = stack_layout(parts, stacks, merge)
     tables: dict[int, tuple[np.ndarray, np.ndarray]] = {}
     work = Workspace(min(chunk_points, count))
@@ -198,18 +226,23 @@ def solve_operating_points(
             block = [c[chosen] for c in conditions]
             if per_element:
                 signs = [[element_sign[chosen, column] for column, _ in family] for family in slots]
+                spreads = [[element_spread[chosen, column] for column, _ in family] for family in slots]
             else:
-                chunk_sign = point_sign[chosen]
+                chunk_sign, chunk_spread = point_sign[chosen], point_spread[chosen]
                 signs = [[chunk_sign] * len(family) for family in slots]
+                spreads = [[chunk_spread] * len(family) for family in slots]
             part_keys = [[keys[column][chosen] for column, _ in family] for family in slots]
-            forward, breakdown = block_constants(tables, slots, part_keys, signs, block[2])
+            forward, breakdown = block_constants(tables, slots, part_keys, signs, spreads, block[2])
             outcome = newton_block(forward, breakdown, *block, work)
             hard = outcome[2] < 0
             if hard.any():
-                arrays = slot_arrays(len(parts), slots, part_keys, signs, hard)
-                rescued = solve_block(parts, *arrays, *(value[hard] for value in block))
+                arrays = slot_arrays(len(parts), slots, part_keys, signs, spreads, hard)
+                *rescued, rescued_tolerance = solve_block(parts, *arrays, *(value[hard] for value in block))
                 for value, fallback in zip(outcome, rescued, strict=True):
                     value[hard] = fallback
+                block_tolerance = tolerance[chosen]
+                block_tolerance[hard] = rescued_tolerance
+                tolerance[chosen] = block_tolerance
             block_u, block_v, block_status, block_margin, block_hottest = outcome
             log_current[chosen], vout[chosen], worst_margin[chosen], hottest[chosen] = (
                 block_u, block_v, block_margin, block_hottest
@@ -217,24 +250,37 @@ def solve_operating_points(
             if block_status.any():  # status starts at STATUS_SOLVED (0)
                 status[chosen] = block_status
     result = _assembled(log_current, vout, status, worst_margin, hottest, *conditions)
+    result["kcl_tolerance_v"] = tolerance
     if detail:
-        solved = status == STATUS_SOLVED
-        result.update(_element_detail(parts, stacks, log_current, conditions[2], element_sign, solved))
+        conducting = status == STATUS_SOLVED
+        result.update(_element_detail(parts, stacks, log_current, conditions[2], element_sign, element_spread,
+                                      conducting))  # fmt: skip
     return OperatingPoints(**result)
 
 
 def _assembled(log_current, vout, status, worst_margin, hottest, supply, resistor, ambient, load_fixed, load_conductance):
     """The fields of :class:`OperatingPoints` from the solved state (in place; any shape):
     load ``I_Lc + G_L·Vout``, resistor power ``R·(I + I_L)²`` and the KCL residual, with
-    every unsolved point set to its flagged values. A junction above
+    every point without a solution set to its flagged values, and every stack-off point to
+    ``I = 0``, ``Vout = (Vin − R·I_Lc)/(1 + R·G_L)`` (DESIGN §3). A junction above
     :data:`~selector.physics.devices.JUNCTION_CEILING_C` is no physical steady state: runaway."""
     status[(status == STATUS_SOLVED) & (hottest > JUNCTION_CEILING_C)] = STATUS_RUNAWAY
     # A slot with no allowed power (ambient at or past its Tjmax) carries NO_ALLOWED_POWER_W
     # in for 0 W, so its margin lands far below −1e250, where no real P/P_max can reach: −∞.
     worst_margin[worst_margin < NO_ALLOWED_POWER_MARGIN] = -np.inf
+    off = np.nonzero(status == STATUS_STACK_OFF)
+    if off[0].size:
+        supply_off, resistor_off = np.broadcast_to(supply, vout.shape)[off], np.broadcast_to(resistor, vout.shape)[off]
+        fixed_off = np.broadcast_to(load_fixed, vout.shape)[off]
+        gain_off = 1.0 + resistor_off * np.broadcast_to(load_conductance, vout.shape)[off]
+        vout[off] = (supply_off - resistor_off * fixed_off) / gain_off
+        worst_margin[off] = 1.0
+        hottest[off] = np.broadcast_to(ambient, hottest.shape)[off]
     unsolved = np.nonzero(status != STATUS_SOLVED)
     log_current[unsolved] = 0.0
     current = np.exp(log_current)
+    current[off] = 0.0
+    unsolved = np.nonzero(~np.isin(status, SOLUTION_STATUSES))
     vout[unsolved] = 0.0
     load = load_conductance * vout
     load += load_fixed
@@ -269,6 +315,7 @@ def solve_stack_corners(
     *,
     detail: bool = False,
     chunk_points: int = STACK_CORNER_CHUNK_POINTS,
+    tc_spread_sign: np.ndarray | None = None,
 ) -> OperatingPoints:
     """Each stack at many conditions (corners): the same equations and acceptance test as
     :func:`solve_operating_points`, results shaped (stacks, corners).
@@ -292,6 +339,8 @@ def solve_stack_corners(
         Also per-element junction temperature, voltage and power, (n, corners, max_len).
     chunk_points : int
         Stack-corner points solved together (at least one stack's corners).
+    tc_spread_sign : array broadcasting to (n, corners) [1], optional
+        Position in every element's TC spread (default: ``tolerance_sign``).
 
     Returns
     -------
@@ -302,7 +351,8 @@ def solve_stack_corners(
     count, width = stacks.shape
     values = [
         np.asarray(value, dtype=float)
-        for value in (supply_v, resistor_ohm, ambient_c, load_current_a, load_conductance_s, tolerance_sign)
+        for value in (supply_v, resistor_ohm, ambient_c, load_current_a, load_conductance_s, tolerance_sign,
+                      tolerance_sign if tc_spread_sign is None else tc_spread_sign)
     ]
     values = [v.reshape(1, 1) if v.ndim == 0 else v.reshape(1, -1) if v.ndim == 1 else v for v in values]
     corners = np.broadcast_shapes((count, 1), *(v.shape for v in values))[1]
@@ -310,6 +360,7 @@ def solve_stack_corners(
     per_stack = [v.shape[0] != 1 for v in values]
     log_current, vout, worst_margin, hottest = (np.zeros((count, corners)) for _ in range(4))
     status = np.zeros((count, corners), dtype=np.int8)
+    tolerance = np.full((count, corners), KCL_TOLERANCE_V)
     keys, signature = stack_layout(parts, stacks, True)
     tables: dict[int, tuple[np.ndarray, np.ndarray]] = {}
     stacks_per_block = max(1, chunk_points // max(corners, 1))
@@ -329,9 +380,9 @@ def solve_stack_corners(
             block = [np.ascontiguousarray(v[chosen].T) if own else v.T for v, own in zip(values, per_stack, strict=True)]
             # The resistor spans the block, so every point array of the Newton block does too.
             block[1] = np.broadcast_to(block[1], grid)
-            supply, resistor, ambient, load_fixed, load_conductance, sign = block
+            supply, resistor, ambient, load_fixed, load_conductance, sign, spread = block
             part_keys = [[keys[column][chosen] for column, _ in family] for family in slots]
-            forward, breakdown = stack_constants(tables, slots, part_keys, sign, ambient)
+            forward, breakdown = stack_constants(tables, slots, part_keys, sign, spread, ambient)
             outcome = newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load_conductance, work,
                                     heated_start=True)  # fmt: skip
             hard = np.flatnonzero(outcome[2] < 0)
@@ -339,38 +390,48 @@ def solve_stack_corners(
                 corner_of, stack_of = np.unravel_index(hard, grid)
                 point_keys = [[key[stack_of] for key in family] for family in part_keys]
                 point_sign = np.broadcast_to(sign, grid)[corner_of, stack_of]
+                point_spread = np.broadcast_to(spread, grid)[corner_of, stack_of]
                 signs = [[point_sign] * len(family) for family in slots]
-                arrays = slot_arrays(len(parts), slots, point_keys, signs, np.ones(hard.size, dtype=bool))
+                spreads = [[point_spread] * len(family) for family in slots]
+                arrays = slot_arrays(len(parts), slots, point_keys, signs, spreads, np.ones(hard.size, dtype=bool))
                 conditions = (np.broadcast_to(v, grid)[corner_of, stack_of] for v in block[:5])
-                rescued = solve_block(parts, *arrays, *conditions)
+                *rescued, rescued_tolerance = solve_block(parts, *arrays, *conditions)
                 for value, fallback in zip(outcome, rescued, strict=True):
                     value[hard] = fallback
+                block_tolerance = np.full(grid, KCL_TOLERANCE_V)
+                block_tolerance.reshape(-1)[hard] = rescued_tolerance
+                tolerance[chosen] = block_tolerance.T
             for output, value in zip((log_current, vout, status, worst_margin, hottest), outcome, strict=True):
                 output[chosen] = value.reshape(grid).T
     full = (count, corners)
     conditions = [np.broadcast_to(v, full) for v in values[:5]]
     result = _assembled(log_current, vout, status, worst_margin, hottest, *conditions)
+    result["kcl_tolerance_v"] = tolerance
     if detail:
         flat_stacks = np.repeat(stacks, corners, axis=0)
-        element_sign = np.broadcast_to(np.broadcast_to(values[5], full).reshape(-1, 1), flat_stacks.shape)
-        solved = (status == STATUS_SOLVED).reshape(-1)
+        element_sign, element_spread = (
+            np.broadcast_to(np.broadcast_to(v, full).reshape(-1, 1), flat_stacks.shape) for v in values[5:7]
+        )
+        conducting = (status == STATUS_SOLVED).reshape(-1)
         per_element = _element_detail(parts, flat_stacks, log_current.reshape(-1), conditions[2].reshape(-1),
-                                      element_sign, solved)  # fmt: skip
+                                      element_sign, element_spread, conducting)  # fmt: skip
         result.update({name: value.reshape(count, corners, width) for name, value in per_element.items()})
     return OperatingPoints(**result)
 
 
-def _element_detail(parts, stacks, log_current, ambient, sign, solved):
-    """Per-element state at the solved currents (exact junction solve per element)."""
+def _element_detail(parts, stacks, log_current, ambient, sign, spread, conducting):
+    """Per-element state at the solved currents (exact junction solve per element); an
+    element carrying no current (stack off, or no solution) shows 0 V, 0 W, the ambient."""
     shape = stacks.shape
     junction = np.broadcast_to(ambient[:, None], shape).copy()
     voltage = np.zeros(shape)
     power = np.zeros(shape)
     gain = np.zeros(shape)
-    rows, slots = np.nonzero((stacks >= 0) & solved[:, None])
+    rows, slots = np.nonzero((stacks >= 0) & conducting[:, None])
     if rows.size:
         state = self_heated_element(
-            parts, stacks[rows, slots], log_current[rows], ambient[rows], sign[rows, slots]
+            parts, stacks[rows, slots], log_current[rows], ambient[rows], sign[rows, slots],
+            tc_spread_sign=spread[rows, slots],
         )
         junction[rows, slots] = state.junction_c
         voltage[rows, slots] = state.voltage_v

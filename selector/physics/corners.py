@@ -7,8 +7,16 @@ the metrics of the physics contract (DESIGN §3): ``vout_low_v``, ``vout_high_v`
 
 Corner order (index = 16·supply + 8·load + 4·ambient + 2·resistor + sign, each bit 0 for
 the first value): supply {min, max} × load current {least, most} × ambient {min, max} ×
-resistor {R(1 − tol), R(1 + tol)} × element tolerance {−1, +1}. For a resistive load the
-least current is at the largest resistance.
+resistor {R(Ta, −1), R(Ta, +1)} × element sign {−1, +1}. For a resistive load the least
+current is at the largest resistance. Corners are numbered from 1 wherever a user sees
+them (corner 1 is index 0).
+
+Version 2 of the contract (DESIGN §3) adds the resistor's TCR to its corner values
+(:func:`selector.physics.series_resistor.resistor_factor`), its derating with the ambient
+to the margin, every element's TC spread to the element sign's reach, and a zener
+current limit (``[search] zener_izt_limit``) to the feasibility rules. A corner whose stack
+is off is solved (no stack current, the rail the supply, R and load make) and the rules
+decide about it: a stack current of 0 fails any positive current floor.
 """
 
 from __future__ import annotations
@@ -18,8 +26,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from selector.physics.circuit import solve_operating_points, solve_stack_corners
+from selector.physics.circuit import solve_stack_corners
 from selector.physics.partset import PartSet
+from selector.physics.series_resistor import (
+    resistor_allowed_power_w,
+    resistor_factor,
+    resistor_margin,
+)
 from selector.spec.rail_spec import RailSpec
 
 #: Infeasibility reasons, indexed by :attr:`DesignEvaluation.reason`.
@@ -44,7 +57,9 @@ class CornerSet:
         The load as written in the spec (current or resistance).
     ambient_c : array [°C]
     resistor_factor : array [1]
-        The series resistor is ``R·resistor_factor`` here.
+        The series resistor is ``R·resistor_factor`` here: ``1 + r·(tol + tcr·|Ta − 25 °C|)``.
+    resistor_sign : array [1]
+        The resistor's position ``r`` in its tolerance, −1 … +1.
     tolerance_sign : array [1]
         Element tolerance position, −1 … +1.
     labels : tuple of str
@@ -57,6 +72,7 @@ class CornerSet:
     load_value: np.ndarray
     ambient_c: np.ndarray
     resistor_factor: np.ndarray
+    resistor_sign: np.ndarray
     tolerance_sign: np.ndarray
     labels: tuple[str, ...]
 
@@ -85,21 +101,21 @@ def worst_case_corners(spec: RailSpec) -> CornerSet:
         32 corners.
     """
     least, most = (spec.load_max, spec.load_min) if spec.load_kind == "resistance" else (spec.load_min, spec.load_max)
-    tol = spec.resistor_tolerance
     rows = list(
         itertools.product(
             ((spec.supply_min_v, "Vin min"), (spec.supply_max_v, "Vin max")),
             ((least, "load least"), (most, "load most")),
             ((spec.ambient_min_c, "Ta min"), (spec.ambient_max_c, "Ta max")),
-            ((1.0 - tol, "R low"), (1.0 + tol, "R high")),
+            ((-1.0, "R low"), (1.0, "R high")),
             ((-1.0, "parts low"), (1.0, "parts high")),
         )
     )
     columns = [np.array([row[i][0] for row in rows], dtype=float) for i in range(5)]
-    supply, load_value, ambient, factor, sign = columns
+    supply, load_value, ambient, resistor_sign, sign = columns
     load_current, conductance = load_terms(spec, load_value)
     labels = tuple(", ".join(item[1] for item in row) for row in rows)
-    return CornerSet(supply, load_current, conductance, load_value, ambient, factor, sign, labels)
+    factor = resistor_factor(spec, ambient, resistor_sign)
+    return CornerSet(supply, load_current, conductance, load_value, ambient, factor, resistor_sign, sign, labels)
 
 
 def nominal_point(spec: RailSpec) -> CornerSet:
@@ -113,6 +129,7 @@ def nominal_point(spec: RailSpec) -> CornerSet:
         load_value=load_value,
         ambient_c=np.array([(spec.ambient_min_c + spec.ambient_max_c) / 2.0]),
         resistor_factor=np.array([1.0]),
+        resistor_sign=np.array([0.0]),
         tolerance_sign=np.array([0.0]),
         labels=("nominal",),
     )
@@ -129,7 +146,9 @@ class DesignEvaluation:
     error_v : array [V]
         ``max(|vout_high − target|, |vout_low − target|)``; inf where a corner has no solution.
     margin : array [1]
-        Least of ``1 − P/P_max`` over every element and corner and ``1 − P_R/rating``.
+        Least of ``1 − P/P_max`` over every element and corner and ``1 − P_R/P_R,max(Ta)``.
+    resistor_margin : array (designs, 32) [1]
+        ``1 − P_R/P_R,max(Ta)`` at each corner (DESIGN §3 derating).
     i_min_a : array [A]
         Least stack current over the corners.
     feasible, meets, solved : arrays of bool
@@ -140,6 +159,7 @@ class DesignEvaluation:
         Per element, with ``detail=True`` (padding slots: ambient, 0, 1).
     hottest_junction_c : array (designs, 32) [°C]
     corner_solved : array (designs, 32) of bool
+        The circuit has a solution there (conducting, or with the stack off).
     corner_status : int array (designs, 32)
         Each corner's solver status, an index into :data:`selector.physics.circuit.STATUS_NAMES`
         (why a corner has no solution).
@@ -163,6 +183,7 @@ class DesignEvaluation:
     stack_current_a: np.ndarray
     load_current_a: np.ndarray
     resistor_power_w: np.ndarray
+    resistor_margin: np.ndarray
     hottest_junction_c: np.ndarray
     corner_solved: np.ndarray
     corner_status: np.ndarray
@@ -185,13 +206,21 @@ def stack_current_limits(parts: PartSet, stacks: np.ndarray, spec: RailSpec) -> 
     need_a : array [A]
         ``max(spec min_current, each element's i_min_a)``.
     limit_a : array [A]
-        Least ``if_max_a`` of the stack's forward elements (inf when none is given).
+        Least :func:`part_current_limit` of the stack's elements (inf when none applies).
     """
     present = stacks >= 0
     safe = np.maximum(stacks, 0)
     need = np.where(present, parts.i_min_a[safe], 0.0).max(axis=1, initial=0.0)
-    limit = np.where(present, parts.if_max_a[safe], np.inf).min(axis=1, initial=np.inf)
+    limit = np.where(present, part_current_limit(parts, spec)[safe], np.inf).min(axis=1, initial=np.inf)
     return np.maximum(need, spec.min_current_a), limit
+
+
+def part_current_limit(parts: PartSet, spec: RailSpec) -> np.ndarray:
+    """Most current each part may carry at a feasible design [A]: a forward part's
+    ``if_max_a``; a zener's ``zener_izt_limit × izt_a`` when the spec sets that limit (its
+    tolerance and TC hold near its test current); inf otherwise."""
+    zener_limit = np.inf if spec.zener_izt_limit is None else spec.zener_izt_limit * parts.izt_a
+    return np.where(parts.is_zener, zener_limit, parts.if_max_a)
 
 
 def allowed_power_w(parts: PartSet, part_index: np.ndarray, ambient_c: np.ndarray) -> np.ndarray:
@@ -237,7 +266,6 @@ def evaluate_designs(
     """
     stacks = np.atleast_2d(np.asarray(stacks, dtype=np.intp))
     resistor_ohm = np.broadcast_to(np.asarray(resistor_ohm, dtype=float), (stacks.shape[0],))
-    designs, width = stacks.shape
     corners = worst_case_corners(spec)
     nominal = nominal_point(spec)
 
@@ -256,6 +284,13 @@ def evaluate_designs(
         row(corners.load_conductance_s, nominal.load_conductance_s),
         detail=detail,
     )
+    return reduce_corners(parts, stacks, spec, corners, points, detail)
+
+
+def reduce_corners(parts, stacks, spec, corners, points, detail) -> DesignEvaluation:
+    """The contract metrics (DESIGN §3) of designs solved at the 32 corners and, in column
+    32, the nominal point."""
+    designs, width = stacks.shape
 
     vout_all = points.vout_v
     solved_all = points.solved
@@ -271,8 +306,8 @@ def evaluate_designs(
         solved, np.maximum(np.abs(vout_high - spec.target_v), np.abs(vout_low - spec.target_v)), np.inf
     )
     i_min = np.where(solved, current.min(axis=1), 0.0)
-    resistor_margin = 1.0 - resistor_power.max(axis=1) / spec.resistor_rating_w
-    margin = np.where(solved, np.minimum(element_margin_min.min(axis=1), resistor_margin), -np.inf)
+    corner_resistor_margin = resistor_margin(resistor_power, resistor_allowed_power_w(spec, corners.ambient_c)[None, :])
+    margin = np.where(solved, np.minimum(element_margin_min.min(axis=1), corner_resistor_margin.min(axis=1)), -np.inf)
 
     need, limit = stack_current_limits(parts, stacks, spec)
     i_max = current.max(axis=1)
@@ -333,165 +368,9 @@ def evaluate_designs(
         stack_current_a=current,
         load_current_a=points.load_current_a[:, :CORNER_COUNT],
         resistor_power_w=resistor_power,
+        resistor_margin=corner_resistor_margin,
         hottest_junction_c=points.hottest_junction_c[:, :CORNER_COUNT],
         corner_solved=corner_solved,
         corner_status=points.status[:, :CORNER_COUNT],
         **extra,
-    )
-
-
-#: Common resistor power ratings [W] (common practice, no source: the usual catalogue steps).
-STANDARD_RESISTOR_RATINGS_W: tuple[float, ...] = (0.063, 0.1, 0.125, 0.25, 0.5, 0.75, 1.0, 2.0, 3.0, 5.0, 10.0)
-
-
-def smallest_standard_rating_w(power_w: float, derating: float = 1.0) -> float | None:
-    """Smallest standard rating that carries ``power_w`` when used at ``derating`` × its rating.
-
-    Parameters
-    ----------
-    power_w : float [W]
-    derating : float [1]
-        Fraction of the rating the shop allows (1 = full rating, 0.5 = half).
-
-    Returns
-    -------
-    float [W] or None
-        None when even the largest standard rating is too small.
-    """
-    for rating in STANDARD_RESISTOR_RATINGS_W:
-        if power_w <= rating * derating:
-            return rating
-    return None
-
-
-@dataclass(frozen=True)
-class DesignMetrics:
-    """Metrics of one design beyond the contract's (see :func:`design_metrics`).
-
-    Attributes
-    ----------
-    evaluation : DesignEvaluation
-        The contract metrics of this one design, with detail.
-    line_regulation_mv_per_v : float [mV/V]
-        ``dVout/dVin`` at nominal.
-    load_regulation_mv_per_ma : float [mV/mA]
-        ``dVout/dI_L`` at nominal (an extra load current drawn).
-    tempco_mv_per_k : float [mV/K]
-        ``dVout/dTa`` at nominal, self-heating included.
-    ripple_attenuation_db : float [dB]
-        ``−20·log10|dVout/dVin|``: low-frequency supply ripple attenuation.
-    efficiency : float [1]
-        Load power over supply power at nominal.
-    hottest_junction_c : float [°C]
-    hottest_corner : int
-        Index of the corner with the hottest junction.
-    hottest_element : int
-        Stack position of that junction.
-    element_worst_power_w, element_worst_margin : ndarray (max_len,)
-        Per stack position, over the corners.
-    resistor_worst_power_w : float [W]
-    resistor_rating_needed_w : float or None [W]
-        Smallest standard rating that carries the worst power at the derating.
-    reason : str
-        Named infeasibility reason, ``"ok"`` when feasible.
-    """
-
-    evaluation: DesignEvaluation
-    line_regulation_mv_per_v: float
-    load_regulation_mv_per_ma: float
-    tempco_mv_per_k: float
-    ripple_attenuation_db: float
-    efficiency: float
-    hottest_junction_c: float
-    hottest_corner: int
-    hottest_element: int
-    element_worst_power_w: np.ndarray
-    element_worst_margin: np.ndarray
-    resistor_worst_power_w: float
-    resistor_rating_needed_w: float | None
-    reason: str
-
-
-def design_metrics(
-    parts: PartSet,
-    stack: np.ndarray,
-    resistor_ohm: float,
-    spec: RailSpec,
-    *,
-    resistor_derating: float = 1.0,
-) -> DesignMetrics:
-    """Contract metrics plus regulation, tempco, ripple, efficiency and thermal detail of one design.
-
-    The small-signal figures are central finite differences of the full nonlinear solve
-    (self-heating included) at the nominal point, so they agree with the textbook
-    shunt-regulator relations ``rz/(R + rz)`` and ``−(rz ‖ R)`` where those apply.
-
-    Parameters
-    ----------
-    parts : PartSet
-    stack : int array (max_len,)
-        Part indices, padded with −1.
-    resistor_ohm : float [Ω]
-    spec : RailSpec
-    resistor_derating : float [1]
-        Fraction of its rating the shop lets a resistor run at (1 = none).
-
-    Returns
-    -------
-    DesignMetrics
-    """
-    stack = np.asarray(stack, dtype=np.intp).reshape(1, -1)
-    evaluation = evaluate_designs(parts, stack, np.array([resistor_ohm]), spec, detail=True)
-    nominal = nominal_point(spec)
-    supply_step = 1e-3 * max(spec.supply_nominal_v, 1.0)
-    load_step = 1e-6
-    ambient_step = 0.1
-    base = dict(
-        supply=nominal.supply_v[0], extra_load=0.0, ambient=nominal.ambient_c[0]
-    )
-    steps = [
-        dict(base, supply=base["supply"] + supply_step),
-        dict(base, supply=base["supply"] - supply_step),
-        dict(base, extra_load=load_step),
-        dict(base, extra_load=-load_step),
-        dict(base, ambient=base["ambient"] + ambient_step),
-        dict(base, ambient=base["ambient"] - ambient_step),
-        base,
-    ]
-    points = solve_operating_points(
-        parts,
-        np.repeat(stack, len(steps), axis=0),
-        np.array([s["supply"] for s in steps]),
-        np.full(len(steps), resistor_ohm),
-        np.array([s["ambient"] for s in steps]),
-        np.zeros(len(steps)),
-        nominal.load_current_a[0] + np.array([s["extra_load"] for s in steps]),
-        np.full(len(steps), nominal.load_conductance_s[0]),
-    )
-    v = points.vout_v
-    ok = bool(points.solved.all())
-    line = (v[0] - v[1]) / (2 * supply_step) if ok else float("nan")
-    load = (v[2] - v[3]) / (2 * load_step) if ok else float("nan")
-    tempco = (v[4] - v[5]) / (2 * ambient_step) if ok else float("nan")
-    supply_power = nominal.supply_v[0] * (points.stack_current_a[6] + points.load_current_a[6])
-    efficiency = v[6] * points.load_current_a[6] / supply_power if ok and supply_power > 0 else 0.0
-
-    junction = evaluation.junction_c[0]
-    hottest_corner, hottest_element = np.unravel_index(int(np.argmax(junction)), junction.shape)
-    resistor_worst = float(evaluation.resistor_power_w[0].max())
-    return DesignMetrics(
-        evaluation=evaluation,
-        line_regulation_mv_per_v=float(1e3 * line),
-        load_regulation_mv_per_ma=float(load),
-        tempco_mv_per_k=float(1e3 * tempco),
-        ripple_attenuation_db=float(-20.0 * np.log10(abs(line))) if ok and line != 0 else float("nan"),
-        efficiency=float(efficiency),
-        hottest_junction_c=float(junction[hottest_corner, hottest_element]),
-        hottest_corner=int(hottest_corner),
-        hottest_element=int(hottest_element),
-        element_worst_power_w=evaluation.element_power_w[0].max(axis=0),
-        element_worst_margin=evaluation.element_margin[0].min(axis=0),
-        resistor_worst_power_w=resistor_worst,
-        resistor_rating_needed_w=smallest_standard_rating_w(resistor_worst, resistor_derating),
-        reason=evaluation.reason_name(0),
     )

@@ -8,7 +8,7 @@ import math
 
 import numpy as np
 
-from selector.physics.devices import RUNAWAY_LOOP_GAIN, ZERO_CELSIUS_K
+from selector.physics.devices import KNEE_EXPONENT_CEILING, RUNAWAY_LOOP_GAIN, ZERO_CELSIUS_K
 from selector.physics.slot_constants import (
     F_EG,
     F_EG_NKQ,
@@ -17,20 +17,31 @@ from selector.physics.slot_constants import (
     F_NKQ,
     F_OFFSET,
     F_RS,
+    F_SPREAD,
     F_THETA,
+    F_TNOM_K,
     F_XTI_KQ,
     F_XTI_N,
-    Z_A,
+    Z_AMBIENT_OVER_TNOM,
+    Z_C,
+    Z_CQ,
     Z_INVERSE_P_MAX,
+    Z_LOG_IZT,
     Z_LOOP,
     Z_OFFSET,
-    Z_RZ,
+    Z_Q,
+    Z_SPREAD,
+    Z_START_A,
+    Z_START_RZ,
+    Z_START_SHIFT,
     Z_TC,
     Z_THETA,
 )
 from selector.physics.solver_settings import (
     KCL_TOLERANCE_V,
     LEAST_CURRENT_A,
+    LOWEST_JUNCTION_K,
+    STATUS_RUNAWAY,
     STATUS_SOLVED,
     THERMAL_TOLERANCE_K,
 )
@@ -42,7 +53,7 @@ FAST_EVALUATIONS = 8
 #: by microkelvins at the small currents where it happens); a point colder still goes to
 #: the bracketed solver, which uses that floor itself.
 _FAST_BELOW_AMBIENT_K = 1.0
-#: Zener loop gain ``θ·tc·I`` the fast path stays below, so ``1/(1 − g)`` stays modest.
+#: Zener loop gain ``θ·(tc + tc_tol)·I`` the fast path stays below, so ``1/(1 − g)`` stays modest.
 _FAST_LOOP_GAIN = 0.999
 #: Blended Newton steps on the cold stack's load line that give the fast path its start.
 _START_STEPS = 1
@@ -96,28 +107,30 @@ def _taker(keep: np.ndarray, shape: tuple[int, ...]):
 
 
 def newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load_conductance, work,
-                  heated_start=False):  # fmt: skip
+                 heated_start=False):  # fmt: skip
     """Fast path: coupled Newton without a bracket, from a close start; keeps what it verifies.
 
     ``forward`` and ``breakdown`` hold one constant array per slot (rows as in
-    :func:`key_tables`, signs applied, shape (rows, points)). The equations, the coupled
-    thermal step and the acceptance test are those of :func:`solve_block`. The current
-    step is Newton's for the resistor's exponential term and the stack's linear one
-    blended to second order: with ``δ = F/|F'|`` and ``p`` the resistor's share of
-    ``|F'|``, ``Δu = (1 − p)·δ + p·ln(1 + δ)``, exact to second order when
-    ``F = K − R·e^u − S·u`` (Taylor expansion of ``R·I·(e^Δu − 1) + S·Δu = F``).
+    :func:`selector.physics.slot_constants.key_tables`, signs applied, shape (rows,
+    points)). The equations, the coupled thermal step and the acceptance test are those of
+    :func:`selector.physics.bracketed_newton.solve_block`. The current step is Newton's for
+    the resistor's exponential term and the stack's linear one blended to second order:
+    with ``δ = F/|F'|`` and ``p`` the resistor's share of ``|F'|``,
+    ``Δu = (1 − p)·δ + p·ln(1 + δ)``, exact to second order when ``F = K − R·e^u − S·u``
+    (Taylor expansion of ``R·I·(e^Δu − 1) + S·Δu = F``).
 
     The start solves that same form for the stack with every junction at the ambient —
     ``V ≈ A + B·ln I + C·I`` (each forward element conducting, SPICE3 diode; each zener's
-    curve of DESIGN §3 exactly). Without ``heated_start`` the first evaluation is taken there
-    with every junction at the ambient, so it needs no logarithm per slot, and points are
-    checked from the third. With it, the start adds self-heating to first order: each
-    slot's settled rise ``θ·I·V/(1 − θ·I·∂V/∂T)`` moves its voltage by ``∂V/∂T`` times it, a
-    term in ``I`` that joins ``C``; one more step on that line, the junctions start at
-    ``Ta + θ·I·V``, and points are checked from the second evaluation. Measured on
-    ``benchmarks/bench_solver.py``: the heated start verifies 96 % of its corner workload
-    after one coupled step (and pays), but only 35 % of its wider random points (and does
-    not). Points not verified within :data:`FAST_EVALUATIONS` come back with status −1.
+    curve of DESIGN §3 by its tangent form at izt, of the same value and slope there).
+    Without ``heated_start`` the first evaluation is taken there with every junction at the
+    ambient, so it needs no logarithm per forward slot, and points are checked from the
+    third. With it, the start adds self-heating to first order: each slot's settled rise
+    ``θ·I·V/(1 − θ·I·∂V/∂T)`` moves its voltage by ``∂V/∂T`` times it, a term in ``I`` that
+    joins ``C``; one more step on that line, the junctions start at ``Ta + θ·I·V``, and
+    points are checked from the second evaluation. Measured on
+    ``benchmarks/bench_solver.py``: the heated start verifies most of its corner workload
+    after one coupled step (and pays), but not of its wider random points. Points not
+    verified within :data:`FAST_EVALUATIONS` come back with status −1.
     """
     grid = np.broadcast_shapes(supply.shape, resistor.shape, ambient.shape, load_fixed.shape, load_conductance.shape)
     count = math.prod(grid)
@@ -127,13 +140,13 @@ def newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load
     load_gain += 1.0
     current_cap = np.divide(drive, resistor, out=work("hi", grid))
     for z in breakdown:
-        # Where θ·tc ≤ 0 the bound is beyond any current (1e-300 stands in for 0).
+        # Where θ·(tc + tc_tol) ≤ 0 the bound is beyond any current (1e-300 stands in for 0).
         bound = np.maximum(z[Z_LOOP], 1e-300, out=work(0, z[Z_LOOP].shape))
         np.minimum(current_cap, np.divide(_FAST_LOOP_GAIN, bound, out=bound), out=current_cap)
     # Every point is either stored by _record or left at status −1 for the safeguarded
     # solver, which overwrites it, so the outputs need no initial values.
     status = np.full(count, -1, dtype=np.int8)
-    out_u, out_v, out_margin, out_hottest = (work(("out", name), count) for name in range(4))
+    out = [work(("out", name), count) for name in range(4)]
 
     viable = current_cap > 2 * LEAST_CURRENT_A
     if viable.all():
@@ -146,157 +159,21 @@ def newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load
         ambient, drive, load_gain, current_cap, resistor = (
             take(a) for a in (ambient, drive, load_gain, current_cap, resistor)
         )
-    size = current_cap.shape
-    # At its own shape: a (corners, 1) ambient row stays one value per corner.
-    ambient_k = np.add(ambient, ZERO_CELSIUS_K, out=work("ambient_k", ambient.shape))
-    coldest_k = ambient_k - _FAST_BELOW_AMBIENT_K
-    lo = np.log(LEAST_CURRENT_A)
-    hi = np.log(current_cap, out=current_cap)
-
-    log_ambient = np.log(ambient_k, out=work("log_ambient", ambient.shape))
-    inverse_ambient = np.divide(1.0, ambient_k, out=work("inverse_ambient", ambient.shape))
-    cold_v, cold_log_slope, cold_ohmic, n_vt, log_is, scratch = (work(name, size) for name in range(6))
-    for buffer in (cold_v, cold_log_slope, cold_ohmic):
-        buffer.fill(0.0)
-    # Each forward slot's n·Vt and ln Is at the ambient, kept for the first evaluation or the
-    # heated start.
-    cold = [(work(("cold n_vt", j), size), work(("cold ln Is", j), size)) for j in range(len(forward))]
-    for f, (slot_n_vt, slot_log_is) in zip(forward, cold, strict=True):
-        np.multiply(f[F_NKQ], ambient_k, out=slot_n_vt)
-        np.multiply(f[F_XTI_N], log_ambient, out=slot_log_is)
-        slot_log_is -= np.multiply(f[F_EG_NKQ], inverse_ambient, out=scratch)
-        slot_log_is += f[F_LOG_IS]
-        cold_v += f[F_OFFSET]
-        cold_v -= np.multiply(slot_n_vt, slot_log_is, out=scratch)
-        cold_log_slope += slot_n_vt
-        cold_ohmic += f[F_RS]
-    for z in breakdown:
-        cold_v += z[Z_OFFSET]
-        cold_log_slope += z[Z_A]
-        cold_ohmic += z[Z_RZ]
-    # Load line K − P·e^u − Q·u = 0 of that cold stack.
-    line_k = np.subtract(drive, np.multiply(load_gain, cold_v, out=cold_v), out=cold_v)
-    line_p = np.add(resistor, np.multiply(load_gain, cold_ohmic, out=cold_ohmic), out=cold_ohmic)
-    line_q = np.multiply(load_gain, cold_log_slope, out=cold_log_slope)
-    # First guess: the line with the stack's log-current term left out (kept above 0 by
-    # a floor of 1e-3 of the drive where the cold stack alone would exceed the supply).
-    u = np.multiply(drive, 1e-3, out=work(("u", 1), size))
-    np.maximum(line_k, u, out=u)
-    u /= line_p
-    np.log(u, out=u)
-    np.maximum(u, lo, out=u)
-    np.minimum(u, hi, out=u)
-    exponential, falling, delta = n_vt, log_is, scratch
-    for _ in range(_START_STEPS):
-        _line_step(u, line_k, line_p, line_q, lo, hi, exponential, falling, delta, work(6, size))
-
-    if heated_start:
-        junction = _heated_start(forward, breakdown, cold, u, ambient_k, inverse_ambient, load_gain, line_k, line_p,
-                                 line_q, lo, hi, work, size)  # fmt: skip
-    else:
-        junction = [np.broadcast_to(ambient_k, size).copy() for _ in forward]
+    state = _Iterate(forward, breakdown, ambient, drive, load_gain, resistor, current_cap, work)
+    state.start(heated_start)
     first_check = _FIRST_CHECK_HEATED if heated_start else _FIRST_CHECK_COLD
-    thermal = [None] * len(forward)  # per slot: residual, its u-slope, 1/(1 − g), settled voltage
-    zener_v = [None] * len(breakdown)
-    pending = np.ones(u.shape, dtype=bool)
+    pending = np.ones(state.u.shape, dtype=bool)
     for evaluation in range(FAST_EVALUATIONS):
-        at_ambient = evaluation == 0 and not heated_start
         checking = evaluation >= first_check
-        size = u.shape
-        minus_x, tail, log_term, n_vt, ohmic, dv_dt, heating, log_t, inverse_t, scratch = (
-            work(name, size) for name in range(10)
-        )
-        current = np.exp(u, out=work("current", size))
-        stack_v = work("stack_v", size)
-        stack_slope = work("stack_slope", size)
-        worst_residual_t = work("worst_residual_t", size)
-        worst_gain = work("worst_gain", size)
-        for buffer in (stack_v, stack_slope, worst_residual_t, worst_gain) if checking else (stack_v, stack_slope):
-            buffer.fill(0.0)
-        for j, f in enumerate(forward):
-            temperature = junction[j]
-            if at_ambient:
-                # Junctions still at the ambient: n·Vt and ln Is are the start's (used up here).
-                log_tj, inverse_tj = log_ambient, inverse_ambient
-                n_vt, minus_x = cold[j]
-            else:
-                log_tj = np.log(temperature, out=log_t)
-                inverse_tj = np.divide(1.0, temperature, out=inverse_t)
-                np.multiply(f[F_XTI_N], log_tj, out=minus_x)
-                minus_x -= np.multiply(f[F_EG_NKQ], inverse_tj, out=scratch)
-                minus_x += f[F_LOG_IS]
-            minus_x -= u
-            np.maximum(minus_x, -700.0, out=minus_x)
-            np.minimum(minus_x, 700.0, out=minus_x)
-            np.exp(minus_x, out=tail)
-            np.log1p(tail, out=log_term)
-            log_term -= minus_x
-            fraction = np.add(tail, 1.0, out=tail)
-            np.divide(1.0, fraction, out=fraction)
-            if not at_ambient:
-                np.multiply(f[F_NKQ], temperature, out=n_vt)
-            np.multiply(f[F_RS], current, out=ohmic)
-            residual_t, slope_r, inverse, voltage = (work((j, name), size) for name in range(4))
-            np.multiply(n_vt, log_term, out=voltage)
-            voltage += ohmic
-            voltage += f[F_OFFSET]
-            dv_du = np.multiply(n_vt, fraction, out=n_vt)
-            dv_du += ohmic
-            np.multiply(f[F_EG], inverse_tj, out=dv_dt)
-            dv_dt += f[F_XTI_KQ]
-            dv_dt *= fraction
-            np.subtract(np.multiply(f[F_NKQ], log_term, out=log_term), dv_dt, out=dv_dt)
-            np.multiply(f[F_THETA], current, out=heating)
-            if at_ambient:  # Tj − Ta is exactly 0 there
-                np.negative(np.multiply(heating, voltage, out=residual_t), out=residual_t)
-            else:
-                np.subtract(temperature, ambient_k, out=residual_t)
-                residual_t -= np.multiply(heating, voltage, out=ohmic)
-            gain = np.multiply(heating, dv_dt, out=fraction)
-            if checking:
-                np.maximum(worst_gain, gain, out=worst_gain)
-                np.maximum(worst_residual_t, np.abs(residual_t, out=minus_x), out=worst_residual_t)
-            np.subtract(1.0, gain, out=inverse)
-            np.maximum(inverse, 1.0 - RUNAWAY_LOOP_GAIN, out=inverse)
-            np.divide(1.0, inverse, out=inverse)
-            weight = np.multiply(dv_dt, inverse, out=dv_dt)
-            np.add(voltage, dv_du, out=slope_r)
-            slope_r *= heating
-            voltage -= np.multiply(weight, residual_t, out=minus_x)
-            stack_v += voltage
-            dv_du += np.multiply(weight, slope_r, out=minus_x)
-            stack_slope += dv_du
-            thermal[j] = residual_t, slope_r, inverse, voltage
-        for j, z in enumerate(breakdown):
-            np.multiply(z[Z_RZ], current, out=ohmic)
-            loop = np.multiply(z[Z_LOOP], current, out=heating)
-            inverse = np.subtract(1.0, loop, out=scratch)
-            np.divide(1.0, inverse, out=inverse)
-            voltage = np.multiply(z[Z_A], u, out=work(("z", j), size))
-            voltage += z[Z_OFFSET]
-            voltage += ohmic
-            voltage *= inverse
-            stack_v += voltage
-            ohmic += z[Z_A]
-            ohmic += np.multiply(voltage, loop, out=loop)
-            ohmic *= inverse
-            stack_slope += ohmic
-            zener_v[j] = voltage
-        resistor_slope = np.multiply(resistor, current, out=work("resistor_slope", size))
-        residual = np.subtract(drive, resistor_slope, out=work("residual", size))
-        residual -= np.multiply(load_gain, stack_v, out=scratch)
-        falling = np.multiply(load_gain, stack_slope, out=stack_slope)
-        falling += resistor_slope
-        last = evaluation == FAST_EVALUATIONS - 1
+        residual, falling, resistor_slope = state.evaluate(evaluation == 0 and not heated_start, checking)
         if checking:
-            done = np.abs(residual, out=scratch) <= KCL_TOLERANCE_V
-            done &= worst_residual_t <= THERMAL_TOLERANCE_K
-            done &= worst_gain < RUNAWAY_LOOP_GAIN
+            done = np.abs(residual, out=work("scratch done", residual.shape)) <= KCL_TOLERANCE_V
+            done &= state.worst_residual_t <= THERMAL_TOLERANCE_K
+            done &= state.worst_gain < RUNAWAY_LOOP_GAIN
             done &= falling > 0.0
             done &= pending
             if done.any():
-                _record(done, bool(pending.all()), index, u, current, stack_v, ambient_k, forward, breakdown, junction, thermal, zener_v,
-                        out_u, out_v, status, out_margin, out_hottest, work)  # fmt: skip
+                _record(done, bool(pending.all()), index, state, out, status, work)
                 pending &= ~done
                 if not pending.any():
                     break
@@ -304,19 +181,207 @@ def newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load
                     # Integer indices: each copy below costs only the points kept.
                     keep = np.flatnonzero(pending)
                     index = (np.arange(count)[index] if isinstance(index, slice) else index)[keep]
-                    take = _taker(keep, u.shape)
-                    u, residual, falling, resistor_slope, current, ambient_k, drive, load_gain, resistor, hi = (
-                        take(a)
-                        for a in (u, residual, falling, resistor_slope, current, ambient_k, drive, load_gain, resistor, hi)
-                    )
-                    coldest_k = ambient_k - _FAST_BELOW_AMBIENT_K
-                    forward = [[take(row) for row in f] for f in forward]
-                    breakdown = [[take(row) for row in z] for z in breakdown]
-                    junction = [take(t) for t in junction]
-                    thermal = [tuple(take(a) for a in state) for state in thermal]
-                    pending = np.ones(u.shape, dtype=bool)
-        if last:
+                    residual, falling, resistor_slope = state.keep(keep, (residual, falling, resistor_slope))
+                    pending = np.ones(state.u.shape, dtype=bool)
+        if evaluation == FAST_EVALUATIONS - 1:
             break
+        state.step(residual, falling, resistor_slope, evaluation)
+    return out[0], out[1], status, out[2], out[3]
+
+
+class _Iterate:
+    """The fast path's state for one block: per-slot constants, the current iterate ``u``,
+    the forward junctions [K], and what the last evaluation left for the next step."""
+
+    def __init__(self, forward, breakdown, ambient, drive, load_gain, resistor, current_cap, work):
+        self.forward, self.breakdown, self.work = forward, breakdown, work
+        self.drive, self.load_gain, self.resistor = drive, load_gain, resistor
+        # At its own shape: a (corners, 1) ambient row stays one value per corner.
+        self.ambient_k = np.add(ambient, ZERO_CELSIUS_K, out=work("ambient_k", ambient.shape))
+        self.lo = np.log(LEAST_CURRENT_A)
+        self.hi = np.log(current_cap, out=current_cap)
+        # The TC-spread terms cost only where a slot has a spread.
+        self.forward_spread = [bool(np.any(f[F_SPREAD])) for f in forward]
+        self.breakdown_spread = [bool(np.any(z[Z_SPREAD])) for z in breakdown]
+        self.thermal = [None] * len(forward)  # per slot: residual, its u-slope, 1/(1 − g), settled voltage
+        self.zener_v = [None] * len(breakdown)
+
+    def start(self, heated: bool) -> None:
+        """The cold stack's load line and one blended step on it; with ``heated``, the
+        first-order self-heating start of :func:`_heated_start`."""
+        work, size = self.work, self.hi.shape
+        ambient_k = self.ambient_k
+        self.log_ambient = np.log(ambient_k, out=work("log_ambient", ambient_k.shape))
+        self.inverse_ambient = np.divide(1.0, ambient_k, out=work("inverse_ambient", ambient_k.shape))
+        cold_v, cold_log_slope, cold_ohmic, n_vt, log_is, scratch = (work(name, size) for name in range(6))
+        for buffer in (cold_v, cold_log_slope, cold_ohmic):
+            buffer.fill(0.0)
+        # Each forward slot's n·Vt and ln Is at the ambient, kept for the first evaluation or the
+        # heated start.
+        self.cold = [(work(("cold n_vt", j), size), work(("cold ln Is", j), size)) for j in range(len(self.forward))]
+        for f, (slot_n_vt, slot_log_is) in zip(self.forward, self.cold, strict=True):
+            np.multiply(f[F_NKQ], ambient_k, out=slot_n_vt)
+            np.multiply(f[F_XTI_N], self.log_ambient, out=slot_log_is)
+            slot_log_is -= np.multiply(f[F_EG_NKQ], self.inverse_ambient, out=scratch)
+            slot_log_is += f[F_LOG_IS]
+            cold_v += f[F_OFFSET]
+            cold_v -= np.multiply(slot_n_vt, slot_log_is, out=scratch)
+            cold_log_slope += slot_n_vt
+            cold_ohmic += f[F_RS]
+        for z in self.breakdown:
+            cold_v += z[Z_OFFSET]
+            cold_v += z[Z_START_SHIFT]
+            cold_log_slope += z[Z_START_A]
+            cold_ohmic += z[Z_START_RZ]
+        # Load line K − P·e^u − Q·u = 0 of that cold stack.
+        line_k = np.subtract(self.drive, np.multiply(self.load_gain, cold_v, out=cold_v), out=cold_v)
+        line_p = np.add(self.resistor, np.multiply(self.load_gain, cold_ohmic, out=cold_ohmic), out=cold_ohmic)
+        line_q = np.multiply(self.load_gain, cold_log_slope, out=cold_log_slope)
+        # First guess: the line with the stack's log-current term left out (kept above 0 by
+        # a floor of 1e-3 of the drive where the cold stack alone would exceed the supply).
+        u = np.multiply(self.drive, 1e-3, out=work(("u", 1), size))
+        np.maximum(line_k, u, out=u)
+        u /= line_p
+        np.log(u, out=u)
+        np.maximum(u, self.lo, out=u)
+        np.minimum(u, self.hi, out=u)
+        for _ in range(_START_STEPS):
+            _line_step(u, line_k, line_p, line_q, self.lo, self.hi, n_vt, log_is, scratch, work(6, size))
+        self.u = u
+        if heated:
+            self.junction = _heated_start(self, line_k, line_p, line_q)
+        else:
+            self.junction = [np.broadcast_to(ambient_k, size).copy() for _ in self.forward]
+
+    def evaluate(self, at_ambient: bool, checking: bool):
+        """KCL residual ``F``, ``−F′`` and the resistor's share ``R·I`` at ``u``, every slot
+        evaluated and settled to first order in its thermal residual."""
+        work, u = self.work, self.u
+        size = u.shape
+        self.current = current = np.exp(u, out=work("current", size))
+        stack_v = self.stack_v = work("stack_v", size)
+        stack_slope = work("stack_slope", size)
+        self.worst_residual_t = work("worst_residual_t", size)
+        self.worst_gain = work("worst_gain", size)
+        buffers = (stack_v, stack_slope, self.worst_residual_t, self.worst_gain) if checking else (stack_v, stack_slope)
+        for buffer in buffers:
+            buffer.fill(0.0)
+        for j, f in enumerate(self.forward):
+            voltage, slope = self._forward_slot(j, f, current, at_ambient, checking)
+            stack_v += voltage
+            stack_slope += slope
+        for j, z in enumerate(self.breakdown):
+            voltage, slope = self._breakdown_slot(j, z, current)
+            stack_v += voltage
+            stack_slope += slope
+        resistor_slope = np.multiply(self.resistor, current, out=work("resistor_slope", size))
+        residual = np.subtract(self.drive, resistor_slope, out=work("residual", size))
+        residual -= np.multiply(self.load_gain, stack_v, out=work(9, size))
+        falling = np.multiply(self.load_gain, stack_slope, out=stack_slope)
+        falling += resistor_slope
+        return residual, falling, resistor_slope
+
+    def _forward_slot(self, j, f, current, at_ambient, checking):
+        """One forward slot: SPICE3 diode voltage at its junction, settled to first order."""
+        work, u = self.work, self.u
+        size = u.shape
+        temperature = self.junction[j]
+        minus_x, tail, log_term, n_vt, ohmic, dv_dt, heating, log_t, inverse_t, scratch = (
+            work(name, size) for name in range(10)
+        )
+        if at_ambient:
+            # Junctions still at the ambient: n·Vt and ln Is are the start's (used up here).
+            log_tj, inverse_tj = self.log_ambient, self.inverse_ambient
+            n_vt, minus_x = self.cold[j]
+        else:
+            log_tj = np.log(temperature, out=log_t)
+            inverse_tj = np.divide(1.0, temperature, out=inverse_t)
+            np.multiply(f[F_XTI_N], log_tj, out=minus_x)
+            minus_x -= np.multiply(f[F_EG_NKQ], inverse_tj, out=scratch)
+            minus_x += f[F_LOG_IS]
+        minus_x -= u
+        np.maximum(minus_x, -700.0, out=minus_x)
+        np.minimum(minus_x, 700.0, out=minus_x)
+        np.exp(minus_x, out=tail)
+        np.log1p(tail, out=log_term)
+        log_term -= minus_x
+        fraction = np.add(tail, 1.0, out=tail)
+        np.divide(1.0, fraction, out=fraction)
+        if not at_ambient:
+            np.multiply(f[F_NKQ], temperature, out=n_vt)
+        np.multiply(f[F_RS], current, out=ohmic)
+        residual_t, slope_r, inverse, voltage = (work((j, name), size) for name in range(4))
+        np.multiply(n_vt, log_term, out=voltage)
+        voltage += ohmic
+        voltage += f[F_OFFSET]
+        dv_du = np.multiply(n_vt, fraction, out=n_vt)
+        dv_du += ohmic
+        np.multiply(f[F_EG], inverse_tj, out=dv_dt)
+        dv_dt += f[F_XTI_KQ]
+        dv_dt *= fraction
+        np.subtract(np.multiply(f[F_NKQ], log_term, out=log_term), dv_dt, out=dv_dt)
+        if self.forward_spread[j]:
+            # s·tc_tol·|Tj − tnom| and its slope s·tc_tol·sign(Tj − tnom) (DESIGN §3).
+            above = np.subtract(temperature, f[F_TNOM_K], out=log_term)
+            voltage += np.multiply(f[F_SPREAD], np.abs(above, out=scratch), out=scratch)
+            dv_dt += np.multiply(f[F_SPREAD], np.sign(above, out=above), out=above)
+        np.multiply(f[F_THETA], current, out=heating)
+        if at_ambient:  # Tj − Ta is exactly 0 there
+            np.negative(np.multiply(heating, voltage, out=residual_t), out=residual_t)
+        else:
+            np.subtract(temperature, self.ambient_k, out=residual_t)
+            residual_t -= np.multiply(heating, voltage, out=ohmic)
+        gain = np.multiply(heating, dv_dt, out=fraction)
+        if checking:
+            np.maximum(self.worst_gain, gain, out=self.worst_gain)
+            np.maximum(self.worst_residual_t, np.abs(residual_t, out=minus_x), out=self.worst_residual_t)
+        np.subtract(1.0, gain, out=inverse)
+        np.maximum(inverse, 1.0 - RUNAWAY_LOOP_GAIN, out=inverse)
+        np.divide(1.0, inverse, out=inverse)
+        weight = np.multiply(dv_dt, inverse, out=dv_dt)
+        np.add(voltage, dv_du, out=slope_r)
+        slope_r *= heating
+        voltage -= np.multiply(weight, residual_t, out=minus_x)
+        dv_du += np.multiply(weight, slope_r, out=minus_x)
+        self.thermal[j] = residual_t, slope_r, inverse, voltage
+        return voltage, dv_du
+
+    def _breakdown_slot(self, j, z, current):
+        """One zener slot at its closed-form junction (DESIGN §3, version 2): with the curve
+        ``A = offset + m·c/q·(I/izt)^q`` and slope ``k`` on the junction's side of tnom,
+        ``V = (A ± spread·(Ta − tnom))/(1 − θ·k·I)``, ``dV/du = (m·c·(I/izt)^q + V·θ·k·I)/(1 − θ·k·I)``."""
+        work, u = self.work, self.u
+        size = u.shape
+        power, heating, inverse, ohmic = work(10, size), work(11, size), work(12, size), work(13, size)
+        np.subtract(u, z[Z_LOG_IZT], out=power)
+        power *= z[Z_Q]
+        np.minimum(power, KNEE_EXPONENT_CEILING, out=power)
+        np.exp(power, out=power)
+        voltage = np.multiply(z[Z_CQ], power, out=work(("z", j), size))
+        voltage += z[Z_OFFSET]
+        slope_t = z[Z_TC]
+        np.multiply(z[Z_THETA], current, out=heating)
+        if self.breakdown_spread[j]:
+            # The junction's side of tnom: at Tj = tnom, Tj − Ta − θ·I·V ≤ 0 puts it above.
+            at_tnom = np.subtract(voltage, np.multiply(z[Z_TC], z[Z_AMBIENT_OVER_TNOM], out=inverse), out=inverse)
+            at_tnom *= heating
+            above = at_tnom >= -z[Z_AMBIENT_OVER_TNOM]
+            side_spread = np.where(above, z[Z_SPREAD], -z[Z_SPREAD])
+            voltage += np.multiply(side_spread, z[Z_AMBIENT_OVER_TNOM], out=ohmic)
+            slope_t = np.add(slope_t, side_spread, out=ohmic)
+        loop = np.multiply(slope_t, heating, out=heating)
+        np.subtract(1.0, loop, out=inverse)
+        np.divide(1.0, inverse, out=inverse)
+        voltage *= inverse
+        slope = np.multiply(z[Z_C], power, out=power)
+        slope += np.multiply(voltage, loop, out=loop)
+        slope *= inverse
+        self.zener_v[j] = voltage
+        return voltage, slope
+
+    def step(self, residual, falling, resistor_slope, evaluation):
+        """The blended Newton step on ``u`` and the coupled thermal update of the junctions."""
+        work, u = self.work, self.u
         denominator = np.multiply(resistor_slope, 0.5, out=work(0, u.shape))
         np.maximum(falling, denominator, out=denominator)
         delta = np.divide(residual, denominator, out=residual)
@@ -328,35 +393,51 @@ def newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load
         step *= share
         step += delta
         new_u = np.add(u, step, out=work(("u", evaluation % 2), u.shape))
-        np.maximum(new_u, lo, out=new_u)
-        np.minimum(new_u, hi, out=new_u)
+        np.maximum(new_u, self.lo, out=new_u)
+        np.minimum(new_u, self.hi, out=new_u)
         np.subtract(new_u, u, out=step)
-        u = new_u
-        for j, (residual_t, slope_r, inverse, _) in enumerate(thermal):
+        self.u = new_u
+        coldest_k = self.ambient_k - _FAST_BELOW_AMBIENT_K
+        for j, (residual_t, slope_r, inverse, _) in enumerate(self.thermal):
             residual_t -= np.multiply(slope_r, step, out=slope_r)
             residual_t *= inverse
-            temperature = junction[j]
+            temperature = self.junction[j]
             temperature -= residual_t
             np.maximum(temperature, coldest_k, out=temperature)
-    return out_u, out_v, status, out_margin, out_hottest
+
+    def keep(self, keep, extra):
+        """Drop every point but ``keep`` (flat indices); returns ``extra`` arrays kept alike."""
+        take = _taker(keep, self.u.shape)
+        self.u, self.current, self.ambient_k, self.drive, self.load_gain, self.resistor, self.hi, self.stack_v = (
+            take(a) for a in (self.u, self.current, self.ambient_k, self.drive, self.load_gain, self.resistor,
+                              self.hi, self.stack_v)
+        )  # fmt: skip
+        self.forward = [[take(row) for row in f] for f in self.forward]
+        self.breakdown = [[take(row) for row in z] for z in self.breakdown]
+        self.junction = [take(t) for t in self.junction]
+        self.thermal = [tuple(take(a) for a in state) for state in self.thermal]
+        self.zener_v = [take(v) for v in self.zener_v]
+        return tuple(take(a) for a in extra)
 
 
-def _heated_start(forward, breakdown, cold, u, ambient_k, inverse_ambient, load_gain, line_k, line_p, line_q, lo, hi,
-                  work, size):  # fmt: skip
-    """Self-heating in the start of :func:`newton_block`, in place on ``u`` and ``line_p``;
-    returns each forward slot's starting junction [K].
+def _heated_start(state: _Iterate, line_k, line_p, line_q):
+    """Self-heating in the start of :func:`newton_block`, in place on ``state.u`` and
+    ``line_p``; returns each forward slot's starting junction [K].
 
     A slot's voltage moves by ``∂V/∂T·θ·I·V/(1 − θ·I·∂V/∂T)`` (its settled rise, DESIGN §3
     self-heating, to first order), a term in ``I`` like its ohmic one. With ``∂V/∂T`` and
     ``V`` of the start so far (SPICE3 diode at the ambient, from each slot's ``cold`` n·Vt
-    and ln Is; zener tc) the load line takes it as more resistance, one more step follows,
-    and each junction starts at ``Ta + θ·I·V`` instead of at the ambient.
+    and ln Is; zener tc, the tangent form of its curve) the load line takes it as more
+    resistance, one more step follows, and each junction starts at ``Ta + θ·I·V`` instead
+    of at the ambient.
     """
+    work, u, size = state.work, state.u, state.u.shape
+    ambient_k, inverse_ambient, load_gain = state.ambient_k, state.inverse_ambient, state.load_gain
     exponential, falling, delta = work(3, size), work(4, size), work(5, size)
     start_current = np.exp(u, out=work("start_current", size))
     product, gain = work(7, size), work(8, size)
     slot_v = []
-    for f, (slot_n_vt, slot_log_is) in zip(forward, cold, strict=True):
+    for f, (slot_n_vt, slot_log_is) in zip(state.forward, state.cold, strict=True):
         log_part = np.subtract(u, slot_log_is, out=work(("start v", len(slot_v)), size))
         log_part *= slot_n_vt
         dv_dt = np.multiply(f[F_XTI_KQ], ambient_k, out=product)
@@ -374,20 +455,23 @@ def _heated_start(forward, breakdown, cold, u, ambient_k, inverse_ambient, load_
         dv_dt /= gain
         line_p += np.multiply(load_gain, dv_dt, out=dv_dt)
         slot_v.append(voltage)
-    for z in breakdown:
-        voltage = np.multiply(z[Z_A], u, out=product)
+    for z in state.breakdown:
+        voltage = np.multiply(z[Z_START_A], u, out=product)
         voltage += z[Z_OFFSET]
-        voltage += np.multiply(z[Z_RZ], start_current, out=gain)
+        voltage += z[Z_START_SHIFT]
+        voltage += np.multiply(z[Z_START_RZ], start_current, out=gain)
         voltage *= z[Z_TC]
         voltage *= z[Z_THETA]
-        np.multiply(z[Z_LOOP], start_current, out=gain)
+        np.multiply(z[Z_TC], z[Z_THETA], out=gain)
+        gain *= start_current
         np.subtract(1.0, gain, out=gain)
+        np.maximum(gain, 1.0 - RUNAWAY_LOOP_GAIN, out=gain)
         voltage /= gain
         line_p += np.multiply(load_gain, voltage, out=voltage)
-    _line_step(u, line_k, line_p, line_q, lo, hi, exponential, falling, delta, work(6, size))
+    _line_step(u, line_k, line_p, line_q, state.lo, state.hi, exponential, falling, delta, work(6, size))
     np.exp(u, out=start_current)
     junction = []
-    for f, voltage in zip(forward, slot_v, strict=True):
+    for f, voltage in zip(state.forward, slot_v, strict=True):
         temperature = f[F_THETA] * start_current
         temperature *= voltage
         temperature += ambient_k
@@ -416,8 +500,7 @@ def _line_step(u, line_k, line_p, line_q, lo, hi, exponential, falling, delta, s
     np.minimum(u, hi, out=u)
 
 
-def _record(done, fresh, index, u, current, stack_v, ambient_k, forward, breakdown, junction, thermal, zener_v,
-            out_u, out_v, status, out_margin, out_hottest, work):  # fmt: skip
+def _record(done, fresh, index, state: _Iterate, out, status, work):
     """Store the verified points: rail voltage, element margin ``1 − V·I/P_max`` with
     ``P_max = min(pd, (Tjmax − Ta)/θ)`` (DESIGN §3), and the hottest junction.
 
@@ -428,6 +511,11 @@ def _record(done, fresh, index, u, current, stack_v, ambient_k, forward, breakdo
     others are overwritten later, by a later record or by the safeguarded solver, and a
     whole-array copy is cheaper than picking.
     """
+    out_u, out_v, out_margin, out_hottest = out
+    u, current, ambient_k = state.u, state.current, state.ambient_k
+    forward, breakdown, junction, thermal, zener_v = (
+        state.forward, state.breakdown, state.junction, state.thermal, state.zener_v
+    )
     whole = isinstance(index, slice)
     if whole and (done.all() or (fresh and 2 * np.count_nonzero(done) >= done.size)):
         where, chosen = index, slice(None)
@@ -437,7 +525,7 @@ def _record(done, fresh, index, u, current, stack_v, ambient_k, forward, breakdo
         where = chosen if whole else index[chosen]
         status[where] = STATUS_SOLVED
     out_u[where] = u.reshape(-1)[chosen]
-    out_v[where] = stack_v.reshape(-1)[chosen]
+    out_v[where] = state.stack_v.reshape(-1)[chosen]
     if not isinstance(chosen, slice) and 2 * chosen.size < u.size:
         take = _taker(chosen, u.shape)
         current, ambient_k = take(current), take(ambient_k)
@@ -453,21 +541,32 @@ def _record(done, fresh, index, u, current, stack_v, ambient_k, forward, breakdo
     hottest = work(("record", 2), size)
     hottest.fill(-np.inf)  # the hottest element's junction, even below the ambient
     scratch = work(("record", 3), size)
+    coldest = work(("record", 4), size)
+    coldest.fill(np.inf)
     # Worked out for the whole block, the points not verified included: their iterates may
     # be far out (and overflow), but only verified points, whose voltages are within the
     # supply's, are stored from here.
     with np.errstate(over="ignore", invalid="ignore"):
-        _margin_load_and_hottest(forward, breakdown, junction, thermal, zener_v, current, ambient_k, load, hottest, scratch)
+        _margin_load_and_hottest(forward, breakdown, junction, thermal, zener_v, current, ambient_k, load, hottest,
+                                 coldest, scratch)  # fmt: skip
         load *= current
         np.subtract(1.0, load, out=load)
         hottest -= ZERO_CELSIUS_K
     out_margin[where] = load.reshape(-1)[chosen]
     out_hottest[where] = hottest.reshape(-1)[chosen]
+    frozen = coldest.reshape(-1)[chosen] < LOWEST_JUNCTION_K
+    if frozen.any():
+        # A zener far below its knee at a negative voltage that "settles" below 0 K: no
+        # physical steady state, flagged like its hot counterpart.
+        recorded = status[where]
+        recorded[frozen & (recorded == STATUS_SOLVED)] = STATUS_RUNAWAY
+        status[where] = recorded
 
 
-def _margin_load_and_hottest(forward, breakdown, junction, thermal, zener_v, current, ambient_k, load, hottest, scratch):
+def _margin_load_and_hottest(forward, breakdown, junction, thermal, zener_v, current, ambient_k, load, hottest,
+                             coldest, scratch):  # fmt: skip
     """Into ``load`` the most ``V/P_max`` over the slots, into ``hottest`` the hottest settled
-    junction [K]; see :func:`_record`."""
+    junction [K] and into ``coldest`` the coldest zener junction [K]; see :func:`_record`."""
     for f, temperature, (residual_t, _, inverse, settled_v) in zip(forward, junction, thermal, strict=True):
         np.maximum(load, np.multiply(settled_v, f[F_INVERSE_P_MAX], out=scratch), out=load)
         settled_t = np.multiply(residual_t, inverse, out=scratch)
@@ -478,3 +577,4 @@ def _margin_load_and_hottest(forward, breakdown, junction, thermal, zener_v, cur
         rise *= voltage
         rise += ambient_k
         np.maximum(hottest, rise, out=hottest)
+        np.minimum(coldest, rise, out=coldest)

@@ -29,16 +29,15 @@ from selector.spec.part_fields import (
 
 #: Stand-in values for fields that do not apply to an element's family.
 _BENIGN_FORWARD = {"is_a": 1e-14, "n": 1.0}
-_BENIGN_BREAKDOWN = {"vz_v": 0.0, "izt_a": 1e-3, "zzt_ohm": 0.0, "izk_a": 1e-4, "zzk_ohm": 0.0}
+_BENIGN_BREAKDOWN = {"vz_v": 0.0, "izt_a": 1e-3, "zzt_ohm": 1.0, "izk_a": 1e-4, "zzk_ohm": 1.0}
 
 
-def zener_curve_coefficients(
-    zzt_ohm: np.ndarray, izt_a: np.ndarray, zzk_ohm: np.ndarray, izk_a: np.ndarray
-) -> tuple[np.ndarray, np.ndarray]:
-    """Coefficients of the breakdown element's dynamic resistance ``a/I + rz``.
+def zener_knee_exponent(zzt_ohm: np.ndarray, izt_a: np.ndarray, zzk_ohm: np.ndarray, izk_a: np.ndarray) -> np.ndarray:
+    """Exponent ``m = ln(zzk/zzt)/ln(izt/izk)`` of the zener's power-law dynamic resistance.
 
-    Fitted through the two datasheet points (Izt, Zzt) and (Izk, Zzk) as the physics
-    contract (DESIGN §3) prescribes; ``rz`` is clipped at 0 with ``a = Zzt·Izt``.
+    ``r(I) = zzt·(I/izt)^(−m)`` passes through both datasheet points (izt, zzt) and
+    (izk, zzk) (DESIGN §3, version 2): on log–log axes a zener's impedance against current
+    is close to a straight line.
 
     Parameters
     ----------
@@ -47,23 +46,17 @@ def zener_curve_coefficients(
     izt_a : array [A]
         Test current.
     zzk_ohm : array [Ω]
-        Dynamic impedance at the knee current.
+        Dynamic impedance at the knee current (``≥ zzt_ohm``).
     izk_a : array [A]
-        Knee current (``izk_a < izt_a``).
+        Knee current (``< izt_a``).
 
     Returns
     -------
-    a_v : array [V]
-        Coefficient of the ``a·ln(I/Izt)`` term.
-    rz_ohm : array [Ω]
-        Ohmic part of the dynamic resistance.
+    array [1]
+        ``m ≥ 0``.
     """
-    a_v = (zzk_ohm - zzt_ohm) / (1.0 / izk_a - 1.0 / izt_a)
-    rz_ohm = zzt_ohm - a_v / izt_a
-    clipped = rz_ohm < 0
-    a_v = np.where(clipped, zzt_ohm * izt_a, a_v)
-    rz_ohm = np.where(clipped, 0.0, rz_ohm)
-    return a_v, rz_ohm
+    return np.log(zzk_ohm / zzt_ohm) / np.log(izt_a / izk_a)
+
 
 
 @dataclass(frozen=True)
@@ -86,8 +79,12 @@ class PartSet:
         ``inf`` where the part gives no limit.
     i_min_a : array [A]
         Least stack current the part needs.
-    zener_a_v : array [V]; zener_rz_ohm : array [Ω]
-        Breakdown-curve coefficients (see :func:`zener_curve_coefficients`); 0 for forward parts.
+    zener_knee_exponent : array [1]
+        ``m`` of the zener's power-law dynamic resistance
+        (:func:`selector.physics.devices.zener_knee_exponent`); 0 for forward parts.
+    given_mask : bool array (n_parts, len(NUMERIC_COLUMNS))
+        Whether the library gave each numeric field (else the contract default, or a
+        benign stand-in for a field of the other family, is used); see :meth:`given`.
     """
 
     part: np.ndarray
@@ -115,8 +112,8 @@ class PartSet:
     theta_ja_k_per_w: np.ndarray
     if_max_a: np.ndarray
     i_min_a: np.ndarray
-    zener_a_v: np.ndarray
-    zener_rz_ohm: np.ndarray
+    zener_knee_exponent: np.ndarray
+    given_mask: np.ndarray
 
     def __len__(self) -> int:
         return int(self.part.shape[0])
@@ -154,6 +151,7 @@ class PartSet:
             filled[column] = np.where(~is_zener | np.isnan(filled[column]), benign, filled[column])
         filled["vz_tol_pct"] = np.where(is_zener, filled["vz_tol_pct"], 0.0)
         filled["tc_v_per_k"] = np.where(is_zener, filled["tc_v_per_k"], 0.0)
+        filled["tc_tol_v_per_k"] = np.where(np.isfinite(filled["tc_tol_v_per_k"]), filled["tc_tol_v_per_k"], 0.0)
         filled["vf_tol_v"] = np.where(is_zener, 0.0, filled["vf_tol_v"])
         filled["rs_ohm"] = np.where(is_zener, 0.0, filled["rs_ohm"])
         theta = (filled["tj_max_c"] - 25.0) / filled["pd_w"]
@@ -161,17 +159,22 @@ class PartSet:
         filled["if_max_a"] = np.where(np.isnan(raw["if_max_a"]) | is_zener, np.inf, raw["if_max_a"])
         default_i_min = np.where(is_zener, filled["izk_a"], 0.0)
         filled["i_min_a"] = np.where(np.isnan(raw["i_min_a"]), default_i_min, raw["i_min_a"])
-        a_v, rz_ohm = zener_curve_coefficients(filled["zzt_ohm"], filled["izt_a"], filled["zzk_ohm"], filled["izk_a"])
+        knee = zener_knee_exponent(filled["zzt_ohm"], filled["izt_a"], filled["zzk_ohm"], filled["izk_a"])
+        given = np.stack([~np.isnan(raw[column]) for column in NUMERIC_COLUMNS], axis=1)
         return cls(
             part=text("part"),
             family=family,
             description=text("description"),
             package=text("package"),
             is_zener=is_zener,
-            zener_a_v=np.where(is_zener, a_v, 0.0),
-            zener_rz_ohm=np.where(is_zener, rz_ohm, 0.0),
+            zener_knee_exponent=np.where(is_zener, knee, 0.0),
+            given_mask=given,
             **filled,
         )
+
+    def given(self, column: str) -> np.ndarray:
+        """Per part, whether the library gave ``column`` (a numeric parts-CSV column)."""
+        return self.given_mask[:, NUMERIC_COLUMNS.index(column)]
 
     def take(self, indices: Sequence[int] | np.ndarray) -> PartSet:
         """A new PartSet holding the parts at ``indices``, in that order."""

@@ -5,34 +5,47 @@ from __future__ import annotations
 
 import numpy as np
 
-from selector.physics.devices import BOLTZMANN_OVER_CHARGE_V_PER_K, ZERO_CELSIUS_K
+from selector.physics.devices import (
+    BOLTZMANN_OVER_CHARGE_V_PER_K,
+    KNEE_EXPONENT_NEAR_ONE,
+    ZERO_CELSIUS_K,
+)
 from selector.physics.partset import PartSet
 from selector.physics.solver_settings import NO_ALLOWED_POWER_W
 
 # Rows of the per-key constant tables (one element with multiplicity m folded in).
-F_LOG_IS, F_XTI_N, F_EG_NKQ, F_NKQ, F_XTI_KQ, F_EG, F_RS, F_OFFSET, F_THETA, F_PD, F_TJ_MAX = range(11)
-Z_OFFSET, Z_TOL_V, Z_TC, Z_A, Z_RZ, Z_LOOP, Z_THETA, Z_PD, Z_TJ_MAX = range(9)
-# Appended per block by the constant builders: 1/P_max at the point's ambient.
-F_INVERSE_P_MAX, Z_INVERSE_P_MAX = 11, 9
-
+(F_LOG_IS, F_XTI_N, F_EG_NKQ, F_NKQ, F_XTI_KQ, F_EG, F_RS, F_OFFSET, F_THETA, F_PD, F_TJ_MAX, F_SPREAD,
+ F_TNOM_K) = range(13)  # fmt: skip
+(Z_OFFSET, Z_TOL_V, Z_TC, Z_CQ, Z_Q, Z_LOG_IZT, Z_C, Z_START_SHIFT, Z_START_A, Z_START_RZ, Z_SPREAD, Z_TNOM,
+ Z_LOOP, Z_THETA, Z_PD, Z_TJ_MAX) = range(16)  # fmt: skip
+# Appended per block by the constant builders: 1/P_max at the point's ambient; for a zener
+# also Ta − tnom (the side of tnom its junction settles on, when it has a TC spread).
+F_INVERSE_P_MAX = 13
+Z_INVERSE_P_MAX, Z_AMBIENT_OVER_TNOM = 16, 17
 
 
 def key_tables(parts: PartSet, multiplicity: int) -> tuple[np.ndarray, np.ndarray]:
     """Per-key constants of ``multiplicity`` equal elements in series, forward and breakdown.
 
-    Keys are those of :func:`stack_layout`: key ``k`` names part ``k mod P`` (``P`` parts;
-    forward parts ``0…P−1``, breakdown parts ``P…2P−1``, padding ``2P``), so one column
-    gather gives a slot every constant it needs.
+    Keys are those of :func:`selector.physics.slot_layout.stack_layout`: key ``k`` names
+    part ``k mod P`` (``P`` parts; forward parts ``0…P−1``, breakdown parts ``P…2P−1``,
+    padding ``2P``), so one column gather gives a slot every constant it needs.
 
-    Forward rows (SPICE3 scaling rearranged, as in :class:`_Family`):
+    Forward rows (SPICE3 scaling rearranged):
     ``ln Is(T) = log_is + (xti/n)·ln T − eg·q/(n·k)/T`` per element; then m·n·k/q,
     m·xti·k/q, m·eg, m·rs, m·vf_tol (signed later), θ/m (one element's heating from the
-    slot's voltage), m·pd, tj_max.
+    slot's voltage), m·pd, tj_max, m·tc_tol (signed later), tnom [K].
 
-    Breakdown rows (DESIGN §3 breakdown element): m·(vz − tc·tnom − a·ln Izt − rz·Izt),
-    m·vz·vz_tol/100, m·tc, m·a, m·rz, θ·tc (per element), θ/m, m·pd, tj_max. With
-    ``c = row0 + s·row1 + row2·Ta`` the slot voltage at ``Tj = Ta + θ·I·V/m`` is
-    ``(c + m·a·ln I + m·rz·I)/(1 − θ·tc·I)`` (``V`` is linear in ``Tj``).
+    Breakdown rows (DESIGN §3 version 2): with ``c = zzt·izt`` and ``q = 1 − m_knee``
+    (:func:`selector.physics.devices.breakdown_curve_terms`), m·vz − m·c/q (the offset,
+    later with ``s·row1`` and ``tc·(Ta − tnom)`` folded in), m·vz·vz_tol/100, m·tc, m·c/q,
+    q, ln izt, m·c; then the cold start's tangent form of the curve at izt
+    (``a·ln(I/izt) + rz·(I − izt)`` with ``a + rz·izt = c`` and ``rz = max(c·q/izt, 0)``:
+    the same value and slope there) as its shift from the offset, m·a and m·rz;
+    m·tc_tol (signed later), tnom [°C], θ·(tc + tc_tol) (per element, the steeper side's
+    loop gain per ampere), θ/m, m·pd, tj_max. At ``Tj`` on the side of tnom with slope
+    ``k`` (``tc ± tc_tol``) the slot voltage is
+    ``(offset ± spread·(Ta − tnom) + m·c/q·(I/izt)^q)/(1 − θ·k·I)``.
     """
     part = np.arange(2 * len(parts) + 1) % len(parts)
     m = float(multiplicity)
@@ -42,6 +55,7 @@ def key_tables(parts: PartSet, multiplicity: int) -> tuple[np.ndarray, np.ndarra
     xti_over_n = parts.xti[part] / n
     eg_over_nkq = parts.eg_ev[part] / nkq
     theta = parts.theta_ja_k_per_w[part]
+    spread = parts.tc_tol_v_per_k[part]
     forward = np.stack([
         np.log(parts.is_a[part]) - xti_over_n * np.log(nominal_k) + eg_over_nkq / nominal_k,
         xti_over_n,
@@ -54,18 +68,30 @@ def key_tables(parts: PartSet, multiplicity: int) -> tuple[np.ndarray, np.ndarra
         theta / m,
         m * parts.pd_w[part],
         parts.tj_max_c[part],
+        m * spread,
+        nominal_k,
     ])  # fmt: skip
     izt = parts.izt_a[part]
     tc = parts.tc_v_per_k[part]
-    a = parts.zener_a_v[part]
-    rz = parts.zener_rz_ohm[part]
+    q = 1.0 - parts.zener_knee_exponent[part]
+    q = np.where(np.abs(q) < KNEE_EXPONENT_NEAR_ONE, KNEE_EXPONENT_NEAR_ONE, q)
+    c = parts.zzt_ohm[part] * izt
+    start_rz = np.maximum(c * q / izt, 0.0)
+    start_a = c - start_rz * izt
     breakdown = np.stack([
-        m * (parts.vz_v[part] - tc * parts.tnom_c[part] - a * np.log(izt) - rz * izt),
+        m * (parts.vz_v[part] - c / q),
         m * parts.vz_v[part] * parts.vz_tol_pct[part] / 100.0,
         m * tc,
-        m * a,
-        m * rz,
-        theta * tc,
+        m * c / q,
+        q,
+        np.log(izt),
+        m * c,
+        m * (c / q - start_a * np.log(izt) - start_rz * izt),
+        m * start_a,
+        m * start_rz,
+        m * spread,
+        parts.tnom_c[part],
+        theta * (tc + spread),
         theta / m,
         m * parts.pd_w[part],
         parts.tj_max_c[part],
@@ -84,33 +110,45 @@ def inverse_allowed_power(pd, tj_max, theta, ambient_c):
     return np.divide(1.0, allowed, out=allowed)
 
 
-def block_constants(tables, slots, part_keys, signs, ambient_c):
-    """Each slot's constant rows for one block (:func:`key_tables`), tolerance signs applied,
-    each zener's voltage offset taken to the ambient ``ambient_c`` [°C], and ``1/P_max`` there
-    appended."""
+def _zener_rows(rows, sign, spread_sign, ambient_c):
+    """A zener slot's offset with its tolerance sign and ``tc·(Ta − tnom)`` folded in, its
+    spread signed, and ``Ta − tnom`` appended (after ``1/P_max``, appended by the caller)."""
+    over_tnom = np.subtract(ambient_c, rows[Z_TNOM])
+    offset = sign * rows[Z_TOL_V]
+    offset += rows[Z_OFFSET]
+    offset += rows[Z_TC] * over_tnom
+    rows[Z_OFFSET] = offset
+    rows[Z_SPREAD] = spread_sign * rows[Z_SPREAD]
+    return over_tnom
+
+
+def block_constants(tables, slots, part_keys, signs, spread_signs, ambient_c):
+    """Each slot's constant rows for one block (:func:`key_tables`), tolerance and TC-spread
+    signs applied, each zener's voltage offset taken to the ambient ``ambient_c`` [°C], and
+    ``1/P_max`` there appended (and, for a zener, ``Ta − tnom``)."""
     forward, breakdown = [], []
-    for (_, multiplicity), key, sign in zip(slots[0], part_keys[0], signs[0], strict=True):
+    for (_, multiplicity), key, sign, spread in zip(slots[0], part_keys[0], signs[0], spread_signs[0], strict=True):
         constants = list(np.take(tables[multiplicity][0], key, axis=1))
         constants[F_OFFSET] *= sign
+        constants[F_SPREAD] *= spread
         constants.append(inverse_allowed_power(constants[F_PD], constants[F_TJ_MAX], constants[F_THETA], ambient_c))
         forward.append(constants)
-    for (_, multiplicity), key, sign in zip(slots[1], part_keys[1], signs[1], strict=True):
+    for (_, multiplicity), key, sign, spread in zip(slots[1], part_keys[1], signs[1], spread_signs[1], strict=True):
         constants = list(np.take(tables[multiplicity][1], key, axis=1))
-        tolerance_v, offset = constants[Z_TOL_V], constants[Z_OFFSET]
-        tolerance_v *= sign
-        offset += tolerance_v
-        offset += np.multiply(constants[Z_TC], ambient_c, out=tolerance_v)
+        over_tnom = _zener_rows(constants, sign, spread, ambient_c)
         constants.append(inverse_allowed_power(constants[Z_PD], constants[Z_TJ_MAX], constants[Z_THETA], ambient_c))
+        constants.append(over_tnom)
         breakdown.append(constants)
     return forward, breakdown
 
 
-def stack_constants(tables, slots, part_keys, sign, ambient_c):
+def stack_constants(tables, slots, part_keys, sign, spread_sign, ambient_c):
     """Each slot's constant rows for a block of whole stacks (:func:`key_tables`): one value
     per stack, (stacks,), except the voltage offsets, which take each corner's tolerance sign
-    ``sign`` and (zeners) ambient ``ambient_c`` [°C], and the appended ``1/P_max`` at each
-    corner's ambient, (corners, stacks). A shared ambient row takes few values (the corners
-    repeat them), so ``1/P_max`` is worked out once per value and stack."""
+    ``sign``, TC-spread sign ``spread_sign`` and (zeners) ambient ``ambient_c`` [°C], and the
+    appended ``1/P_max`` at each corner's ambient, (corners, stacks). A shared ambient row
+    takes few values (the corners repeat them), so ``1/P_max`` is worked out once per value
+    and stack."""
     if ambient_c.shape[1] == 1:
         ambient_values, corner_value = np.unique(ambient_c[:, 0], return_inverse=True)
         ambient_values = ambient_values[:, None]
@@ -125,30 +163,32 @@ def stack_constants(tables, slots, part_keys, sign, ambient_c):
     for (_, multiplicity), key in zip(slots[0], part_keys[0], strict=True):
         rows = list(np.take(tables[multiplicity][0], key, axis=1))
         rows[F_OFFSET] = sign * rows[F_OFFSET]
+        rows[F_SPREAD] = spread_sign * rows[F_SPREAD]
         rows.append(inverse_allowed(rows[F_PD], rows[F_TJ_MAX], rows[F_THETA]))
         forward.append(rows)
     for (_, multiplicity), key in zip(slots[1], part_keys[1], strict=True):
         rows = list(np.take(tables[multiplicity][1], key, axis=1))
-        offset = sign * rows[Z_TOL_V]
-        offset += rows[Z_OFFSET]
-        offset += rows[Z_TC] * ambient_c
-        rows[Z_OFFSET] = offset
+        over_tnom = _zener_rows(rows, sign, spread_sign, ambient_c)
         rows.append(inverse_allowed(rows[Z_PD], rows[Z_TJ_MAX], rows[Z_THETA]))
+        rows.append(over_tnom)
         breakdown.append(rows)
     return forward, breakdown
 
 
-def slot_arrays(part_count, slots, part_keys, signs, chosen):
-    """The chosen points' slots as :func:`family_slots` rows, for :func:`solve_block`."""
+def slot_arrays(part_count, slots, part_keys, signs, spread_signs, chosen):
+    """The chosen points' slots as :func:`selector.physics.circuit.family_slots` rows (part,
+    multiplicity, tolerance sign, TC-spread sign per family), for the bracketed solver."""
     arrays = []
     rows = int(np.count_nonzero(chosen))
-    for family, (family_slots, family_keys, family_signs) in enumerate(zip(slots, part_keys, signs, strict=True)):
+    for family, family_slots in enumerate(slots):
         part = np.zeros((rows, len(family_slots)), dtype=np.intp)
         multiplicity = np.zeros(part.shape, dtype=np.intp)
         sign = np.zeros(part.shape)
-        for slot, ((_, m), key, slot_sign) in enumerate(zip(family_slots, family_keys, family_signs, strict=True)):
-            part[:, slot] = key[chosen] - family * part_count
+        spread = np.zeros(part.shape)
+        for slot, (_, m) in enumerate(family_slots):
+            part[:, slot] = part_keys[family][slot][chosen] - family * part_count
             multiplicity[:, slot] = m
-            sign[:, slot] = slot_sign[chosen]
-        arrays += [part, multiplicity, sign]
+            sign[:, slot] = signs[family][slot][chosen]
+            spread[:, slot] = spread_signs[family][slot][chosen]
+        arrays += [part, multiplicity, sign, spread]
     return arrays

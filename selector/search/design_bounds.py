@@ -12,11 +12,10 @@ Why the bounds hold
    floor), and a feasible one ``I ≥`` every element's floor, so ``I₀`` is the larger of
    1 fA and the least part floor. ``I_K`` is above ``(Vin_max + max_parts·vf_tol)/R_c``,
    which no stack current can exceed with a non-negative load.
-2. *One element over one cell.* Its junction lies in ``[Ta − θ·vf_tol·I_{k+1},
-   Ta + θ·(1 − m)·P_max]`` (stack bounds, point 1), which gives a first voltage range
-   ``[lo, hi]`` over the cell (stack bounds, points 3 and 4: a forward element and a
-   zener with ``a ≥ 0`` rise with current at fixed junction, so the ends of the cell
-   bound it; a convex zener also gets its turning point). Since ``Tj = Ta + θ·V·I`` with
+2. *One element over one cell.* Its junction lies between its floor at ``I_{k+1}`` and
+   ``Ta + θ·(1 − m)·P_max`` (stack bounds, point 1), which gives a first voltage range
+   ``[lo, hi]`` over the cell (stack bounds, points 3 and 4: every element rises with
+   current at fixed junction, so the ends of the cell bound it). Since ``Tj = Ta + θ·V·I`` with
    ``V`` in ``[lo, hi]`` and ``I`` in the cell, the junction range narrows to
    ``[Ta + θ·min(lo·I_k, lo·I_{k+1}), Ta + θ·max(hi·I_k, hi·I_{k+1})]``; each pass
    (:data:`NARROWING_PASSES`) narrows it further. One pass suffices for the search: the
@@ -41,10 +40,10 @@ Why the bounds hold
    solution, which is all point 4 uses.
 6. *Error and bias.* Any corner's ``Vout`` lies in ``[vout_low, vout_high]``, so
    ``error_v ≥ max(lower(Vout_c) − target, target − upper(Vout_c'))`` for any corners
-   ``c, c'`` (the bound uses the supply maximum, least load, ``R·(1 − tol)``, parts high
-   for ``c`` and the opposite for ``c'``, both ambients). Where the current bound
-   ``I ≤ I_{k*+1}`` at a corner with the supply minimum, most load and ``R·(1 + tol)``
-   is below the stack's floor, the design is infeasible.
+   ``c, c'`` (the bound uses the supply maximum, least load, ``R(Ta, −1)``, parts high
+   for ``c`` and the opposite for ``c'``, both ambients, the resistor's TCR at each).
+   Where the current bound ``I ≤ I_{k*+1}`` at a corner with the supply minimum, most
+   load and ``R(Ta, +1)`` is below the stack's floor, the design is infeasible.
 
 7. *A range of resistors.* The load line ``λ(I)`` falls with ``R`` at every ``I ≥ 0``
    (``∂λ/∂R = −(I + I_L + Vin·G_L)/(1 + R·G_L)² < 0``), so ``k*`` and ``k₊`` of point 4
@@ -64,12 +63,17 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from selector.physics.devices import JUNCTION_CEILING_C
 from selector.physics.partset import PartSet
 from selector.search.stack_bounds import (
     CLASS_SIGNS,
     CURRENT_FLOOR_A,
     VOLTAGE_SLACK_V,
     _junction_ranges,
+    class_resistor_factors,
+    lowest_junction_c,
+    may_be_off,
+    off_error_floor,
     voltage_range_fixed_current,
 )
 from selector.spec.rail_spec import RailSpec
@@ -115,14 +119,7 @@ def _cell_range(parts, part, low_current, high_current, t_low, t_high, sign):
     options = dict(junction_low_c=t_low, temperature_slices=CELL_TEMPERATURE_SLICES)
     low_a, high_a = voltage_range_fixed_current(parts, part, low_current, 0.0, t_high, sign, **options)
     low_b, high_b = voltage_range_fixed_current(parts, part, high_current, 0.0, t_high, sign, **options)
-    low, high = np.minimum(low_a, low_b), np.maximum(high_a, high_b)
-    a_v, rz = parts.zener_a_v[part], parts.zener_rz_ohm[part]
-    convex = parts.is_zener[part] & (a_v < 0) & (rz > 0)
-    if convex.any():
-        turning = np.clip(-a_v / np.where(convex, rz, 1.0), low_current, high_current)
-        low_t, _ = voltage_range_fixed_current(parts, part, turning, 0.0, t_high, sign, **options)
-        low = np.where(convex, np.minimum(low, low_t), low)
-    return low, high
+    return np.minimum(low_a, low_b), np.maximum(high_a, high_b)
 
 
 def _cell_edges(bottom: float, top: float, cell_ratio: float) -> np.ndarray:
@@ -166,8 +163,11 @@ def cell_bound_tables(
     count = len(parts)
     part_floor = np.maximum(np.maximum(spec.min_current_a, parts.i_min_a), CURRENT_FLOOR_A)
     bottom = max(SOLVER_CURRENT_FLOOR_A, float(part_floor.min()))
-    reach = spec.supply_max_v + spec.max_parts * float(np.max(parts.vf_tol_v, initial=0.0)) + 1.0
-    top = 2.0 * reach / (resistor_low_ohm * (1.0 - spec.resistor_tolerance))
+    # The most a forward element's voltage can fall below 0 V: its tolerance, and its TC
+    # spread over the widest junction swing the tool allows (from −273 °C to the ceiling).
+    negative = float(np.max(parts.vf_tol_v + parts.tc_tol_v_per_k * (JUNCTION_CEILING_C + 273.15), initial=0.0))
+    reach = spec.supply_max_v + spec.max_parts * negative + 1.0
+    top = 2.0 * reach / (resistor_low_ohm * float(class_resistor_factors(spec)[0].min()))
     currents = _cell_edges(bottom, top, cell_ratio)
     cells = currents.size - 1
 
@@ -184,7 +184,7 @@ def cell_bound_tables(
     low_current = currents[cell]
     high_current = currents[cell + 1]
     theta = parts.theta_ja_k_per_w[part]
-    t_low = ta - theta * parts.vf_tol_v[part] * high_current
+    t_low = lowest_junction_c(parts, part, high_current, ta)
     t_high = np.maximum(ceiling, t_low)
     low, high = _cell_range(parts, part, low_current, high_current, t_low, t_high, sign)
     for _ in range(NARROWING_PASSES):
@@ -314,23 +314,32 @@ def range_bounds(tables: CellBoundTables, stacks: np.ndarray, resistor_first_ohm
     floor = tables.floor_a[elements].max(axis=1)
     edges = tables.currents_a
     padded_edges = np.append(edges, edges[-1])
-    tol = spec.resistor_tolerance
+    factor_low, factor_high = class_resistor_factors(spec)
     high_lower = np.full(stacks.shape[0], -np.inf)
     low_upper = np.full(stacks.shape[0], np.inf)
     infeasible = np.zeros(stacks.shape[0], dtype=bool)
     for corner_class, sign in enumerate(CLASS_SIGNS):
         if sign > 0:
-            intercept, slope = _load_line(spec, spec.supply_max_v, resistor_last_ohm * (1 - tol), most_load=False)
+            intercept, slope = _load_line(spec, spec.supply_max_v, resistor_last_ohm * factor_low[corner_class],
+                                          most_load=False)  # fmt: skip
             cell, summed = _crossings(tables.lower_v[corner_class], elements, padded_edges, intercept, slope, True)
             high_lower = np.maximum(high_lower, np.maximum(summed, intercept - slope * edges[cell + 1]))
             continue
-        intercept, slope = _load_line(spec, spec.supply_min_v, resistor_first_ohm * (1 + tol), most_load=True)
+        intercept, slope = _load_line(spec, spec.supply_min_v, resistor_first_ohm * factor_high[corner_class],
+                                      most_load=True)  # fmt: skip
         cell, summed = _crossings(tables.upper_v[corner_class], elements, padded_edges, intercept, slope, False)
         low_upper = np.minimum(low_upper, np.minimum(summed, intercept - slope * edges[cell]))
         cell, _ = _crossings(tables.lower_v[corner_class], elements, padded_edges, intercept, slope, True)
         infeasible |= edges[cell + 1] < floor
     with np.errstate(invalid="ignore"):
         error_lower = np.maximum.reduce([high_lower - spec.target_v, spec.target_v - low_upper, np.zeros(stacks.shape[0])])
+    # Stack bounds, point 8: a design that may have its stack off at a corner; the first
+    # cell's upper envelope (from 1 fA) bounds the off rail.
+    off = may_be_off(floor)
+    if off.any():
+        off_rail = np.max([tables.upper_v[c].take(elements[off] * tables.upper_v.shape[2]).sum(axis=1)
+                           for c in range(4)], axis=0)  # fmt: skip
+        error_lower[off] = np.minimum(error_lower[off], off_error_floor(spec, off_rail))
     # The load line's own rounding gets the same slack as the tables.
     error_lower = np.maximum(np.nan_to_num(error_lower, nan=0.0) - VOLTAGE_SLACK_V, 0.0)
     return error_lower, infeasible

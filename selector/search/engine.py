@@ -67,6 +67,8 @@ from selector.search.resistor_choice import (
 )
 from selector.search.stack_bounds import (
     bound_stacks,
+    may_be_off,
+    off_error_floor,
     part_bound_tables,
     part_current_caps,
     separable_rail_bounds,
@@ -317,6 +319,14 @@ def largest_stack_chunks(part_count: int, spec: RailSpec, tables, error_keep_v: 
     if not np.isfinite(error_keep_v):
         return multiset_chunks(part_count, size, size)
     least, _ = separable_rail_bounds(tables)
+    # A stack whose parts need no current may have its stack off at a corner, with a rail
+    # below its 1 fA voltage (stack bounds, point 8); skipping is sound only while such a
+    # design's error, at least target − that rail, is beyond the cut too.
+    off_parts = may_be_off(tables.floors_a[tables.floor_index[:-1]])
+    if off_parts.any():
+        off_rail = size * float(tables.off_upper_v[:, :-1][:, off_parts].max())
+        if float(off_error_floor(spec, np.array(off_rail))) <= error_keep_v + SKIP_SLACK_V:
+            return multiset_chunks(part_count, size, size)
     limit = spec.target_v + error_keep_v + SKIP_SLACK_V
     kept = [bounded_multiset_count(least[corner_class], size, limit) for corner_class in range(4)]
     best = int(np.argmin(kept))

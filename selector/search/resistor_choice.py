@@ -42,6 +42,7 @@ from selector.errors import SearchError
 from selector.physics.circuit import solve_stack_corners
 from selector.physics.corners import evaluate_designs, stack_current_limits, worst_case_corners
 from selector.physics.partset import PartSet
+from selector.physics.series_resistor import resistor_allowed_power_w, resistor_margin
 from selector.search.design_bounds import CellBoundTables, cell_bound_tables, range_bounds
 from selector.search.stack_bounds import (
     StackBounds,
@@ -182,8 +183,9 @@ def screen_designs(parts: PartSet, stacks: np.ndarray, resistor_ohm: np.ndarray,
     least = np.where(solved, current, np.inf).min(axis=1)
     most = np.where(solved, current, -np.inf).max(axis=1)
     element_margin = np.where(solved, points.worst_element_margin, np.inf).min(axis=1)
-    resistor_margin = 1.0 - np.where(solved, points.resistor_power_w, 0.0).max(axis=1) / spec.resistor_rating_w
-    margin = np.minimum(element_margin, resistor_margin)
+    allowed = resistor_allowed_power_w(spec, corners.ambient_c[pick])[None, :]
+    margin_r = resistor_margin(np.where(solved, points.resistor_power_w, 0.0), allowed).min(axis=1)
+    margin = np.minimum(element_margin, margin_r)
     infeasible = any_solved & (
         (least < need * (1.0 - slack) - 1e-18)
         | (most > limit * (1.0 + slack))

@@ -9,24 +9,30 @@ Why the bounds hold
 -------------------
 1. *Junction range.* At a feasible design every element's margin is at least
    ``min_margin`` ``m``, so its power is ``P ≤ (1 − m)·P_max(Ta)`` and its junction
-   ``Tj = Ta + θ·P`` is at most ``Ta + θ·(1 − m)·P_max(Ta)``. Below, ``Tj ≥ Ta + θ·V·I``
-   with a forward element's ``V ≥ −vf_tol`` (its log and ohmic terms are ≥ 0), so at a
-   current ``I`` the junction is at least ``Ta − θ·vf_tol·I``. A zener whose bound
-   comes out negative (no physical breakdown there) gets no bound at all.
+   ``Tj = Ta + θ·P`` is at most ``Ta + θ·(1 − m)·P_max(Ta)``. Below, ``Tj = Ta + θ·V·I``
+   with a forward element's ``V ≥ −vf_tol − tc_tol·|Tj − tnom|`` (its log and ohmic terms
+   are ≥ 0), which bounds how far below the ambient it can settle
+   (:func:`selector.physics.devices.forward_junction_floor_c`, at the least tolerance and
+   spread and, for a current range, at its top). A zener settles below the ambient only
+   where its voltage is negative: with loop gain below 1 on the cold side of its
+   junction, ``V(Ta) ≥ 0`` implies ``V(Tj) ≥ 0``, so its range starts at the ambient, and
+   a zener whose bound comes out negative gets no bound at all.
 2. *Current window.* Feasibility needs ``I ≥ floor = max(min_current, every element's
-   i_min_a)`` at every corner. Above, ``I ≤ if_max_a`` and ``I·V ≤ (1 − m)·P_max``; with
+   i_min_a)`` at every corner. Above, ``I ≤ if_max_a`` (a zener's ``zener_izt_limit·izt``)
+   and ``I·V ≤ (1 − m)·P_max``; with
    ``V ≥ V_low(I)`` (the least voltage at that current over the junction range, which is
    non-decreasing in ``I``) the product ``I·V_low(I)`` is non-decreasing, so once it
    exceeds the allowed power at some ``I*`` every larger current is infeasible:
    ``I < I*``. The stack's window is the floor of its largest element floor and the cap
    of its smallest element cap.
 3. *Voltage at fixed temperature versus current.* A forward element's
-   ``∂V/∂I = n·Vt/(I + Is) + rs > 0`` (``rs ≥ 0``). A zener's ``∂V/∂I = a/I + rz`` with
-   ``rz ≥ 0``: increasing when ``a ≥ 0``; convex (``∂²V/∂I² = −a/I² > 0``) when ``a < 0``,
-   with its least value at ``I = −a/rz``. Either way the extremes over a current interval
-   are at the ends, or at ``−a/rz`` for the least value of a convex curve.
-4. *Voltage at fixed current versus temperature.* A zener is linear in ``Tj``: the ends
-   of the range. A forward element's ``V − I·rs − s·vf_tol = A(T)·B(T)`` with
+   ``∂V/∂I = n·Vt/(I + Is) + rs > 0`` (``rs ≥ 0``). A zener's ``∂V/∂I = zzt·(I/izt)^(−m) > 0``
+   (DESIGN §3, version 2). Both rise with current, so the extremes over a current interval
+   are at its ends.
+4. *Voltage at fixed current versus temperature.* A zener is linear in ``Tj`` on either
+   side of ``tnom`` (its TC spread bends it there): the ends of the range and ``tnom``.
+   A forward element's TC-spread term ``s·tc_tol·|T − tnom|`` is bounded apart, by the
+   nearest and farthest distance of the range from ``tnom``; for the rest: A forward element's ``V − I·rs − s·vf_tol = A(T)·B(T)`` with
    ``A = n·Vt(T)`` increasing and ``B = ln(1 + I/Is(T))`` decreasing (``ln Is`` has the
    slope ``(xti·Vt + eg)/(n·Vt·T) > 0`` when ``xti·Vt + eg > 0``). On each of
    ``K`` slices ``[t₀, t₁]`` of the range, ``A(t₀)·B(t₁) ≤ A·B ≤ A(t₁)·B(t₀)``; where in
@@ -39,11 +45,21 @@ Why the bounds hold
 6. *Error.* Some corner of class ``c`` has ``Vout ≥ ΣL_c`` and some corner of class ``c'``
    has ``Vout ≤ ΣU_c'``, so ``error_v ≥ max(ΣL_c − target, target − ΣU_c',
    (ΣL_c − ΣU_c')/2)`` over every pair of classes.
-7. *Resistor.* At the supply minimum, the most load and ``R·(1 + tol)`` the current
-   ``(Vin − Vout)/R_c − I_L`` must reach the floor, so ``R ≤ (Vin_min − ΣL)/((1 + tol)·
-   (floor + I_L,most))``. At the supply maximum, least load and ``R·(1 − tol)`` it must
+7. *Resistor.* At the supply minimum, the most load and ``R(Ta, +1)`` (tolerance and TCR
+   at the class's ambient, :func:`class_resistor_factors`) the current
+   ``(Vin − Vout)/R_c − I_L`` must reach the floor, so ``R ≤ (Vin_min − ΣL)/(f₊·
+   (floor + I_L,most))``. At the supply maximum, least load and ``R(Ta, −1)`` it must
    stay below the cap, and the resistor's own dissipation ``(Vin − Vout)²/R_c`` below
-   ``(1 − m)·rating``, which give lower limits on ``R``.
+   ``(1 − m)·P_R,max(Ta)`` (the rating derated with the ambient), which give lower limits
+   on ``R``.
+
+8. *A stack that may be off.* Where no element needs current and the spec asks for none
+   (floor below 1 fA), a corner may have the stack off and the design still be feasible
+   (DESIGN §3). Its rail is then below the stack's voltage at 1 fA (else the stack would
+   conduct) and above 0 V (else the load takes all): the rail intervals of point 5 widen
+   down to 0 V, point 7's upper limit on ``R`` goes, and a design with an off corner has
+   ``error_v ≥ target − Σ U(1 fA)``, so the error bound of point 6 becomes the lesser of
+   the two.
 
 A small slack (:data:`VOLTAGE_SLACK_V`) widens every voltage bound so that the solver's
 own convergence tolerance can never make a bound cut a design it should keep.
@@ -55,12 +71,15 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from selector.physics.corners import part_current_limit
 from selector.physics.devices import (
     element_voltage_slopes,
+    forward_junction_floor_c,
     forward_log_saturation_current,
     thermal_voltage_v,
 )
 from selector.physics.partset import PartSet
+from selector.physics.series_resistor import resistor_allowed_power_w, resistor_factor
 from selector.spec.rail_spec import RailSpec
 
 #: Widening of every voltage bound [V]: far above the solver's residual, far below a mV.
@@ -71,6 +90,8 @@ TEMPERATURE_SLICES = 24
 CURRENT_FLOOR_A = 1e-300
 #: Floor of the junction range [°C], 1 K above absolute zero.
 LOWEST_JUNCTION_C = -272.15
+#: Below this stack current the solver counts the stack as off [A] (its least current).
+STACK_OFF_CURRENT_A = 1e-15
 #: The (ambient, tolerance sign) classes of corners, in this order.
 CLASS_SIGNS = (-1.0, 1.0, -1.0, 1.0)
 
@@ -78,6 +99,25 @@ CLASS_SIGNS = (-1.0, 1.0, -1.0, 1.0)
 def class_ambients(spec: RailSpec) -> tuple[float, float, float, float]:
     """Ambient [°C] of each corner class, matching :data:`CLASS_SIGNS`."""
     return (spec.ambient_min_c, spec.ambient_min_c, spec.ambient_max_c, spec.ambient_max_c)
+
+
+def class_resistor_factors(spec: RailSpec) -> tuple[np.ndarray, np.ndarray]:
+    """Per corner class, the resistor's low and high factors ``R(Ta, ∓1)/R`` (DESIGN §3:
+    tolerance and TCR at the class's ambient), arrays (4,)."""
+    ambient = np.array(class_ambients(spec))
+    return resistor_factor(spec, ambient, -1.0), resistor_factor(spec, ambient, 1.0)
+
+
+def lowest_junction_c(parts: PartSet, part_index, current_a, ambient_c):
+    """Least junction an element can settle at (point 1): a forward element at its lowest
+    tolerance and TC spread (:func:`selector.physics.devices.forward_junction_floor_c`); a
+    zener at the ambient (below it only where its voltage is negative, which its bound
+    then does not cover at all)."""
+    forward_floor = forward_junction_floor_c(
+        ambient_c, parts.theta_ja_k_per_w[part_index] * current_a, -parts.vf_tol_v[part_index],
+        -parts.tc_tol_v_per_k[part_index], parts.tnom_c[part_index],
+    )
+    return np.where(parts.is_zener[part_index], ambient_c, forward_floor)
 
 
 def load_current_ranges(spec: RailSpec, vout_low_v, vout_high_v):
@@ -134,7 +174,7 @@ def voltage_range_fixed_current(
         np.asarray(part_index, dtype=np.intp), current_a, ambient_c, junction_high_c, tolerance_sign
     )
     if junction_low_c is None:
-        t_low = ambient - parts.theta_ja_k_per_w[part_index] * parts.vf_tol_v[part_index] * current
+        t_low = lowest_junction_c(parts, part_index, current, ambient)
     else:
         t_low = np.broadcast_to(np.asarray(junction_low_c, dtype=float), current.shape)
     # Only absurd currents (far past any power limit) reach this; keep the model defined.
@@ -142,8 +182,11 @@ def voltage_range_fixed_current(
     t_high = np.maximum(t_high, t_low)
     v_low, _, _ = element_voltage_slopes(parts, part_index, current, t_low, sign)
     v_high, _, _ = element_voltage_slopes(parts, part_index, current, t_high, sign)
-    low = np.minimum(v_low, v_high)
-    high = np.maximum(v_low, v_high)
+    # A zener is linear in Tj on either side of tnom, where its TC spread bends it.
+    kink = np.clip(parts.tnom_c[part_index], t_low, t_high)
+    v_kink, _, _ = element_voltage_slopes(parts, part_index, current, kink, sign)
+    low = np.minimum(np.minimum(v_low, v_high), v_kink)
+    high = np.maximum(np.maximum(v_low, v_high), v_kink)
     forward = ~parts.is_zener[part_index]
     if forward.any():
         f_low, f_high = _forward_temperature_range(
@@ -185,9 +228,19 @@ def _forward_temperature_range(parts, index, current, t_low, t_high, sign, slice
     lower_slice = np.where(falling, core_v[:, 1:], lower_slice)
     upper_slice = np.where(falling, core_v[:, :-1], upper_slice)
     offset = current * parts.rs_ohm[index] + sign * parts.vf_tol_v[index]
-    low = np.where(ordered, lower_slice.min(axis=1), -np.inf) + offset
-    high = np.where(ordered, upper_slice.max(axis=1), np.inf) + offset
+    spread_low, spread_high = _spread_range(parts.tc_tol_v_per_k[index] * sign, parts.tnom_c[index], t_low, t_high)
+    low = np.where(ordered, lower_slice.min(axis=1), -np.inf) + offset + spread_low
+    high = np.where(ordered, upper_slice.max(axis=1), np.inf) + offset + spread_high
     return low, high
+
+
+def _spread_range(spread_v_per_k, tnom_c, t_low, t_high):
+    """Range of the TC-spread term ``s·tc_tol·|T − tnom|`` over ``T`` in ``[t_low, t_high]``:
+    ``|T − tnom|`` runs from the interval's distance to tnom to its farther end's."""
+    nearest = np.maximum(np.maximum(t_low - tnom_c, tnom_c - t_high), 0.0)
+    farthest = np.maximum(np.abs(t_low - tnom_c), np.abs(t_high - tnom_c))
+    ends = (spread_v_per_k * nearest, spread_v_per_k * farthest)
+    return np.minimum(*ends), np.maximum(*ends)
 
 
 @dataclass(frozen=True)
@@ -208,6 +261,8 @@ class PartBoundTables:
         Least voltage of the part at currents from ``floors_a[f]`` up to its cap.
     upper_v : array (4, n_parts + 1, G) [V]
         Greatest voltage at currents from its floor up to ``caps_a[c, g]``.
+    off_upper_v : array (4, n_parts + 1) [V]
+        Greatest voltage of the part at the solver's least current, 1 fA (point 8).
     """
 
     floors_a: np.ndarray
@@ -216,6 +271,7 @@ class PartBoundTables:
     cap_index: np.ndarray
     lower_v: np.ndarray
     upper_v: np.ndarray
+    off_upper_v: np.ndarray
 
 
 def _junction_ranges(parts: PartSet, spec: RailSpec) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -234,15 +290,11 @@ def _class_grid(parts: PartSet, count: int):
 
 
 def _least_voltage(parts, part, current, t_low, t_high, sign, cap):
-    """Least voltage over currents from ``current`` to ``cap`` (point 3)."""
-    low, _ = voltage_range_fixed_current(parts, part, current, t_low, t_high, sign)
-    a_v = parts.zener_a_v[part]
-    rz = parts.zener_rz_ohm[part]
-    convex = parts.is_zener[part] & (a_v < 0) & (rz > 0)
-    if convex.any():
-        turning = np.clip(-a_v / np.where(convex, rz, 1.0), current, np.maximum(cap, current))
-        low_turn, _ = voltage_range_fixed_current(parts, part, turning, t_low, t_high, sign)
-        low = np.where(convex, np.minimum(low, low_turn), low)
+    """Least voltage over currents from ``current`` to ``cap`` (point 3: at fixed junction
+    every element rises with current, so the least is at ``current``)."""
+    top = np.where(np.isfinite(cap), np.maximum(cap, current), 1e3)
+    floor = lowest_junction_c(parts, part, top, t_low)
+    low, _ = voltage_range_fixed_current(parts, part, current, t_low, t_high, sign, junction_low_c=floor)
     return low
 
 
@@ -277,7 +329,7 @@ def part_bound_tables(parts: PartSet, spec: RailSpec) -> PartBoundTables:
     ambient, t_top, allowed = _junction_ranges(parts, spec)
     floor_grid = np.broadcast_to(part_floor[None, :], (4, count))
     cap = _dissipation_caps(parts, part, floor_grid, ambient, t_top, sign, allowed)
-    cap = np.minimum(cap, parts.if_max_a[None, :])
+    cap = np.minimum(cap, part_current_limit(parts, spec)[None, :])
     cap = np.where(allowed > 0, cap, 0.0)
 
     lower = np.zeros((4, count + 1, floors.size))
@@ -315,6 +367,11 @@ def part_bound_tables(parts: PartSet, spec: RailSpec) -> PartBoundTables:
     high = np.maximum(high, high_bottom[:, :, None])
     unbounded = ~np.isfinite(np.minimum(caps[:, None, :], cap[:, :, None]))
     upper[:, :count, :] = np.where(unbounded, np.inf, high)
+    off_upper = np.zeros((4, count + 1))
+    _, off_high = voltage_range_fixed_current(
+        parts, part.ravel(), STACK_OFF_CURRENT_A, ambient.ravel(), t_top.ravel(), sign.ravel()
+    )
+    off_upper[:, :count] = off_high.reshape(4, count)
     return PartBoundTables(
         floors_a=floors,
         floor_index=floor_index,
@@ -322,7 +379,18 @@ def part_bound_tables(parts: PartSet, spec: RailSpec) -> PartBoundTables:
         cap_index=cap_index,
         lower_v=lower - VOLTAGE_SLACK_V,
         upper_v=upper + VOLTAGE_SLACK_V,
+        off_upper_v=off_upper + VOLTAGE_SLACK_V,
     )
+
+
+def may_be_off(floor_a: np.ndarray) -> np.ndarray:
+    """Stacks whose floor lets a corner's stack be off and still feasible (point 8)."""
+    return floor_a < STACK_OFF_CURRENT_A
+
+
+def off_error_floor(spec: RailSpec, off_rail_v: np.ndarray) -> np.ndarray:
+    """Point 8: the error of a design with an off corner, at least ``target − off rail``."""
+    return np.maximum(spec.target_v - off_rail_v, 0.0)
 
 
 def part_current_caps(tables: PartBoundTables) -> np.ndarray:
@@ -413,6 +481,9 @@ def bound_stacks(tables: PartBoundTables, stacks: np.ndarray, spec: RailSpec) ->
                 total += flat.take(elements[:, column] * width + slot)
             target[:, corner_class] = total
     window_empty = (floor[:, None] > cap).any(axis=1)
+    off = may_be_off(floor)
+    off_rail = tables.off_upper_v.take(elements, axis=1).sum(axis=2).max(axis=0)
+    lower = np.where(off[:, None], np.minimum(lower, 0.0), lower)
 
     highest_lower = lower.max(axis=1)
     lowest_upper = upper.min(axis=1)
@@ -424,18 +495,21 @@ def bound_stacks(tables: PartBoundTables, stacks: np.ndarray, spec: RailSpec) ->
             np.zeros_like(highest_lower),
         ])
     error_lower = np.where(np.isnan(error_lower), 0.0, error_lower)
+    error_lower = np.where(off, np.minimum(error_lower, off_error_floor(spec, off_rail)), error_lower)
 
-    tolerance = spec.resistor_tolerance
+    factor_low, factor_high = class_resistor_factors(spec)
     least_high, _ = load_current_ranges(spec, lower, upper)
     _, most_low = load_current_ranges(spec, lower, upper)
     with np.errstate(divide="ignore", invalid="ignore"):
-        high = (spec.supply_min_v - lower) / ((1 + tolerance) * (floor[:, None] + most_low))
+        high = (spec.supply_min_v - lower) / (factor_high[None, :] * (floor[:, None] + most_low))
         high = np.where(floor[:, None] + most_low > 0, high, np.inf)
         headroom = np.maximum(spec.supply_max_v - upper, 0.0)
-        by_current = np.where(np.isfinite(cap), headroom / ((1 - tolerance) * (cap + least_high)), 0.0)
-        rating = max(1.0 - spec.min_margin, 0.0) * spec.resistor_rating_w
-        by_rating = np.where(rating > 0, headroom**2 / (rating * (1 - tolerance)), np.inf)
-    high = np.where(np.isnan(high), np.inf, high)
+        by_current = np.where(np.isfinite(cap), headroom / (factor_low[None, :] * (cap + least_high)), 0.0)
+        # The resistor's allowed power derates with the class's ambient (DESIGN §3).
+        rating = max(1.0 - spec.min_margin, 0.0) * resistor_allowed_power_w(spec, np.array(class_ambients(spec)))
+        by_rating = np.where(rating[None, :] > 0, headroom**2 / (rating[None, :] * factor_low[None, :]),
+                             np.where(headroom > 0, np.inf, 0.0))  # fmt: skip
+    high = np.where(np.isnan(high) | off[:, None], np.inf, high)
     low = np.nan_to_num(np.maximum(by_current, by_rating), nan=0.0)
     return StackBounds(
         vout_lower_v=lower,

@@ -32,3 +32,9 @@ CONTRACT_DEFAULTS: dict[str, float] = {
     "tc_tol_v_per_k": 0.0,
     "tj_max_c": 150.0,
 }
+
+#: Largest knee exponent ``m = ln(zzk/zzt)/ln(izt/izk)`` a part may have (DESIGN §3, version
+#: 2): an impedance rising faster than ``(izt/I)^4`` below the test current is no real
+#: zener's (common practice, no source), and would put the curve far below 0 V within a
+#: decade of the knee.
+MAX_KNEE_EXPONENT = 4.0

@@ -28,9 +28,10 @@ class RailSpec:
     Attributes
     ----------
     target_v : float [V]
-        Wanted rail voltage.
+        Wanted rail voltage: as written, or the middle of a ``[rail] min, max`` window.
     tolerance_v : float [V]
-        Allowed worst-case deviation from ``target_v`` (a percentage is converted).
+        Allowed worst-case deviation from ``target_v`` (a percentage is converted; for a
+        window, half its width).
     supply_min_v, supply_max_v : float [V]
         Supply range.
     supply_nominal_v : float [V]
@@ -63,6 +64,18 @@ class RailSpec:
         A resistor fixed by the user instead of chosen.
     resistor_min_ohm, resistor_max_ohm : float [Ω]
         Range the resistor choice may use; default 1 Ω … 10 MΩ.
+    resistor_tcr_per_k : float [1/K]
+        Series-resistor temperature coefficient (``"100 ppm/K"`` is 1e-4); default 0.
+    resistor_full_power_ambient_c, resistor_zero_power_ambient_c : float [°C]
+        The resistor's derating: full rating up to the first, none from the second,
+        linear between (DESIGN §3); defaults 70 °C and 155 °C.
+    zener_izt_limit : float or None [1]
+        Most zener current as a multiple of its test current, a feasibility limit; None
+        (the default) sets none.
+    rail_window : bool
+        Whether the spec gave the rail as ``[rail] min, max`` (then shown that way).
+    rail_nominal_v : float or None [V]
+        A nominal rail voltage given for display only.
     """
 
     target_v: float
@@ -87,12 +100,31 @@ class RailSpec:
     resistor_fixed_ohm: float | None = None
     resistor_min_ohm: float = 1.0
     resistor_max_ohm: float = 10e6
+    resistor_tcr_per_k: float = 0.0
+    resistor_full_power_ambient_c: float = 70.0
+    resistor_zero_power_ambient_c: float = 155.0
+    zener_izt_limit: float | None = None
+    rail_window: bool = False
+    rail_nominal_v: float | None = None
+
+    @property
+    def rail_min_v(self) -> float:
+        """Least rail voltage the window allows [V]."""
+        return self.target_v - self.tolerance_v
+
+    @property
+    def rail_max_v(self) -> float:
+        """Greatest rail voltage the window allows [V]."""
+        return self.target_v + self.tolerance_v
 
 
 #: Every spec key as ``"section.key"`` → the command-line option that overrides it.
 OPTION_FOR_KEY: dict[str, str] = {
     "rail.target": "--target",
     "rail.tolerance": "--tolerance",
+    "rail.min": "--rail-min",
+    "rail.max": "--rail-max",
+    "rail.nominal": "--rail-nominal",
     "supply.min": "--supply-min",
     "supply.max": "--supply-max",
     "supply.nominal": "--supply-nominal",
@@ -107,15 +139,22 @@ OPTION_FOR_KEY: dict[str, str] = {
     "resistor.fixed": "--resistor",
     "resistor.min": "--resistor-min",
     "resistor.max": "--resistor-max",
+    "resistor.tcr": "--resistor-tcr",
+    "resistor.full_power_ambient": "--full-power-ambient",
+    "resistor.zero_power_ambient": "--zero-power-ambient",
     "search.max_parts": "--max-parts",
     "search.families": "--families",
     "search.list": "--list",
     "search.statuses": "--statuses",
     "search.min_current": "--min-current",
     "search.min_margin": "--min-margin",
+    "search.zener_izt_limit": "--zener-izt-limit",
 }
 
-#: Keys without a default: the file or an option must give each.
+#: The two ways to write the rail: target ± tolerance, or a window.
+RAIL_FORMS: tuple[tuple[str, str], ...] = (("rail.target", "rail.tolerance"), ("rail.min", "rail.max"))
+#: Keys without a default: the file or an option must give each (the rail's keys as one
+#: of :data:`RAIL_FORMS`).
 REQUIRED_KEYS: tuple[str, ...] = (
     "rail.target",
     "rail.tolerance",
@@ -364,7 +403,47 @@ def _celsius(value: float) -> str:
 # --- sections --------------------------------------------------------------------------
 
 
+def _choose_rail_form(entries: dict[str, _Entry]) -> None:
+    """Keep one way of writing the rail: options override the file, so a form given only on
+    the command line replaces the file's other form; two forms from one place clash."""
+    given = [[entries[d] for d in form if d in entries] for form in RAIL_FORMS]
+    if not (given[0] and given[1]):
+        return
+    from_options = [all(e.from_option for e in form) for form in given]
+    if from_options[0] != from_options[1]:
+        dropped = RAIL_FORMS[0] if from_options[1] else RAIL_FORMS[1]
+        for dotted in dropped:
+            entries.pop(dotted, None)
+        return
+    first = given[0][0]
+    raise _fail(first, "give the rail either as target and tolerance or as min and max, not both", given[1][0])
+
+
+def _rail_window(entries: dict[str, _Entry]) -> dict:
+    low_entry, high_entry = entries["rail.min"], entries["rail.max"]
+    low, high = _quantity(low_entry, units.VOLTAGE), _quantity(high_entry, units.VOLTAGE)
+    if low <= 0:
+        raise _fail(low_entry, f"{_volts(low)} must be above 0 V")
+    if high <= low:
+        if _blame(high_entry, low_entry)[0] is high_entry:
+            raise _fail(high_entry, f"{_volts(high)} is not above {low_entry.label} ({_volts(low)})")
+        raise _fail(low_entry, f"{_volts(low)} is not below {high_entry.label} ({_volts(high)})")
+    return {"target_v": (low + high) / 2.0, "tolerance_v": (high - low) / 2.0, "rail_window": True}
+
+
 def _rail(entries: dict[str, _Entry]) -> dict:
+    fields = _rail_window(entries) if "rail.min" in entries else _rail_target(entries)
+    if "rail.nominal" in entries:
+        entry = entries["rail.nominal"]
+        nominal = _quantity(entry, units.VOLTAGE)
+        low, high = fields["target_v"] - fields["tolerance_v"], fields["target_v"] + fields["tolerance_v"]
+        if not low <= nominal <= high:
+            raise _fail(entry, f"{_volts(nominal)} is outside the rail window {_volts(low)} … {_volts(high)}")
+        fields["rail_nominal_v"] = nominal
+    return fields
+
+
+def _rail_target(entries: dict[str, _Entry]) -> dict:
     target_entry = entries["rail.target"]
     target = _quantity(target_entry, units.VOLTAGE)
     if target <= 0:
@@ -547,6 +626,10 @@ def _resistor(entries: dict[str, _Entry]) -> dict:
             raise _fail(entry, f"{units.format_quantity(rating, 'W')} must be above 0 W")
         fields["resistor_rating_w"] = rating
 
+    if "resistor.tcr" in entries:
+        fields["resistor_tcr_per_k"] = _temperature_coefficient(entries["resistor.tcr"])
+    fields.update(_resistor_derating(entries))
+
     low_entry, high_entry = entries.get("resistor.min"), entries.get("resistor.max")
     low, high = RESISTOR_LIMITS_OHM
     if low_entry is not None:
@@ -571,6 +654,56 @@ def _resistor(entries: dict[str, _Entry]) -> dict:
         blame = high_entry or low_entry or series_entry
         raise _fail(blame, f"no {series} value lies in {_ohms(low)} … {_ohms(high)}", low_entry, series_entry)
     return fields
+
+
+#: Resistor TCR spellings and how many of them make 1/K.
+_TCR_UNITS: dict[str, float] = {"": 1.0, "/K": 1.0, "1/K": 1.0, "ppm/K": 1e6, "ppm/°C": 1e6, "ppm/C": 1e6,
+                                "ppm": 1e6, "%/K": 1e2, "%/°C": 1e2}  # fmt: skip
+_TCR = re.compile(r"^\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*(\S*)\s*$")
+#: Largest resistor TCR accepted [1/K] (10,000 ppm/K: beyond any fixed resistor).
+MAX_RESISTOR_TCR_PER_K = 1e-2
+
+
+def _temperature_coefficient(entry: _Entry) -> float:
+    """A resistor TCR: ``"100 ppm/K"``, ``"0.01 %/K"`` or a bare number in 1/K."""
+    _check_scalar(entry)
+    raw = entry.raw
+    if isinstance(raw, str):
+        match = _TCR.match(raw)
+        if not match or match.group(2) not in _TCR_UNITS:
+            raise _fail(entry, f"'{_text(entry)}' is not a temperature coefficient such as '100 ppm/K'")
+        value = float(match.group(1)) / _TCR_UNITS[match.group(2)]
+    else:
+        value = float(raw)
+    if not 0.0 <= value <= MAX_RESISTOR_TCR_PER_K:
+        raise _fail(entry, f"{value * 1e6:g} ppm/K must be from 0 to {MAX_RESISTOR_TCR_PER_K * 1e6:g} ppm/K")
+    return value
+
+
+def _resistor_derating(entries: dict[str, _Entry]) -> dict:
+    """The resistor's derating knees: full rating to the first ambient, none from the second."""
+    full_entry, zero_entry = entries.get("resistor.full_power_ambient"), entries.get("resistor.zero_power_ambient")
+    full, zero = RailSpec.resistor_full_power_ambient_c, RailSpec.resistor_zero_power_ambient_c
+    fields = {}
+    if full_entry is not None:
+        full = fields["resistor_full_power_ambient_c"] = _quantity(full_entry, units.TEMPERATURE)
+    if zero_entry is not None:
+        zero = fields["resistor_zero_power_ambient_c"] = _quantity(zero_entry, units.TEMPERATURE)
+    for entry, value in ((full_entry, full), (zero_entry, zero)):
+        if entry is not None and not -55.0 <= value <= 300.0:
+            raise _fail(entry, f"{_celsius(value)} is outside {_celsius(-55.0)} … {_celsius(300.0)}")
+    if zero <= full:
+        blame = zero_entry or full_entry
+        raise _fail(blame, f"the zero-power ambient {_celsius(zero)} must be above the full-power ambient "
+                           f"{_celsius(full)}", full_entry, zero_entry)  # fmt: skip
+    return fields
+
+
+def _izt_limit(entry: _Entry) -> float:
+    value, kind = _split(entry)
+    if kind is not None or not 1.0 <= value <= 1000.0:
+        raise _fail(entry, f"'{_text(entry)}' must be a plain multiple of the test current from 1 to 1000, e.g. 5")
+    return value
 
 
 def _max_parts(entry: _Entry) -> int:
@@ -630,6 +763,8 @@ def _search(entries: dict[str, _Entry]) -> dict:
         fields["min_margin"] = _fraction(
             entry, "a percentage or a fraction", 0.0, 1.0, inclusive_low=True
         )
+    if "search.zener_izt_limit" in entries:
+        fields["zener_izt_limit"] = _izt_limit(entries["search.zener_izt_limit"])
     return fields
 
 
@@ -675,7 +810,10 @@ def load_spec(
     if table is not None:
         entries.update(_file_entries(file_label, table))
     entries.update(_option_entries(overrides or {}))
-    missing = [dotted for dotted in REQUIRED_KEYS if dotted not in entries]
+    _choose_rail_form(entries)
+    window = "rail.min" in entries or "rail.max" in entries
+    required = list(RAIL_FORMS[1 if window else 0]) + [d for d in REQUIRED_KEYS if not d.startswith("rail.")]
+    missing = [dotted for dotted in required if dotted not in entries]
     if missing:
         raise (SpecError if file_label else SpecOptionError)(_missing_message(file_label, missing))
     fields = _rail(entries)

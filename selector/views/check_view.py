@@ -12,14 +12,14 @@ import math
 import numpy as np
 
 from selector.physics.checked_design import CheckedDesign
-from selector.physics.circuit import STATUS_NAMES, STATUS_SOLVED
+from selector.physics.circuit import STATUS_NAMES, STATUS_SOLVED, STATUS_STACK_OFF
 from selector.physics.corners import CornerSet, worst_case_corners
-from selector.spec.rail_spec import spec_cautions
+from selector.physics.design_cautions import Caution
+from selector.physics.design_cautions import design_cautions as physics_cautions
+from selector.spec.rail_spec import RailSpec, spec_cautions
 from selector.spec.stack_notation import format_stack
 from selector.spec.units import format_quantity
 
-#: Element margins below this draw a caution (common practice, no source: 20 % headroom).
-CAUTION_MARGIN = 0.20
 #: Junctions within this of their limit draw a hot-part caution [K] (common practice, no source).
 HOT_PART_HEADROOM_K = 25.0
 DEFER = "this tool is not a safety assessment; follow local codes and licensed practice"
@@ -36,25 +36,12 @@ def _finite(value) -> float | None:
 
 
 def design_cautions(design: CheckedDesign) -> list[str]:
-    """Safety and headroom cautions for one design, one line each."""
+    """Safety, headroom and model cautions for one design, one line each
+    (:func:`selector.physics.design_cautions.design_cautions`, plus the spec's and a hot part's)."""
     spec, metrics = design.spec, design.metrics
     lines = [f"{line} (this tool is not a safety assessment)" for line in spec_cautions(spec)]
-    for position, part in enumerate(design.elements):
-        margin = metrics.element_worst_margin[position]
-        if margin == -np.inf:
-            lines.append(f"{part} (position {position + 1}) may dissipate nothing at the hottest ambient "
-                         f"(at or past its Tjmax); {DEFER}")  # fmt: skip
-        elif margin < CAUTION_MARGIN:
-            lines.append(
-                f"{part} (position {position + 1}) has {margin:.0%} dissipation margin at its worst "
-                f"corner, under 20 %; {DEFER}"
-            )
-    resistor_margin = 1.0 - metrics.resistor_worst_power_w / spec.resistor_rating_w
-    if resistor_margin < CAUTION_MARGIN:
-        lines.append(
-            f"series resistor has {resistor_margin:.0%} margin on its {format_quantity(spec.resistor_rating_w, 'W')} "
-            f"rating, under 20 %; {DEFER}"
-        )
+    for caution in design_model_cautions(design):
+        lines.append(f"{caution.text}; {DEFER}" if caution.kind == "near limit" else caution.text)
     tj_max = design.parts.tj_max_c[design.stack[metrics.hottest_element]]
     if metrics.evaluation.solved[0] and metrics.hottest_junction_c > tj_max - HOT_PART_HEADROOM_K:
         lines.append(
@@ -62,6 +49,21 @@ def design_cautions(design: CheckedDesign) -> list[str]:
             f"(limit {tj_max:.0f} °C) at corner {metrics.hottest_corner + 1}; {DEFER}"
         )
     return lines
+
+
+def design_model_cautions(design: CheckedDesign) -> list[Caution]:
+    """The structured cautions of one design (near limit, zener range, exact parts, stack off)."""
+    return physics_cautions(design.parts, design.stack, design.metrics.evaluation)
+
+
+def wanted_text(spec: RailSpec) -> str:
+    """The rail as the user wrote it: a window ``min … max`` or ``target ± tolerance``."""
+    volts = lambda v: format_quantity(v, "V")  # noqa: E731
+    if spec.rail_window:
+        text = f"{volts(spec.rail_min_v)} … {volts(spec.rail_max_v)}"
+    else:
+        text = f"{volts(spec.target_v)} ± {volts(spec.tolerance_v)}"
+    return text + (f" (nominal {volts(spec.rail_nominal_v)})" if spec.rail_nominal_v is not None else "")
 
 
 def _verdict(design: CheckedDesign) -> str:
@@ -99,15 +101,23 @@ def check_json(design: CheckedDesign) -> dict:
         "reason": ev.reason_name(0),
         "target_v": spec.target_v,
         "tolerance_v": spec.tolerance_v,
+        "rail_min_v": spec.rail_min_v,
+        "rail_max_v": spec.rail_max_v,
         "metrics": {
             "line_regulation_mv_per_v": _finite(metrics.line_regulation_mv_per_v),
             "load_regulation_mv_per_ma": _finite(metrics.load_regulation_mv_per_ma),
             "tempco_mv_per_k": _finite(metrics.tempco_mv_per_k),
             "ripple_attenuation_db": _finite(metrics.ripple_attenuation_db),
+            "regulation_model": "DC, self-heating included",
+            "ripple_model": "isothermal: junctions held at the nominal solution",
+            "stack_dynamic_resistance_ohm": _finite(metrics.stack_dynamic_resistance_ohm),
             "efficiency": _finite(metrics.efficiency),
             "hottest_junction_c": _finite(metrics.hottest_junction_c),
-            "hottest_corner": metrics.hottest_corner,
+            "hottest_corner": metrics.hottest_corner + 1,
             "resistor_worst_power_w": _finite(metrics.resistor_worst_power_w),
+            "resistor_worst_margin": _finite(metrics.resistor_worst_margin),
+            "resistor_worst_corner": metrics.resistor_worst_corner + 1,
+            "resistor_allowed_power_w": _finite(metrics.resistor_allowed_power_w),
             "resistor_rating_needed_w": metrics.resistor_rating_needed_w,
         },
         "elements": [
@@ -120,6 +130,10 @@ def check_json(design: CheckedDesign) -> dict:
             for position, part in enumerate(design.elements)
         ],
         "cautions": design_cautions(design),
+        "caution_details": [
+            {"kind": c.kind, "part": c.part, "corners": list(c.corners), "text": c.text}
+            for c in design_model_cautions(design)
+        ],
     }
     if design.monte_carlo is not None:
         mc = design.monte_carlo
@@ -171,7 +185,7 @@ def check_lines(design: CheckedDesign) -> list[str]:
     how = f"chosen from {spec.resistor_series}" if design.resistor_chosen else "as given"
     lines = [
         f"Design: {format_stack(design.elements)} with {format_quantity(design.resistor_ohm, 'Ω')} ({how})",
-        f"Wanted: {volts(spec.target_v)} ± {volts(spec.tolerance_v)}; "
+        f"Wanted: {wanted_text(spec)}; "
         f"supply {volts(spec.supply_min_v)} … {volts(spec.supply_max_v)}; "
         f"ambient {spec.ambient_min_c:g} … {spec.ambient_max_c:g} °C",
         f"Verdict: {_verdict(design)}",
@@ -183,22 +197,27 @@ def check_lines(design: CheckedDesign) -> list[str]:
             f"worst case; error {volts(ev.error_v[0])} (allowed {volts(spec.tolerance_v)})",
             f"  least stack current {amps(ev.i_min_a[0])}; least margin {_margin_text(ev.margin[0])}",
         ]
-    lines += ["", "Corners (< lowest rail, > highest rail, ! no solution; parts −/+: every part at its low/high tolerance):"]
+    lines += ["", "Corners (< lowest rail, > highest rail, o stack off, ! no solution; R at its tolerance and TCR; "
+                  "parts −/+: every part at its low/high tolerance and TC spread):"]
     lines += _corner_table(design)
     if ev.solved[0] and np.isfinite(ev.vout_nom_v[0]):
         lines += [
             "",
             "At nominal:",
-            f"  line regulation {metrics.line_regulation_mv_per_v:.4g} mV/V "
-            f"(ripple attenuation {metrics.ripple_attenuation_db:.1f} dB)",
-            f"  load regulation {metrics.load_regulation_mv_per_ma:.4g} mV/mA",
+            f"  line regulation {metrics.line_regulation_mv_per_v:.4g} mV/V (DC, self-heating included)",
+            f"  ripple attenuation {metrics.ripple_attenuation_db:.1f} dB (isothermal: junctions held at nominal)",
+            f"  load regulation {metrics.load_regulation_mv_per_ma:.4g} mV/mA (DC)",
             f"  rail tempco {metrics.tempco_mv_per_k:.4g} mV/K",
             f"  efficiency {metrics.efficiency:.1%}",
             f"Hottest junction: {metrics.hottest_junction_c:.1f} °C, "
             f"{design.elements[metrics.hottest_element]} (position {metrics.hottest_element + 1}) "
             f"at corner {metrics.hottest_corner + 1}",
-            f"Series resistor: worst {format_quantity(metrics.resistor_worst_power_w, 'W', 3)} of "
-            f"{format_quantity(spec.resistor_rating_w, 'W')} rating; smallest standard rating that carries it: "
+            f"Series resistor: worst {format_quantity(metrics.resistor_worst_power_w, 'W', 3)}; "
+            f"{_margin_text(metrics.resistor_worst_margin, '.1%')} margin on "
+            f"{format_quantity(metrics.resistor_allowed_power_w, 'W', 3)} allowed at corner "
+            f"{metrics.resistor_worst_corner + 1} ({format_quantity(spec.resistor_rating_w, 'W')} rating, derated "
+            f"from {spec.resistor_full_power_ambient_c:g} °C to 0 at {spec.resistor_zero_power_ambient_c:g} °C); "
+            "smallest standard rating that carries every corner: "
             + (format_quantity(metrics.resistor_rating_needed_w, "W") if metrics.resistor_rating_needed_w else "over 10 W"),
             "",
             "Margin per part (worst corner):",
@@ -236,7 +255,8 @@ def _corner_table(design: CheckedDesign) -> list[str]:
     low = int(np.argmin(np.where(solved, vout, np.inf))) if solved.any() else -1
     high = int(np.argmax(np.where(solved, vout, -np.inf))) if solved.any() else -1
     for c in range(len(corners)):
-        mark = "!" if not solved[c] else "<" if c == low else ">" if c == high else " "
+        off = ev.corner_status[0, c] == STATUS_STACK_OFF
+        mark = "!" if not solved[c] else "<" if c == low else ">" if c == high else "o" if off else " "
         load = f"{corners.load_value[c]:.4g}" if resistive else f"{1e3 * corners.load_value[c]:.3f}"
         cells = (
             f"{mark}{c + 1:>2}  {corners.supply_v[c]:>10.3f} {load:>10} "

@@ -2,7 +2,7 @@
 
 :func:`search_review` and :func:`design_review` gather what the report shows by calling
 the search (:func:`selector.search.engine.seek`), the corner proof
-(:func:`selector.physics.corners.design_metrics`, :func:`selector.views.check_view.check_json`) and the
+(:func:`selector.physics.design_metrics.design_metrics`, :func:`selector.views.check_view.check_json`) and the
 Monte Carlo run (:func:`selector.physics.montecarlo.run_monte_carlo`); nothing here recomputes
 what those compute. :func:`render_html` turns a :class:`ReviewReport` and its figures'
 SVG into one HTML page: inline CSS, inline SVG, no script and no external reference, so
@@ -22,7 +22,7 @@ import pandas as pd
 
 from selector import __version__
 from selector.errors import OptionError
-from selector.physics.corners import design_metrics
+from selector.physics.design_metrics import design_metrics
 from selector.physics.montecarlo import DEFAULT_SAMPLES, run_monte_carlo
 from selector.physics.partset import PartSet
 from selector.search.ranking import DEFAULT_RESOLUTION_V, pareto_front
