@@ -15,18 +15,20 @@ from __future__ import annotations
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import NamedTuple
+from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
-import pandas as pd
 
 from selector.errors import SearchError
 from selector.physics.checked_design import CheckedDesign
 from selector.physics.partset import PartSet
-from selector.search.engine import SearchSummary, search_library
 from selector.search.ranking import DEFAULT_RESOLUTION_V
-from selector.search.shortlist import shortlist_frame
 from selector.spec.rail_spec import RailSpec, load_spec
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+    from selector.search.engine import SearchSummary
 
 
 class SeekResult(NamedTuple):
@@ -150,6 +152,10 @@ def seek(
     >>> from selector import seek                                   # doctest: +SKIP
     >>> shortlist, summary = seek("rail.toml", "parts.sqlite", top=5)  # doctest: +SKIP
     """
+    # Imported here: 'check' shares this module but runs no search and builds no DataFrame.
+    from selector.search.engine import search_library
+    from selector.search.shortlist import shortlist_frame
+
     spec = as_spec(spec)
     parts, usable_mask, list_conditions = _library_parts(library, spec.list_name, spec.statuses, usable_mask)
     shortlist, usable, summary = search_library(

@@ -32,14 +32,16 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import constants
 
 from selector.physics.partset import PartSet
 
-#: k/q [V/K] from CODATA via scipy.constants.
-BOLTZMANN_OVER_CHARGE_V_PER_K: float = constants.k / constants.e
-#: Offset from °C to K.
-ZERO_CELSIUS_K: float = constants.zero_Celsius
+#: k/q [V/K]: both exact by definition (SI Brochure, 9th ed., 2019, §2.2, the defining
+#: constants: k = 1.380649e-23 J/K, e = 1.602176634e-19 C). Written out because importing
+#: scipy.constants costs every command that shows a part about 75 ms;
+#: tests/test_devices.py checks the values against scipy.constants (CODATA 2018).
+BOLTZMANN_OVER_CHARGE_V_PER_K: float = 1.380649e-23 / 1.602176634e-19
+#: Offset from °C to K, exact (the same brochure: t/°C = T/K − 273.15).
+ZERO_CELSIUS_K: float = 273.15
 #: Iterations allowed for the forward element's junction temperature (bisection alone
 #: narrows the bracket below the tolerance in 43).
 _THERMAL_ITERATIONS = 80
@@ -63,7 +65,7 @@ def thermal_voltage_v(temperature_c: np.ndarray) -> np.ndarray:
     Returns
     -------
     array [V]
-        ``k·(T + 273.15)/q`` with k and q from ``scipy.constants`` (CODATA 2018).
+        ``k·(T + 273.15)/q`` with the exact SI values of k and q.
     """
     return BOLTZMANN_OVER_CHARGE_V_PER_K * (np.asarray(temperature_c, dtype=float) + ZERO_CELSIUS_K)
 
