@@ -202,7 +202,7 @@ def head_revision() -> str:
     return names[-1].split("_", 1)[0]
 
 
-def recorded_revision(connection) -> str | None:
+def _recorded_revision(connection) -> str | None:
     """The one revision in the library's ``alembic_version`` table, by one query.
 
     None when it cannot be read that way (no such table yet, none or several rows, not a
@@ -267,7 +267,7 @@ class Library:
     def schema_revision(self) -> str:
         """The schema revision the library is at (e.g. ``"0001"``); empty if none."""
         with self._connect() as connection:
-            return recorded_revision(connection) or ""
+            return _recorded_revision(connection) or ""
 
     @contextmanager
     def _connect(self):
@@ -644,7 +644,7 @@ def _migrate(library: Library, notify: Notify) -> bool:
     head = head_revision()
     try:
         with library.engine.connect() as connection:
-            if recorded_revision(connection) == head:
+            if _recorded_revision(connection) == head:
                 return False
         from alembic import command
         from alembic.script import ScriptDirectory
