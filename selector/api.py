@@ -205,7 +205,6 @@ def check(
     """
     from selector.catalog.approved_lists import list_view, stack_notes
     from selector.physics.corners import design_metrics
-    from selector.physics.montecarlo import run_monte_carlo
     from selector.search.resistor_choice import choose_resistors
     from selector.spec.stack_notation import expand_stack, parse_stack
 
@@ -218,6 +217,12 @@ def check(
         warnings, conditions = stack_notes(list_view(catalog, parts, spec.list_name, spec.statuses), parts, indices)
     fixed = resistor if resistor is not None else spec.resistor_fixed_ohm
     chosen = float(fixed) if fixed is not None else float(choose_resistors(parts, indices[None, :], spec)[0][0])
+    monte_carlo = None
+    if samples:
+        # Imported only when asked for: Monte Carlo loads scipy.special.
+        from selector.physics.montecarlo import run_monte_carlo
+
+        monte_carlo = run_monte_carlo(parts, indices, chosen, spec, samples=samples, seed=seed)
     design = CheckedDesign(
         spec=spec,
         parts=parts,
@@ -225,6 +230,6 @@ def check(
         resistor_ohm=chosen,
         resistor_chosen=fixed is None,
         metrics=design_metrics(parts, indices, chosen, spec, resistor_derating=derating),
-        monte_carlo=run_monte_carlo(parts, indices, chosen, spec, samples=samples, seed=seed) if samples else None,
+        monte_carlo=monte_carlo,
     )
     return CheckResult(design, warnings, conditions)
