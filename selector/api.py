@@ -15,18 +15,20 @@ from __future__ import annotations
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import NamedTuple
+from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
-import pandas as pd
 
 from selector.errors import SearchError
 from selector.physics.checked_design import CheckedDesign
 from selector.physics.partset import PartSet
-from selector.search.engine import SearchSummary, search_library
 from selector.search.ranking import DEFAULT_RESOLUTION_V
-from selector.search.shortlist import shortlist_frame
 from selector.spec.rail_spec import RailSpec, load_spec
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+    from selector.search.engine import SearchSummary
 
 
 class SeekResult(NamedTuple):
@@ -150,6 +152,10 @@ def seek(
     >>> from selector import seek                                   # doctest: +SKIP
     >>> shortlist, summary = seek("rail.toml", "parts.sqlite", top=5)  # doctest: +SKIP
     """
+    # Imported here: 'check' shares this module but runs no search and builds no DataFrame.
+    from selector.search.engine import search_library
+    from selector.search.shortlist import shortlist_frame
+
     spec = as_spec(spec)
     parts, usable_mask, list_conditions = _library_parts(library, spec.list_name, spec.statuses, usable_mask)
     shortlist, usable, summary = search_library(
@@ -199,7 +205,6 @@ def check(
     """
     from selector.catalog.approved_lists import list_view, stack_notes
     from selector.physics.design_metrics import design_metrics
-    from selector.physics.montecarlo import run_monte_carlo
     from selector.search.resistor_choice import choose_resistors
     from selector.spec.stack_notation import expand_stack, parse_stack
 
@@ -212,6 +217,12 @@ def check(
         warnings, conditions = stack_notes(list_view(catalog, parts, spec.list_name, spec.statuses), parts, indices)
     fixed = resistor if resistor is not None else spec.resistor_fixed_ohm
     chosen = float(fixed) if fixed is not None else float(choose_resistors(parts, indices[None, :], spec)[0][0])
+    monte_carlo = None
+    if samples:
+        # Imported only when asked for: Monte Carlo loads scipy.special.
+        from selector.physics.montecarlo import run_monte_carlo
+
+        monte_carlo = run_monte_carlo(parts, indices, chosen, spec, samples=samples, seed=seed)
     design = CheckedDesign(
         spec=spec,
         parts=parts,
@@ -219,6 +230,6 @@ def check(
         resistor_ohm=chosen,
         resistor_chosen=fixed is None,
         metrics=design_metrics(parts, indices, chosen, spec, resistor_derating=derating),
-        monte_carlo=run_monte_carlo(parts, indices, chosen, spec, samples=samples, seed=seed) if samples else None,
+        monte_carlo=monte_carlo,
     )
     return CheckResult(design, warnings, conditions)

@@ -75,14 +75,29 @@ def test_silicon_forward_tempco_near_minus_2_mV_per_K(parts):
     assert -2.5e-3 < dvdt < -1.5e-3
 
 
-def test_zener_tc_sign_below_and_above_5_to_6V(parts):
+@pytest.mark.parametrize("index, sign", [(2, -1.0), (3, 1.0)], ids=["3.3 V falls", "8.2 V rises"])
+def test_zener_rail_tempco_has_the_sign_of_its_tc_and_the_self_heated_value(parts, index, sign):
     # Common practice (no source): breakdown below about 5 V has a negative TC (Zener
-    # effect), above about 6 V a positive one (avalanche). The invented parts follow it and
-    # the model must carry the sign through.
-    cold, _, _ = element_voltage_slopes(parts, np.array([2, 3]), 5e-3, 0.0)
-    hot, _, _ = element_voltage_slopes(parts, np.array([2, 3]), 5e-3, 100.0)
-    assert hot[0] < cold[0]  # 3.3 V
-    assert hot[1] > cold[1]  # 8.2 V
+    # effect), above about 6 V a positive one (avalanche). The rail's tempco is computed
+    # here from the full self-heated solve (finite differences of the ambient) and compared
+    # with implicit differentiation of V = V(I, Tj), Tj = Ta + θ·I·V, I = (Vin − V)/R
+    # (DESIGN §3): dV/dTa = tc/(1 + rz/R + tc·θ·(V/R − I)).
+    from selector.physics.design_metrics import design_metrics
+    from selector.spec.rail_spec import RailSpec
+
+    vz = parts.vz_v[index]
+    spec = RailSpec(target_v=vz, tolerance_v=0.5, supply_min_v=2.5 * vz, supply_max_v=2.5 * vz,
+                    supply_nominal_v=2.5 * vz, load_kind="current", load_min=0.0, load_max=0.0,
+                    ambient_min_c=20.0, ambient_max_c=30.0)  # fmt: skip
+    resistor = 1.5 * vz / 5e-3
+    metrics = design_metrics(parts, np.array([index]), resistor, spec)
+    current = metrics.evaluation.nominal["stack_current_a"][0]
+    junction = metrics.evaluation.nominal["junction_c"][0][0]
+    voltage, rz, tc = element_voltage_slopes(parts, np.array([index]), current, junction)
+    theta = parts.theta_ja_k_per_w[index]
+    expected = tc[0] / (1 + rz[0] / resistor + tc[0] * theta * (voltage[0] / resistor - current))
+    assert np.sign(metrics.tempco_mv_per_k) == sign
+    assert metrics.tempco_mv_per_k == pytest.approx(1e3 * expected, rel=1e-4)
 
 
 def test_default_theta_is_the_datasheet_derating(parts):
@@ -150,8 +165,10 @@ def test_stack_voltage_sums_self_heated_elements(parts):
     assert not runaway.any()
 
 
-def test_thermal_voltage_from_scipy_constants():
-    # scipy.constants (CODATA 2018): k/q·300 K = 25.852 mV.
+def test_thermal_voltage_at_300_K_is_25_852_mV():
+    # CODATA 2022 via scipy.constants; k = 1.380649e-23 J/K and e = 1.602176634e-19 C are
+    # exact since the 2019 redefinition of the SI, so k·300 K/e = 25.852 mV to 5 figures.
+    assert thermal_voltage_v(300.0 - 273.15) == pytest.approx(25.852e-3, abs=0.5e-6)
     assert thermal_voltage_v(300.0 - 273.15) == pytest.approx(constants.k * 300 / constants.e, rel=1e-15)
 
 

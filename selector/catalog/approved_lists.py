@@ -1,7 +1,7 @@
 """The shop's approved-parts lists: named lists giving parts a status, with the audit trail.
 
 A library holds any number of named lists (say one per product line). On each list a
-part has one status of :data:`selector.spec.rail_spec.LIST_STATUSES`:
+part has one status of :data:`selector.spec.list_statuses.LIST_STATUSES`:
 
 ``approved``
     may be designed in;
@@ -30,7 +30,7 @@ from selector.catalog import audit
 from selector.catalog.models import LIST_NAME_LENGTH, ApprovedList, ListEntry, Part
 from selector.errors import OptionError, RailwrightError, UnknownPartError
 from selector.physics.partset import PartSet
-from selector.spec.rail_spec import LIST_STATUSES, UNUSABLE_STATUSES
+from selector.spec.list_statuses import LIST_STATUSES, UNUSABLE_STATUSES
 from selector.spec.stack_notation import part_id_order
 from selector.spec.units import shown
 

@@ -31,8 +31,8 @@ from sqlalchemy import (
 )
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
 
+from selector.spec.list_statuses import LIST_STATUSES
 from selector.spec.part_fields import FAMILIES, NUMERIC_COLUMNS
-from selector.spec.rail_spec import LIST_STATUSES
 
 #: Constraint names are fixed so that SQLite batch migrations can find them again.
 NAMING_CONVENTION = {

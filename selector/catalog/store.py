@@ -22,13 +22,9 @@ from collections.abc import Callable, Iterable, Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
-from typing import TypeVar
+from typing import TYPE_CHECKING, TypeVar
 
 import platformdirs
-from alembic import command
-from alembic.config import Config
-from alembic.runtime.migration import MigrationContext
-from alembic.script import ScriptDirectory
 from sqlalchemy import Engine, create_engine, delete, event, insert, inspect, select, update
 from sqlalchemy.engine import URL, make_url
 from sqlalchemy.exc import ArgumentError, DBAPIError, IntegrityError, SQLAlchemyError
@@ -50,6 +46,10 @@ from selector.errors import LibraryError, OptionError, UnknownPartError
 from selector.physics.partset import PartSet
 from selector.spec.part_fields import FAMILIES
 from selector.spec.stack_notation import part_id_order
+
+if TYPE_CHECKING:
+    from alembic.config import Config
+    from alembic.script import ScriptDirectory
 
 #: File name of the default library inside the per-user data directory.
 DEFAULT_LIBRARY_FILE = "library.sqlite"
@@ -180,6 +180,8 @@ def _first_line(error: BaseException) -> str:
 
 def alembic_config(connection=None) -> Config:
     """An Alembic configuration for the packaged migrations, bound to ``connection``."""
+    from alembic.config import Config
+
     config = Config()
     config.set_main_option("script_location", str(migrations_folder()))
     if connection is not None:
@@ -188,8 +190,29 @@ def alembic_config(connection=None) -> Config:
 
 
 def head_revision() -> str:
-    """The newest schema revision this installation knows."""
-    return ScriptDirectory.from_config(alembic_config()).get_current_head()
+    """The newest schema revision this installation knows, read without Alembic.
+
+    Revision files are named ``NNNN_what_it_does.py`` with revision id ``NNNN`` and each
+    revises the one before, so the head is the prefix of the greatest file name
+    (``tests/test_startup.py`` checks that Alembic finds the same head).
+    """
+    names = sorted(path.name for path in (migrations_folder() / "versions").glob("[0-9]*_*.py"))
+    if not names:
+        raise LibraryError("the installation is incomplete: no schema revisions found; reinstall railwright")
+    return names[-1].split("_", 1)[0]
+
+
+def _recorded_revision(connection) -> str | None:
+    """The one revision in the library's ``alembic_version`` table, by one query.
+
+    None when it cannot be read that way (no such table yet, none or several rows, not a
+    database): the caller then asks Alembic, which tells those cases apart.
+    """
+    try:
+        rows = connection.exec_driver_sql("SELECT version_num FROM alembic_version").scalars().all()
+    except DBAPIError:
+        return None
+    return rows[0] if len(rows) == 1 else None
 
 
 def _check_sqlite_file(path: Path) -> bool:
@@ -244,7 +267,7 @@ class Library:
     def schema_revision(self) -> str:
         """The schema revision the library is at (e.g. ``"0001"``); empty if none."""
         with self._connect() as connection:
-            return MigrationContext.configure(connection).get_current_revision() or ""
+            return _recorded_revision(connection) or ""
 
     @contextmanager
     def _connect(self):
@@ -595,6 +618,8 @@ def _prepare_folder(location: LibraryLocation) -> None:
 
 def _current_revision(connection, script: ScriptDirectory, text: str) -> str | None:
     """The library's revision; refuses a foreign database and a newer schema."""
+    from alembic.runtime.migration import MigrationContext
+
     current = MigrationContext.configure(connection).get_current_revision()
     if current is None and inspect(connection).get_table_names():
         raise LibraryError(f"{text}: holds a database, but not a railwright library")
@@ -610,11 +635,22 @@ def _current_revision(connection, script: ScriptDirectory, text: str) -> str | N
 
 
 def _migrate(library: Library, notify: Notify) -> bool:
-    """Bring the schema to head; True when the library was created just now."""
+    """Bring the schema to head; True when the library was created just now.
+
+    A library already at head costs one query and no Alembic import; anything else
+    (new, older, newer or foreign) goes through Alembic.
+    """
     text = library.location_text()
-    script = ScriptDirectory.from_config(alembic_config())
-    head = script.get_current_head()
+    head = head_revision()
     try:
+        with library.engine.connect() as connection:
+            if _recorded_revision(connection) == head:
+                return False
+        from alembic import command
+        from alembic.script import ScriptDirectory
+
+        script = ScriptDirectory.from_config(alembic_config())
+        head = script.get_current_head()
         with library.engine.begin() as connection:
             current = _current_revision(connection, script, text)
         if current != head:

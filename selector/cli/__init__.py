@@ -3,14 +3,17 @@
 Each command family lives in its own module and exposes ``COMMANDS``, a list of click
 commands or groups; :data:`COMMAND_MODULES` names the module of each top-level command,
 imported only when that command runs (numpy, pandas, SQLAlchemy and SciPy cost seconds
-to import, and ``railwright parts list`` needs only some of them). Domain errors
+to import, and ``railwright parts list`` needs only some of them); ``railwright --help``
+lists them from :data:`COMMAND_SUMMARIES` without importing any. Domain errors
 (:class:`selector.errors.RailwrightError`) become one-line ``click.ClickException``\\ s
 with the error's exit code.
 """
 
 from __future__ import annotations
 
+import atexit
 import difflib
+import gc
 import importlib
 
 import click
@@ -27,6 +30,20 @@ COMMAND_MODULES: dict[str, str] = {
     "report": "report_command",
     "approved": "approved_commands",
     "history": "history_command",
+}
+
+#: Top-level command name → its help's first sentence, for the command list of
+#: ``railwright --help`` without importing every command module (a test keeps them equal).
+#: A command missing here is imported to ask.
+COMMAND_SUMMARIES: dict[str, str] = {
+    "init": "Create the parts library (at --db, or the per-user default) if it is missing.",
+    "parts": "The shop's parts library: forward diodes, LEDs and zeners.",
+    "check": "Solve one stack and series resistor at all 32 worst-case corners and report.",
+    "seek": "Search every stack of up to max_parts library parts for the rail; list the best.",
+    "report": "Write a design review as one HTML file: spec, shortlist, corners, margins, plots.",
+    "approved": "The shop's approved-parts lists: which parts may be designed in, and why.",
+    "history": "Show who changed what, when (UTC), old → new, and why: imports, edits, status "
+    "changes and removals of parts and list entries, oldest first.",
 }
 
 
@@ -68,6 +85,23 @@ class RailwrightGroup(click.Group):
                 self.add_command(loaded)
             command = super().get_command(ctx, name)
         return command
+
+    def format_commands(self, ctx: click.Context, formatter: click.HelpFormatter) -> None:
+        names = self.list_commands(ctx)
+        if not names:
+            return
+        # As click's own (3 × the default spacing), but from the summaries where known.
+        limit = formatter.width - 6 - max(len(name) for name in names)
+        rows = []
+        for name in names:
+            if name in COMMAND_SUMMARIES and name not in self.commands:
+                rows.append((name, click.utils.make_default_short_help(COMMAND_SUMMARIES[name], limit)))
+                continue
+            command = self.get_command(ctx, name)
+            if command is not None and not command.hidden:
+                rows.append((name, command.get_short_help_str(limit)))
+        with formatter.section("Commands"):
+            formatter.write_dl(rows)
 
     def resolve_command(self, ctx: click.Context, args: list[str]):
         try:
@@ -122,4 +156,18 @@ def main(ctx: click.Context, db: str | None) -> None:
     from selector.cli.context import CliState
 
     ctx.obj = CliState(db_option=db)
+    ctx.call_on_close(ctx.obj.close)
+    _skip_collections_at_exit()
+
+
+def _skip_collections_at_exit() -> None:
+    """Freeze the garbage collector when the process exits, once however many commands run.
+
+    The interpreter's shutdown collections walk every object SQLAlchemy, numpy and SciPy
+    made (measured: about 80 ms of a 450 ms ``parts list``); frozen objects are skipped.
+    Nothing is lost: the library is closed when the command ends, and objects are still
+    freed by reference counting.
+    """
+    atexit.unregister(gc.freeze)
+    atexit.register(gc.freeze)
 

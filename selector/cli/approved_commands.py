@@ -6,7 +6,7 @@ import click
 
 from selector.catalog import approved_lists, list_changes
 from selector.catalog.approved_list_csv import import_list_file, load_list_csv, write_list_csv
-from selector.spec.rail_spec import LIST_STATUSES
+from selector.spec.list_statuses import LIST_STATUSES
 from selector.views.part_sheet import format_table
 
 _BY_HELP = "Who makes the change (default: your login name)."

@@ -4,12 +4,9 @@ from __future__ import annotations
 
 import click
 
-from selector.catalog.fit_records import fitted_parts_file, parse_points
-from selector.catalog.model_cards import load_model_cards
 from selector.catalog.parts_export import write_parts_csv
 from selector.catalog.parts_import import ImportPlan, load_parts_csv, parse_column_settings
 from selector.errors import UnknownPartError
-from selector.physics.fitting import fit_forward_points
 from selector.spec.part_fields import FAMILIES
 from selector.spec.units import format_quantity
 from selector.views.part_sheet import format_table, list_rows, part_sheet
@@ -129,6 +126,8 @@ def import_cards_command(state, card_file, family, ratings_csv, settings, dry_ru
       railwright parts import-cards shop.lib --family signal --set pd_w=500m
       railwright parts import-cards zeners.lib --family zener --ratings zener_ratings.csv
     """
+    from selector.catalog.model_cards import load_model_cards
+
     overrides: dict[str, object] = parse_column_settings(settings)
     if family:
         overrides["family"] = family.lower()
@@ -158,6 +157,9 @@ def fit_command(state, part, points, family, settings, dry_run) -> None:
       railwright parts fit D-NEW1 --family signal --set pd_w=250m \\
           --point "0.60 V @ 1 mA" --point "0.72 V @ 10 mA" --point "0.98 V @ 100 mA"
     """
+    from selector.catalog.fit_records import fitted_parts_file, parse_points
+    from selector.physics.fitting import fit_forward_points
+
     part = part.strip()
     overrides: dict[str, object] = parse_column_settings(settings)
     if family:

@@ -4,13 +4,17 @@ the physics found (the contract metrics and their detail, and optionally a Monte
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from selector.physics.design_metrics import DesignMetrics
-from selector.physics.montecarlo import MonteCarloResult
 from selector.physics.partset import PartSet
 from selector.spec.rail_spec import RailSpec
+
+if TYPE_CHECKING:
+    # Only named here: Monte Carlo loads scipy.special, which 'seek' never needs.
+    from selector.physics.montecarlo import MonteCarloResult
 
 
 @dataclass(frozen=True)

@@ -18,6 +18,7 @@ from pathlib import Path
 from selector.errors import QuantityError, SpecError, SpecOptionError
 from selector.spec import units
 from selector.spec.eseries import SERIES_STEPS, series_values
+from selector.spec.list_statuses import LIST_STATUSES, UNUSABLE_STATUSES
 from selector.spec.part_fields import FAMILIES
 
 
@@ -165,11 +166,6 @@ REQUIRED_KEYS: tuple[str, ...] = (
     "ambient.min",
     "ambient.max",
 )
-
-#: Every status an approved-parts list may give a part.
-LIST_STATUSES: tuple[str, ...] = ("approved", "conditional", "evaluating", "no-new-design", "banned")
-#: Statuses a design may never use, whatever the spec asks.
-UNUSABLE_STATUSES: tuple[str, ...] = ("no-new-design", "banned")
 
 #: Largest load current a spec may ask for [A]; beyond it a typo is far likelier than a design.
 MAX_LOAD_CURRENT_A = 100.0

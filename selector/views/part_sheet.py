@@ -12,7 +12,6 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 
 from selector.catalog.parts_import import RULES
-from selector.physics.devices import element_voltage_slopes
 from selector.physics.partset import PartSet
 from selector.spec import units
 from selector.spec.part_fields import CONTRACT_DEFAULTS, NUMERIC_COLUMNS
@@ -50,6 +49,8 @@ def characteristic_voltages(parts: PartSet, currents_a: np.ndarray) -> np.ndarra
     -------
     array [V]
     """
+    from selector.physics.devices import element_voltage_slopes
+
     if len(parts) == 0:
         return np.empty(0)
     voltage, _, _ = element_voltage_slopes(parts, np.arange(len(parts)), currents_a, SHEET_JUNCTION_C)
