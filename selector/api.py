@@ -59,7 +59,7 @@ class CheckResult:
     @property
     def meets(self) -> bool:
         """Feasible at every corner and within the tolerance window (DESIGN §3)."""
-        return bool(self.design.metrics.evaluation.meets[0])
+        return self.design.meets
 
     @property
     def feasible(self) -> bool:

@@ -80,7 +80,7 @@ def test_terminal_report_shows_design_corners_metrics_and_parts(setup):
     assert "rail [V]" in text and "Hottest junction: " in text
     assert " <" in text and " >" in text
     assert "line regulation" in text and "Margin per part (worst corner):" in text
-    assert "Monte Carlo (500 samples, seed 0): yield" in text
+    assert "Monte Carlo (500 units, seed 0, each at every supply × load × ambient extreme): yield" in text
     assert "Caution: series resistor has 8% margin on its allowed power (corners " in text
 
 

@@ -193,3 +193,40 @@ def test_stack_major_evaluation_equals_the_point_by_point_path(parts, monkeypatc
         np.testing.assert_allclose(getattr(new, name), getattr(old, name), rtol=rtol, atol=atol, err_msg=name)
     for name, value in old.nominal.items():
         np.testing.assert_allclose(new.nominal[name], value, rtol=1e-8, atol=1e-9, err_msg=name)
+
+
+#: An invented 3.6 V zener with a strongly negative TC and much thermal resistance: with a
+#: few ohms in series it has two stable operating points (a thermal latch) — about 38 mA,
+#: and near 2 A where heating has pulled its voltage down (found by scanning F).
+LATCH_ZENER = dict(part="INV-LATCH", family="zener", vz_v=3.65, izt_a=5e-3, zzt_ohm=52.0, izk_a=5e-4, zzk_ohm=420.0,
+                   tc_v_per_k=-4.2e-3, theta_ja_k_per_w=420.0, pd_w=0.5)  # fmt: skip
+
+
+def test_a_thermal_latch_takes_the_operating_point_from_zero_current_and_is_flagged():
+    from selector.physics.operating_point_scan import scan_operating_points
+    from selector.views.check_view import design_cautions
+
+    parts = PartSet.from_records([LATCH_ZENER])
+    spec = make_spec(target_v=3.9, tolerance_v=0.3, supply_min_v=4.0, supply_max_v=4.02, supply_nominal_v=4.01,
+                     load_max=0.0, ambient_min_c=25.0, ambient_max_c=25.0, resistor_tolerance=0.001)  # fmt: skip
+    metrics = design_metrics(parts, np.array([0]), 1.3, spec)
+    scan = metrics.operating_points
+    assert metrics.latch_corners.size == 32 and metrics.off_lowest_root_corners.size == 0
+    for corner in range(32):
+        low, high = scan.roots_a[corner]
+        # The solver's is the lowest root: the scan's, found independently by bisection.
+        assert metrics.evaluation.stack_current_a[0, corner] == pytest.approx(low, rel=1e-6)
+        assert 0.03 < low < 0.05 and high > 1.0 and scan.unstable_a[0].size == 1
+    # Both points satisfy KCL (DESIGN §3 circuit equation), each element at its own junction.
+    from selector.physics.devices import stack_voltage
+
+    for current in scan.roots_a[0]:
+        voltage, _ = stack_voltage(parts, np.array([[0]]), current, 25.0, -1.0)
+        corner = worst_case_corners(spec)
+        assert corner.supply_v[0] - 1.3 * corner.resistor_factor[0] * current - voltage[0] == pytest.approx(0, abs=1e-9)
+    from selector.physics.checked_design import CheckedDesign
+
+    design = CheckedDesign(spec, parts, np.array([0]), 1.3, False, metrics)
+    assert any(line.startswith("several operating points at corners 1–32 (a thermal latch)") for line in
+               design_cautions(design))  # fmt: skip
+    assert scan_operating_points(parts, np.array([0]), [4.0], [1.3], [25.0], [-1.0], [0.0], [0.0]).several().size == 1

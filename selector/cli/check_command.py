@@ -21,16 +21,17 @@ MAX_MONTE_CARLO_SAMPLES = 10_000_000
     '  railwright check --spec rail.toml --stack "2*D-SIG1" --resistor 1k --json\n'
     '  railwright check --spec rail.toml --stack "Z4V7-A" --monte-carlo 10000\n\n'
     + SPEC_OPTIONS_EPILOG
-    + "\n\nMonte Carlo: supply, load (amperes, or ohms for a resistive load) and ambient are "
-    "uniform over their ranges; the series-resistor tolerance and each element's own "
-    "tolerance are normal with 3 sigma at the limit, truncated there; seeded (--seed). "
-    "Yield is the fraction of samples inside target ± tolerance.",
+    + "\n\nMonte Carlo: each of N units draws its parts' tolerances and TC spreads and the "
+    "resistor's tolerance and TCR once (normal, 3 sigma at the limit, truncated there; "
+    "seeded with --seed) and is solved at the environment corners (supply × load × "
+    "ambient extremes). Yield is the share of units inside the window and feasible at "
+    "every one, with its 95 % Wilson interval.",
 )
 @click.option("--stack", "stack_text", required=True, metavar="TEXT",
               help="The stack, elements joined by '+', each [COUNT*]PART, e.g. '2*D-SIG1 + Z4V7-A'.")
 @click.option("--json", "as_json", is_flag=True, help="Print the result as JSON instead of a report.")
 @click.option("--monte-carlo", "samples", type=int, default=None, metavar="N",
-              help="Also run N Monte Carlo samples, e.g. 10000.")
+              help="Also run a Monte Carlo of N units, e.g. 10000.")
 @click.option("--seed", type=int, default=0, show_default=True, help="Monte Carlo seed.")
 @click.option("--derating", type=float, default=1.0, show_default=True, metavar="FRACTION",
               help="Shop derating for the resistor rating advice: fraction of a rating that may be used, e.g. 0.5.")

@@ -30,5 +30,11 @@ class CheckedDesign:
     monte_carlo: MonteCarloResult | None = None
 
     @property
+    def meets(self) -> bool:
+        """Meets the spec at every corner (DESIGN §3), each corner at the operating point
+        reached from zero current."""
+        return bool(self.metrics.evaluation.meets[0]) and self.metrics.off_lowest_root_corners.size == 0
+
+    @property
     def elements(self) -> list[str]:
         return [str(self.parts.part[i]) for i in self.stack if i >= 0]

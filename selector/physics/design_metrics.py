@@ -25,8 +25,10 @@ from selector.physics.corners import (
     worst_case_corners,
 )
 from selector.physics.devices import element_voltage_slopes
+from selector.physics.operating_point_scan import OperatingPointScan, scan_operating_points
 from selector.physics.partset import PartSet
 from selector.physics.series_resistor import resistor_allowed_power_w
+from selector.physics.solver_settings import STATUS_SOLVED
 from selector.spec.rail_spec import RailSpec
 
 #: Common resistor power ratings [W] (common practice, no source: the usual catalogue steps).
@@ -96,6 +98,14 @@ class DesignMetrics:
         ambient derating of that corner.
     reason : str
         Named infeasibility reason, ``"ok"`` when feasible.
+    operating_points : OperatingPointScan
+        Every operating point of each of the 32 corners
+        (:mod:`selector.physics.operating_point_scan`).
+    latch_corners : ndarray of int
+        Corners (0-based) with more than one stable operating point (a thermal latch).
+    off_lowest_root_corners : ndarray of int
+        Corners (0-based) whose solved current is not the lowest operating point, the one
+        reached from zero current (the scan found a lower one).
     """
 
     evaluation: DesignEvaluation
@@ -116,6 +126,9 @@ class DesignMetrics:
     resistor_allowed_power_w: float
     resistor_rating_needed_w: float | None
     reason: str
+    operating_points: OperatingPointScan
+    latch_corners: np.ndarray
+    off_lowest_root_corners: np.ndarray
 
 
 def _dc_slopes(parts, stack, resistor_ohm, spec, nominal, stack_current_a):
@@ -225,7 +238,14 @@ def design_metrics(
     # The rating that carries every corner's power at that corner's ambient derating.
     needed_at_full = float(np.max(np.where(fraction_of_rating > 0, evaluation.resistor_power_w[0] / np.where(
         fraction_of_rating > 0, fraction_of_rating, 1.0), np.inf)))  # fmt: skip
+    corners = worst_case_corners(spec)
+    scan = scan_operating_points(parts, stack[0], corners.supply_v, resistor_ohm * corners.resistor_factor,
+                                 corners.ambient_c, corners.tolerance_sign, corners.load_current_a,
+                                 corners.load_conductance_s)  # fmt: skip
     return DesignMetrics(
+        operating_points=scan,
+        latch_corners=scan.several(),
+        off_lowest_root_corners=_not_the_lowest_root(scan, evaluation.stack_current_a[0], evaluation.corner_status[0]),
         evaluation=evaluation,
         line_regulation_mv_per_v=float(1e3 * line),
         load_regulation_mv_per_ma=float(load),
@@ -247,3 +267,11 @@ def design_metrics(
         reason=evaluation.reason_name(0),
     )
 
+
+
+def _not_the_lowest_root(scan: OperatingPointScan, current_a: np.ndarray, status: np.ndarray) -> np.ndarray:
+    """Corners whose solved (conducting) current lies above the lowest root the scan found,
+    by more than the scan's own resolution."""
+    wrong = [c for c, roots in enumerate(scan.roots_a)
+             if status[c] == STATUS_SOLVED and roots.size and current_a[c] > roots[0] * (1 + 1e-6)]  # fmt: skip
+    return np.array(wrong, dtype=int)

@@ -14,8 +14,9 @@ import numpy as np
 from selector.physics.checked_design import CheckedDesign
 from selector.physics.circuit import STATUS_NAMES, STATUS_SOLVED, STATUS_STACK_OFF
 from selector.physics.corners import CornerSet, worst_case_corners
-from selector.physics.design_cautions import Caution
+from selector.physics.design_cautions import Caution, corner_list
 from selector.physics.design_cautions import design_cautions as physics_cautions
+from selector.physics.montecarlo import PERCENTILE_NAMES
 from selector.spec.rail_spec import RailSpec, spec_cautions
 from selector.spec.stack_notation import format_stack
 from selector.spec.units import format_quantity
@@ -42,6 +43,18 @@ def design_cautions(design: CheckedDesign) -> list[str]:
     lines = [f"{line} (this tool is not a safety assessment)" for line in spec_cautions(spec)]
     for caution in design_model_cautions(design):
         lines.append(f"{caution.text}; {DEFER}" if caution.kind == "near limit" else caution.text)
+    scan = metrics.operating_points
+    if metrics.latch_corners.size:
+        others = sorted({f"{format_quantity(root, 'A', 3)}" for c in metrics.latch_corners for root in scan.roots_a[c][1:]})
+        lines.append(
+            f"several operating points at {corner_list(metrics.latch_corners + 1)} (a thermal latch): the one "
+            f"reached from zero current is taken; a transient can push the stack to {', '.join(others)}; {DEFER}"
+        )
+    if metrics.off_lowest_root_corners.size:
+        lines.append(
+            f"at {corner_list(metrics.off_lowest_root_corners + 1)} the solved current is not the lowest operating "
+            "point (the one reached from zero current): these corners are not proven"
+        )
     tj_max = design.parts.tj_max_c[design.stack[metrics.hottest_element]]
     if metrics.evaluation.solved[0] and metrics.hottest_junction_c > tj_max - HOT_PART_HEADROOM_K:
         lines.append(
@@ -68,6 +81,9 @@ def wanted_text(spec: RailSpec) -> str:
 
 def _verdict(design: CheckedDesign) -> str:
     ev = design.metrics.evaluation
+    if design.metrics.off_lowest_root_corners.size:
+        return (f"NOT PROVEN (at {corner_list(design.metrics.off_lowest_root_corners + 1)} the solver's operating "
+                "point is not the one reached from zero current)")  # fmt: skip
     if ev.meets[0]:
         return "MEETS the spec at every corner"
     if ev.feasible[0]:
@@ -93,7 +109,7 @@ def check_json(design: CheckedDesign) -> dict:
         "margin": _finite(ev.margin[0]),
         "i_min_a": _finite(ev.i_min_a[0]) if ev.solved[0] else None,
         "feasible": bool(ev.feasible[0]),
-        "meets": bool(ev.meets[0]),
+        "meets": design.meets,
         "corners": _corner_objects(design, corners),
         "stack": format_stack(design.elements),
         "parts": len(design.elements),
@@ -141,8 +157,11 @@ def check_json(design: CheckedDesign) -> dict:
             "samples": mc.samples,
             "seed": mc.seed,
             "yield": mc.yield_fraction,
+            "yield_interval_95": [mc.yield_low, mc.yield_high],
+            "yield_counts": "units passing at every environment corner (supply × load × ambient extremes)",
             "solved_fraction": mc.solved_fraction,
             "percentiles_v": {f"{p:g}": v for p, v in mc.percentiles.items()},
+            "percentile_names": {f"{p:g}": PERCENTILE_NAMES[p] for p in mc.percentiles},
         }
     return document
 
@@ -164,6 +183,8 @@ def _corner_objects(design: CheckedDesign, corners: CornerSet) -> list[dict]:
                 "tolerance_sign": float(corners.tolerance_sign[c]),
                 "solved": solved,
                 "status": STATUS_NAMES[ev.corner_status[0, c]],
+                "operating_points_a": [float(root) for root in design.metrics.operating_points.roots_a[c]],
+                "several_operating_points": bool(design.metrics.operating_points.roots_a[c].size > 1),
                 "vout_v": float(ev.vout_v[0, c]) if solved else None,
                 "stack_current_a": float(ev.stack_current_a[0, c]) if solved else None,
                 "load_current_a": float(ev.load_current_a[0, c]) if solved else None,
@@ -229,10 +250,11 @@ def check_lines(design: CheckedDesign) -> list[str]:
             )
     if design.monte_carlo is not None:
         mc = design.monte_carlo
-        lines += ["", f"Monte Carlo ({mc.samples} samples, seed {mc.seed}): yield {mc.yield_fraction:.2%}"]
+        lines += ["", f"Monte Carlo ({mc.samples} units, seed {mc.seed}, each at every supply × load × ambient extreme): "
+                      f"yield {mc.yield_fraction:.2%} (95 % interval {mc.yield_low:.2%} … {mc.yield_high:.2%})"]
         if mc.percentiles:
-            spread = ", ".join(f"{p:g} %: {volts(v)}" for p, v in mc.percentiles.items())
-            lines.append(f"  rail percentiles {spread}")
+            spread = ", ".join(f"{PERCENTILE_NAMES[p]} {volts(v)}" for p, v in mc.percentiles.items())
+            lines.append(f"  rail over every unit and corner: {spread}")
     cautions = design_cautions(design)
     if cautions:
         lines.append("")

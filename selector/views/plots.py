@@ -183,25 +183,31 @@ def error_margin_figure(
 
 
 def monte_carlo_figure(result: MonteCarloResult, spec: RailSpec, title: str):
-    """Histogram of the Monte Carlo rail voltages against the hatched tolerance window.
+    """Histograms of each unit's lowest and highest rail over its environment corners,
+    against the hatched tolerance window: a unit passes only if both lie inside.
 
     Returns
     -------
     matplotlib.figure.Figure
     """
-    solved = result.vout_v[result.vout_v > 0]
+    solved = np.isfinite(result.unit_low_v)
+    lows, highs = result.unit_low_v[solved], result.unit_high_v[solved]
 
     def make():
         figure, axes = _figure()
         _window(axes, spec, vertical=True)
-        if solved.size:
-            axes.hist(solved, bins=HISTOGRAM_BINS, histtype="stepfilled", facecolor="#9fb3bd", edgecolor=INKS[0],
-                      linewidth=1.0, zorder=2, label=f"{solved.size} solved samples")
+        if lows.size:
+            bins = np.histogram_bin_edges(np.concatenate([lows, highs]), bins=HISTOGRAM_BINS)
+            axes.hist(lows, bins=bins, histtype="stepfilled", facecolor="#9fb3bd", edgecolor=INKS[0], alpha=0.75,
+                      linewidth=1.0, zorder=2, label=f"lowest rail of each unit ({lows.size})")
+            axes.hist(highs, bins=bins, histtype="step", edgecolor=INKS[1], linestyle=LINE_STYLES[1],
+                      linewidth=1.4, zorder=3, label=f"highest rail of each unit ({highs.size})")
         axes.set_xlabel("rail [V]")
-        axes.set_ylabel("samples")
+        axes.set_ylabel("units")
         axes.set_title(title)
-        axes.text(0.99, 0.97, f"yield {result.yield_fraction:.2%}\nseed {result.seed}", transform=axes.transAxes,
-                  ha="right", va="top", fontsize=8)
+        axes.text(0.99, 0.97, f"yield {result.yield_fraction:.2%}\n95 % {result.yield_low:.2%} … "
+                  f"{result.yield_high:.2%}\nseed {result.seed}", transform=axes.transAxes, ha="right", va="top",
+                  fontsize=8)  # fmt: skip
         axes.legend(loc="center left", bbox_to_anchor=(1.02, 0.5))
         return figure
 

@@ -23,7 +23,7 @@ import pandas as pd
 from selector import __version__
 from selector.errors import OptionError
 from selector.physics.design_metrics import design_metrics
-from selector.physics.montecarlo import DEFAULT_SAMPLES, run_monte_carlo
+from selector.physics.montecarlo import DEFAULT_SAMPLES, PERCENTILE_NAMES, run_monte_carlo
 from selector.physics.partset import PartSet
 from selector.search.ranking import DEFAULT_RESOLUTION_V, pareto_front
 from selector.spec.rail_spec import RailSpec, spec_cautions
@@ -525,11 +525,13 @@ def _metrics_list(document: dict) -> str:
 
 def _monte_carlo_caption(design: CheckedDesign) -> str:
     mc = design.monte_carlo
-    spread = ", ".join(f"{p:g} %: {format_quantity(v, 'V', 5)}" for p, v in mc.percentiles.items())
+    spread = ", ".join(f"{PERCENTILE_NAMES[p]} {format_quantity(v, 'V', 5)}" for p, v in mc.percentiles.items())
     return (
-        f"{mc.samples} samples (seed {mc.seed}): supply, load and ambient uniform over their ranges; resistor and "
-        f"element tolerances normal with 3 sigma at the limit, truncated there. Yield {mc.yield_fraction:.2%} inside "
-        f"the hatched window; solved {mc.solved_fraction:.2%}." + (f" Percentiles {spread}." if spread else "")
+        f"{mc.samples} units (seed {mc.seed}), each with its parts' tolerances and TC spreads and the resistor's "
+        "tolerance and TCR drawn once (normal, 3 sigma at the limit, truncated there), and each solved at the environment "
+        "corners (supply × load × ambient extremes). Yield {mc.yield_fraction:.2%} (95 % Wilson interval {mc.yield_low:.2%} … "
+        f"{mc.yield_high:.2%}): units inside the hatched window and feasible at every corner; solved "
+        f"{mc.solved_fraction:.2%}." + (f" Rail over every unit and corner: {spread}." if spread else "")
     )
 
 
