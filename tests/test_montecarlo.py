@@ -7,7 +7,12 @@ import pytest
 from scipy.stats import binomtest, norm
 
 from selector.physics.corners import evaluate_designs
-from selector.physics.montecarlo import DEFAULT_SAMPLES, run_monte_carlo, truncated_unit_normal, wilson_interval
+from selector.physics.montecarlo import (
+    DEFAULT_SAMPLES,
+    run_monte_carlo,
+    truncated_unit_normal,
+    wilson_interval,
+)
 from selector.physics.partset import PartSet
 from selector.spec.rail_spec import RailSpec
 
@@ -54,36 +59,37 @@ def test_wilson_interval_matches_scipy():
         assert low == pytest.approx(expected.low, abs=1e-12) and high == pytest.approx(expected.high, abs=1e-12)
 
 
-def _plain_unit_passes(parts, stack, resistor_ohm, spec, tolerance, spread, r_tol, r_tcr):
-    """One unit at the 8 supply × load × ambient extremes, each solved with scipy.optimize.brentq on the
-    scalar KCL equation, and the DESIGN §3 pass rule checked by hand."""
+def _plain_corner_passes(parts, elements, spec, supply, load, ambient, resistor, tolerance, spread):
+    """One unit at one corner, solved with scipy.optimize.brentq on the scalar KCL equation,
+    and the DESIGN §3 pass rule checked by hand."""
     from scipy.optimize import brentq
 
     from selector.physics.devices import self_heated_element
 
+    def stack(current):
+        return self_heated_element(parts, elements, np.log(current), ambient, tolerance, tc_spread_sign=spread)
+
+    def kcl(current):
+        return supply - resistor * (current + load) - stack(current).voltage_v.sum()
+
+    current = brentq(kcl, 1e-12, supply / resistor, xtol=1e-16, rtol=1e-13)
+    state = stack(current)
+    p_max = np.minimum(parts.pd_w[elements], (parts.tj_max_c[elements] - ambient) / parts.theta_ja_k_per_w[elements])
+    bias = current >= max(spec.min_current_a, parts.i_min_a[elements].max())
+    inside = abs(state.voltage_v.sum() - spec.target_v) <= spec.tolerance_v
+    return inside and bias and not (state.voltage_v * current > p_max).any()
+
+
+def _plain_unit_passes(parts, stack, resistor_ohm, spec, tolerance, spread, r_tol, r_tcr):
+    """One unit at the 8 supply × load × ambient extremes, each by :func:`_plain_corner_passes`."""
     elements = stack[stack >= 0]
     for supply in (spec.supply_min_v, spec.supply_max_v):
         for load in (spec.load_min, spec.load_max):
             for ambient in (spec.ambient_min_c, spec.ambient_max_c):
                 resistor = resistor_ohm * (1 + r_tol * spec.resistor_tolerance
                                            + r_tcr * spec.resistor_tcr_per_k * abs(ambient - 25.0))  # fmt: skip
-
-                def stack_v(current):
-                    state = self_heated_element(parts, elements, np.log(current), ambient, tolerance[: elements.size],
-                                                tc_spread_sign=spread[: elements.size])  # fmt: skip
-                    return state
-
-                def kcl(current):
-                    return supply - resistor * (current + load) - stack_v(current).voltage_v.sum()
-
-                current = brentq(kcl, 1e-12, supply / resistor, xtol=1e-16, rtol=1e-13)
-                state = stack_v(current)
-                rail = state.voltage_v.sum()
-                power = state.voltage_v * current
-                p_max = np.minimum(parts.pd_w[elements], (parts.tj_max_c[elements] - ambient)
-                                   / parts.theta_ja_k_per_w[elements])  # fmt: skip
-                bias = current >= max(spec.min_current_a, parts.i_min_a[elements].max())
-                if abs(rail - spec.target_v) > spec.tolerance_v or not bias or (power > p_max).any():
+                if not _plain_corner_passes(parts, elements, spec, supply, load, ambient, resistor,
+                                            tolerance[: elements.size], spread[: elements.size]):  # fmt: skip
                     return False
     return True
 
