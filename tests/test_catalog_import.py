@@ -16,7 +16,7 @@ from selector.errors import InputDataError, OptionError
 HEADER = "part,family,description,is_a,n,rs_ohm,pd_w,vz_v,izt_a,zzt_ohm,izk_a,zzk_ohm,tc_v_per_k\n"
 GOOD_ROWS = (
     "D-T1,signal,test diode,2.5 nA,1.9,600m,500 mW,,,,,,\n"
-    "Z-T1,zener,test zener,,,,0.5,5.1 V,5m,14,1mA,270,-1.8 mV/K\n"
+    "Z-T1,zener,test zener,,,,0.5,5.1 V,5m,14,1mA,150,-1.8 mV/K\n"
 )
 
 
@@ -94,11 +94,40 @@ def test_required_fields_per_family(tmp_path):
         load_parts_csv(path)
     lines = str(caught.value).splitlines()
     assert lines[:2] == [f"{path}:2: is_a: required for family led", f"{path}:2: n: required for family led"]
-    assert [line.split(": ")[1] for line in lines[2:]] == ["vz_v", "izt_a", "zzt_ohm", "izk_a", "zzk_ohm"]
+    # DESIGN §3 v2: an LED must also give its band gap and Tjmax, and the message says why.
+    assert lines[2:4] == [
+        f"{path}:2: eg_ev: required for family led (an LED's band gap sets its tempco; silicon's default 1.11 eV "
+        "gives it the wrong sign)",
+        f"{path}:2: tj_max_c: required for family led (LEDs are rated far below the 150 °C default)",
+    ]
+    assert [line.split(": ")[1] for line in lines[4:]] == ["vz_v", "izt_a", "zzt_ohm", "izk_a", "zzk_ohm"]
+
+
+def test_a_knee_steeper_than_any_real_zeners_is_refused(tmp_path):
+    # m = ln(zzk/zzt)/ln(izt/izk) = ln(2000/10)/ln(2) ≈ 7.6, above the limit of 4.
+    path = write(tmp_path, "part,family,pd_w,vz_v,izt_a,zzt_ohm,izk_a,zzk_ohm\nZ-S,zener,0.5,5.1,5m,10,2.5m,2000\n")
+    with pytest.raises(InputDataError) as caught:
+        load_parts_csv(path)
+    assert str(caught.value) == (
+        f"{path}:2: zzk_ohm: knee exponent ln(zzk/zzt)/ln(izt/izk) = 7.64 is above 4: no real zener's impedance "
+        "rises that steeply below its test current (check zzk_ohm and izk_a)"
+    )
+
+
+def test_suspect_derived_figures_are_warned_naming_the_part(tmp_path):
+    # An LED given silicon's band gap has a positive tempco (common practice, no source: a
+    # forward junction's is negative); a zener whose power-law curve reaches 0 V at 36 µA,
+    # far above izk/100 (DESIGN §3 v2 curve).
+    path = write(tmp_path, "part,family,is_a,n,pd_w,eg_ev,tj_max_c,vz_v,izt_a,zzt_ohm,izk_a,zzk_ohm\n"
+                           "D-L,led,1e-18,2.0,0.1,1.11,100,,,,,\nZ-K,zener,,,0.5,,,5.1,5m,14,1m,270\n")  # fmt: skip
+    warnings = load_parts_csv(path).warnings
+    assert len(warnings) == 2
+    assert warnings[0].startswith(f"{path}: D-L: Vf tempco at 1 mA and 25 °C is +")
+    assert warnings[1].startswith(f"{path}: Z-K: its modelled curve reaches 0 V at 36.4 µA, above izk/100")
 
 
 def test_unknown_columns_are_warned_not_fatal(tmp_path):
-    path = write(tmp_path, "part,family,is_a,n,pd_w,Colour\nD-1,led,1e-15,2.5,0.1,red\n")
+    path = write(tmp_path, "part,family,is_a,n,pd_w,Colour\nD-1,signal,2e-9,1.9,0.1,red\n")
     parts = load_parts_csv(path)
     assert parts.warnings == [f"{path}:1: colour: not a parts column; ignored"]
     assert len(parts.records) == 1

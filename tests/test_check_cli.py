@@ -81,7 +81,8 @@ def test_terminal_report_shows_design_corners_metrics_and_parts(setup):
     assert " <" in text and " >" in text
     assert "line regulation" in text and "Margin per part (worst corner):" in text
     assert "Monte Carlo (500 units, seed 0, each at every supply × load × ambient extreme): yield" in text
-    assert "Caution: series resistor has 8% margin on its allowed power (corners " in text
+    assert "Caution: series resistor has 12% margin on its allowed power (corners 17, 19, 21, " in text
+    assert "Caution: Z4V7-A runs at up to 9.57 × its test current 3 mA (corners 1–32)" in text
 
 
 def test_high_supply_caution_defers_to_codes(setup):

@@ -60,6 +60,16 @@ def _with_data(library):
     return library.part_records()
 
 
+#: Part columns each revision adds: stepping below it drops them, so they come back empty.
+ADDED_PART_COLUMNS: dict[str, tuple[str, ...]] = {"0003": ("tc_tol_v_per_k",)}
+
+
+def _without_columns_after(records, revision):
+    """The records without the part columns that revisions after ``revision`` add."""
+    dropped = {c for later, columns in ADDED_PART_COLUMNS.items() if later > revision for c in columns}
+    return [{k: v for k, v in record.items() if k not in dropped} for record in records]
+
+
 def test_upgrade_downgrade_upgrade_on_a_library_with_data(library_path):
     library = open_library(str(library_path))
     before = _with_data(library)
@@ -70,7 +80,7 @@ def test_upgrade_downgrade_upgrade_on_a_library_with_data(library_path):
         for target in reversed(revisions[:-1]):
             command.downgrade(alembic_config(connection), target)
         command.upgrade(alembic_config(connection), "head")
-    assert library.part_records() == before
+    assert _without_columns_after(library.part_records(), revisions[0]) == _without_columns_after(before, revisions[0])
     assert library.schema_revision() == head_revision()
 
     with library.engine.begin() as connection:
@@ -88,9 +98,10 @@ def test_each_later_revision_steps_down_and_up_keeping_parts(library_path, revis
     before = _with_data(library)
     script = ScriptDirectory.from_config(alembic_config())
     with library.engine.begin() as connection:
-        command.downgrade(alembic_config(connection), script.get_revision(revision).down_revision)
+        target = script.get_revision(revision).down_revision
+        command.downgrade(alembic_config(connection), target)
         command.upgrade(alembic_config(connection), "head")
-    assert library.part_records() == before
+    assert _without_columns_after(library.part_records(), target) == _without_columns_after(before, target)
 
 
 def test_downgrade_runs_in_a_transaction(library_path):

@@ -75,11 +75,11 @@ def test_import_reports_every_error_and_writes_nothing(run_cli, library_path, tm
 
 def test_import_dry_run_then_import_then_reimport(run_cli, library_path, tmp_path):
     good = tmp_path / "good.csv"
-    good.write_text(GOOD + "D-T2,led,1e-15,2.5,0.1,x\n")
+    good.write_text(GOOD + "D-T2,signal,2e-9,1.9,0.1,x\n")
     dry = run_cli("--db", library_path, "parts", "import", good, "--dry-run")
     assert dry.exit_code == 0
     assert dry.stdout == (
-        "add D-T1 (signal)\nadd D-T2 (led)\n"
+        "add D-T1 (signal)\nadd D-T2 (signal)\n"
         f"dry run, nothing written: {good}: 2 added, 0 changed, 0 unchanged\n"
     )
     assert open_library(str(library_path)).part_records() == []
@@ -96,7 +96,7 @@ def test_import_dry_run_then_import_then_reimport(run_cli, library_path, tmp_pat
 
 def test_unknown_columns_warn_on_stderr(run_cli, empty_library, library_path, tmp_path):
     path = tmp_path / "extra.csv"
-    path.write_text("part,family,is_a,n,pd_w,colour\nD-1,led,1e-15,2.5,0.1,red\n")
+    path.write_text("part,family,is_a,n,pd_w,colour\nD-1,signal,2e-9,1.9,0.1,red\n")
     result = run_cli("--db", library_path, "parts", "import", path)
     assert result.exit_code == 0
     assert result.stderr == f"Warning: {path}:1: colour: not a parts column; ignored\n"
@@ -112,8 +112,13 @@ def test_show_lists_parameters_with_units_and_derived_values(run_cli, library_pa
     assert lines["Vf at 1 mA, 25 °C"] == "620.01 mV"
     assert "Vf at 10 mA, 25 °C" in lines
     zener = run_cli("--db", library_path, "parts", "show", "Z4V7-B").stdout
-    assert "Vz at Izt (22 mA), 25 °C  4.7 V" in zener
-    assert "derived θJA               96.15 K/W" in zener
+    assert "Vz at Izt (12 mA), 25 °C                   4.7 V" in zener
+    assert "derived θJA                                104.2 K/W" in zener
+    # DESIGN §3 v2: m = ln(zzk/zzt)/ln(izt/izk) = ln(170/14.1)/ln(10), and the power law
+    # zzt·(I/izt)^(−m) gives back both datasheet points.
+    assert "knee exponent m = ln(zzk/zzt)/ln(izt/izk)  1.081" in zener
+    assert "modelled impedance at izk (1.2 mA)         170 Ω" in zener
+    assert "modelled impedance at izt (12 mA)          14.1 Ω" in zener
     missing = run_cli("--db", library_path, "parts", "show", "NOPE")
     assert missing.exit_code == 1
     assert missing.stderr == f"Error: unknown part 'NOPE' (not in the library {library_path})\n"

@@ -13,7 +13,7 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 
-from selector.catalog.parts_import import PartsFile, RawRow, validate_rows
+from selector.catalog.parts_import import PartsFile, RawRow, data_warnings, validate_rows
 from selector.errors import OptionError
 from selector.spec import units
 from selector.spec.part_fields import BREAKDOWN_FAMILIES
@@ -89,4 +89,5 @@ def fitted_parts_file(
         )
     records = validate_rows([RawRow(0, cells)], f"fit of {part}")
     digest = hashlib.sha256("\n".join(points_text).encode("utf-8")).hexdigest()
-    return PartsFile(f"{FIT_LABEL}: " + "; ".join(points_text), digest, records)
+    label = f"{FIT_LABEL}: " + "; ".join(points_text)
+    return PartsFile(label, digest, records, data_warnings(records, FIT_LABEL))

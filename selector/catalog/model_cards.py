@@ -53,6 +53,7 @@ from pathlib import Path
 from selector.catalog.parts_import import (
     PartsFile,
     RawRow,
+    data_warnings,
     decode_text,
     file_digest,
     read_csv_rows,
@@ -330,7 +331,7 @@ def load_model_cards(
         errors.extend(str(error).splitlines())
     if errors:
         raise InputDataError("\n".join(sorted(errors, key=_line_of)))
-    return PartsFile(label, file_digest(data), records, warnings)
+    return PartsFile(label, file_digest(data), records, warnings + data_warnings(records, label))
 
 
 def _line_of(message: str) -> int:

@@ -29,16 +29,24 @@ from selector.catalog.models import (
 )
 from selector.errors import InputDataError, OptionError
 from selector.files.csv_cells import format_number, restore_cell
+from selector.physics.partset import PartSet
 from selector.spec import units
 from selector.spec.part_fields import (
     BREAKDOWN_FAMILIES,
     FAMILIES,
+    MAX_KNEE_EXPONENT,
     NUMERIC_COLUMNS,
     REQUIRED_BREAKDOWN,
+    REQUIRED_EXTRA,
     REQUIRED_FORWARD,
 )
 from selector.spec.stack_notation import is_valid_part_id
 
+#: Why a field is required, where that is not obvious.
+REQUIRED_WHY: dict[tuple[str, str], str] = {
+    ("led", "eg_ev"): " (an LED's band gap sets its tempco; silicon's default 1.11 eV gives it the wrong sign)",
+    ("led", "tj_max_c"): " (LEDs are rated far below the 150 °C default)",
+}
 #: A parts file larger than this is refused before it is read [bytes].
 MAX_FILE_BYTES = 64 * 1024 * 1024
 #: More rows than this in one file is refused. Validation holds every row in memory
@@ -342,9 +350,10 @@ def _validate_row(row: RawRow, first_line_of: dict[str, int]) -> tuple[dict[str,
 
     if family in FAMILIES:
         required = REQUIRED_BREAKDOWN if family in BREAKDOWN_FAMILIES else REQUIRED_FORWARD
+        required += REQUIRED_EXTRA.get(family, ())
         for column in required:
             if record[column] is None and not any(message.startswith(f"{column}:") for message in errors):
-                errors.append(f"{column}: required for family {family}")
+                errors.append(f"{column}: required for family {family}{REQUIRED_WHY.get((family, column), '')}")
     errors.extend(_cross_problems(record))
     return record, errors
 
@@ -364,6 +373,12 @@ def _cross_problems(record: Mapping[str, object]) -> list[str]:
             f"zzk_ohm: knee impedance {_shown(zzk, units.RESISTANCE)} must be at least "
             f"zzt_ohm {_shown(zzt, units.RESISTANCE)}"
         )
+    elif None not in (zzt, zzk, izt, izk) and izk < izt and zzk > zzt * (izt / izk) ** MAX_KNEE_EXPONENT:
+        knee = math.log(zzk / zzt) / math.log(izt / izk)
+        problems.append(
+            f"zzk_ohm: knee exponent ln(zzk/zzt)/ln(izt/izk) = {knee:.3g} is above {MAX_KNEE_EXPONENT:g}: no real "
+            "zener's impedance rises that steeply below its test current (check zzk_ohm and izk_a)"
+        )
     return problems
 
 
@@ -378,7 +393,17 @@ def load_parts_csv(path: str | Path) -> PartsFile:
     label = str(path)
     data = read_input_bytes(path)
     _, rows, warnings = read_csv_rows(decode_text(data, label), label)
-    return PartsFile(label, file_digest(data), validate_rows(rows, label), warnings)
+    records = validate_rows(rows, label)
+    return PartsFile(label, file_digest(data), records, warnings + data_warnings(records, label))
+
+
+def data_warnings(records: Sequence[Mapping[str, object]], label: str) -> list[str]:
+    """``label: PART: warning`` for every valid record whose derived figures are suspect
+    (:func:`selector.physics.part_checks.plausibility_warnings`)."""
+    from selector.physics.part_checks import plausibility_warnings
+
+    parts = PartSet.from_records(records)
+    return [f"{label}: {records[index]['part']}: {message}" for index, message in plausibility_warnings(parts)]
 
 
 @dataclass(frozen=True)

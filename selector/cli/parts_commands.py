@@ -12,7 +12,7 @@ from selector.spec.units import format_quantity
 from selector.views.part_sheet import format_table, list_rows, part_sheet
 
 _FAMILY = click.Choice(FAMILIES, case_sensitive=False)
-_LIST_COLUMNS = ("part", "family", "package", "at 25 °C", "pd", "description")
+_LIST_COLUMNS = ("part", "family", "package", "at 25 °C", "tempco", "pd", "description")
 
 
 def _warn(lines) -> None:
@@ -178,6 +178,7 @@ def fit_command(state, part, points, family, settings, dry_run) -> None:
         point = f"{format_quantity(voltage, 'V')} @ {format_quantity(current, 'A')}"
         click.echo(f"  {point:20s} residual {residual * 1e3:+.3f} mV")
     click.echo(f"  rms residual {fit.rms_residual_v * 1e3:.3f} mV")
+    _warn(parts_file.warnings)
     plan = library.import_parts_file(parts_file, kind="datasheet fit", dry_run=dry_run)
     _report(plan, part, dry_run)
 

@@ -19,6 +19,9 @@ PART_COLUMNS: tuple[str, ...] = (
 NUMERIC_COLUMNS: tuple[str, ...] = PART_COLUMNS[4:]
 
 REQUIRED_FORWARD: tuple[str, ...] = ("is_a", "n", "pd_w")
+#: Further fields a family requires (DESIGN §3: silicon's 1.11 eV gives an LED a tempco of
+#: the wrong sign, so an LED must give its own band gap, and its Tjmax).
+REQUIRED_EXTRA: dict[str, tuple[str, ...]] = {"led": ("eg_ev", "tj_max_c")}
 REQUIRED_BREAKDOWN: tuple[str, ...] = ("vz_v", "izt_a", "zzt_ohm", "izk_a", "zzk_ohm", "pd_w")
 
 CONTRACT_DEFAULTS: dict[str, float] = {

@@ -22,7 +22,8 @@ SHEET_JUNCTION_C = 25.0
 FORWARD_POINTS_A: tuple[float, ...] = (1e-3, 10e-3)
 
 FORWARD_COLUMNS = ("is_a", "n", "rs_ohm", "eg_ev", "xti", "tnom_c", "vf_tol_v")
-ZENER_COLUMNS = ("vz_v", "izt_a", "zzt_ohm", "izk_a", "zzk_ohm", "vz_tol_pct", "tc_v_per_k", "tnom_c")
+FORWARD_COLUMNS = FORWARD_COLUMNS + ("tc_tol_v_per_k",)
+ZENER_COLUMNS = ("vz_v", "izt_a", "zzt_ohm", "izk_a", "zzk_ohm", "vz_tol_pct", "tc_v_per_k", "tc_tol_v_per_k", "tnom_c")
 RATING_COLUMNS = ("pd_w", "tj_max_c", "theta_ja_k_per_w", "if_max_a", "i_min_a")
 
 
@@ -59,9 +60,12 @@ def characteristic_voltages(parts: PartSet, currents_a: np.ndarray) -> np.ndarra
 
 def list_rows(records: Sequence[Mapping[str, object]]) -> list[dict[str, str]]:
     """Rows of ``parts list``: part, family, package, characteristic point, rating, description."""
+    from selector.physics.part_checks import forward_tempco_v_per_k
+
     parts = PartSet.from_records(records)
     currents = np.where(parts.is_zener, parts.izt_a, FORWARD_POINTS_A[0])
     voltages = characteristic_voltages(parts, currents)
+    tempco = forward_tempco_v_per_k(parts)
     rows = []
     for index, record in enumerate(records):
         symbol = "Vz" if parts.is_zener[index] else "Vf"
@@ -72,11 +76,16 @@ def list_rows(records: Sequence[Mapping[str, object]]) -> list[dict[str, str]]:
                 "package": str(record["package"] or ""),
                 "at 25 °C": f"{symbol} {units.format_quantity(voltages[index], 'V', 3)} "
                 f"@ {units.format_quantity(currents[index], 'A', 3)}",
+                "tempco": _tempco_text(tempco[index], parts.is_zener[index] and not parts.given("tc_v_per_k")[index]),
                 "pd": quantity_text("pd_w", record["pd_w"]),
                 "description": str(record["description"] or ""),
             }
         )
     return rows
+
+
+def _tempco_text(value: float, defaulted: bool) -> str:
+    return "TC not given" if defaulted else f"{value * 1e3:+.2f} mV/K"
 
 
 def part_sheet(record: Mapping[str, object]) -> list[tuple[str, str]]:
@@ -117,10 +126,37 @@ def part_sheet(record: Mapping[str, object]) -> list[tuple[str, str]]:
     if zener:
         voltage = characteristic_voltages(parts, parts.izt_a)[0]
         lines.append((f"Vz at Izt ({quantity_text('izt_a', parts.izt_a[0])}), 25 °C", units.format_quantity(voltage, "V", 5)))
+        lines.append(("Vz tempco", _tempco_text(parts.tc_v_per_k[0], not parts.given("tc_v_per_k")[0])))
+        lines += _knee_lines(parts)
     else:
         for current in FORWARD_POINTS_A:
             voltage = characteristic_voltages(parts, np.array([current]))[0]
             lines.append((f"Vf at {units.format_quantity(current, 'A')}, 25 °C", units.format_quantity(voltage, "V", 5)))
+        from selector.physics.part_checks import forward_tempco_v_per_k
+
+        lines.append(("Vf tempco at 1 mA, 25 °C", _tempco_text(forward_tempco_v_per_k(parts)[0], False)))
+    return lines
+
+
+def _knee_lines(parts: PartSet) -> list[tuple[str, str]]:
+    """A zener's power-law knee (DESIGN §3 v2): its exponent, the modelled impedance at izk,
+    izt and 5 × izt to compare with the datasheet, and where the curve reaches 0 V."""
+    from selector.physics.part_checks import (
+        IMPEDANCE_POINTS_OF_IZT,
+        zener_impedance_ohm,
+        zener_zero_crossing_a,
+    )
+
+    lines = [("knee exponent m = ln(zzk/zzt)/ln(izt/izk)", f"{parts.zener_knee_exponent[0]:.4g}")]
+    points = [("izk", parts.izk_a[0])] + [(f"{k:g} × izt" if k != 1 else "izt", k * parts.izt_a[0])
+                                          for k in IMPEDANCE_POINTS_OF_IZT]  # fmt: skip
+    for name, current in points:
+        impedance = zener_impedance_ohm(parts, np.array([current]))[0]
+        lines.append((f"modelled impedance at {name} ({units.format_quantity(current, 'A', 3)})",
+                      units.format_quantity(impedance, "Ω", 4)))  # fmt: skip
+    crossing = zener_zero_crossing_a(parts)[0]
+    lines.append(("modelled curve reaches 0 V at", units.format_quantity(crossing, "A", 3) if crossing > 0
+                  else "never (it ends above 0 V)"))  # fmt: skip
     return lines
 
 
