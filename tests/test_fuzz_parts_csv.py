@@ -16,7 +16,7 @@ import math
 import pytest
 from click.testing import CliRunner
 from csv_fuzzing import assert_located_errors, spoiled_csv_bytes
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
 from selector.catalog.parts_export import write_parts_csv
@@ -93,6 +93,8 @@ def _records_are_sane(records) -> None:
 
 @CASES
 @given(data=parts_files())
+# A zzt_ohm that underflows to 0 once reached the knee-exponent check and divided by it.
+@example(data=b"part,family,vz_v,izt_a,zzt_ohm,izk_a,zzk_ohm,pd_w\nFZ-00,signal,5.1 V,5 mA,1e-999,250 uA,400,0.5\n")
 def test_parts_import_of_any_file_is_clean_or_a_located_error_and_leaves_the_library_alone(fuzz_library, tmp_path_factory, data):
     path, library, state = fuzz_library
     csv_path = tmp_path_factory.getbasetemp() / "fuzz-parts.csv"

@@ -89,6 +89,14 @@ _LOOP_GAIN_AT_AMBIENT_CASE = ([{"part": "RB-0", "family": "led", "is_a": 1e-20, 
                                 "vf_tol_v": 2.220446049250313e-16, "pd_w": 0.17183464308884266,
                                 "tj_max_c": 199.99999999999997}], 0)  # fmt: skip
 
+#: A knee exponent within 1e-12 of 1 (zzk/zzt = izt/izk): the fast path once wrote the
+#: curve as c/q·x^q + (vz − c/q), whose huge terms cancel to a 0.1 mV error; now expm1.
+_KNEE_NEAR_ONE_CASE = ([{"part": "RB-0", "family": "zener", "vz_v": 12.644321102428371, "izt_a": 0.12786862277179029,
+                         "zzt_ohm": 0.99999, "izk_a": 0.043396805428564986, "zzk_ohm": 2.9464690504936737,
+                         "vz_tol_pct": 2.6476140877743353, "tc_v_per_k": 0.018567751414182314,
+                         "tc_tol_v_per_k": 0.0031363141033553337, "pd_w": 0.12786862277179029,
+                         "tj_max_c": 105.01782798167471}], 1)  # fmt: skip
+
 
 def _random_points(rng, part_count: int):
     """POINTS random stacks of up to four of the parts and their conditions: stacks, supply,
@@ -109,6 +117,7 @@ def _random_points(rng, part_count: int):
 @example(problem=_OVERFLOW_CASE)
 @example(problem=_NO_ALLOWED_POWER_CASE)
 @example(problem=_LOOP_GAIN_AT_AMBIENT_CASE)
+@example(problem=_KNEE_NEAR_ONE_CASE)
 def test_random_valid_points_are_solved_within_1_nV_or_flagged_with_a_reason(problem):
     records, seed = problem
     parts = PartSet.from_records(records)

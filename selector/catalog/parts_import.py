@@ -373,7 +373,7 @@ def _cross_problems(record: Mapping[str, object]) -> list[str]:
             f"zzk_ohm: knee impedance {_shown(zzk, units.RESISTANCE)} must be at least "
             f"zzt_ohm {_shown(zzt, units.RESISTANCE)}"
         )
-    elif None not in (zzt, zzk, izt, izk) and izk < izt and zzk > zzt * (izt / izk) ** MAX_KNEE_EXPONENT:
+    elif None not in (zzt, zzk, izt, izk) and 0 < izk < izt and zzt > 0 and zzk > zzt * (izt / izk) ** MAX_KNEE_EXPONENT:
         knee = math.log(zzk / zzt) / math.log(izt / izk)
         problems.append(
             f"zzk_ohm: knee exponent ln(zzk/zzt)/ln(izt/izk) = {knee:.3g} is above {MAX_KNEE_EXPONENT:g}: no real "

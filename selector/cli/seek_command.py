@@ -9,6 +9,7 @@ import click
 
 from selector.api import seek as seek_library
 from selector.cli.spec_options import SPEC_OPTIONS_EPILOG, spec_options
+from selector.physics.design_cautions import NEAR_LIMIT_MARGIN
 from selector.spec.spec_summary import describe_spec
 from selector.spec.units import VOLTAGE, format_quantity, parse_quantity
 from selector.views.shortlist_view import (
@@ -17,9 +18,6 @@ from selector.views.shortlist_view import (
     terminal_table,
     write_shortlist_csv,
 )
-
-#: Margin below which a shortlisted design is flagged as running a part near its limit.
-NEAR_LIMIT_MARGIN = 0.1
 
 
 class DelayedProgress:
@@ -93,12 +91,16 @@ def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool
         for rank, conditions in zip(frame["rank"], frame["conditions"], strict=True):
             if conditions:
                 click.echo(f"  #{rank} conditions of use (list '{spec.list_name}'): {conditions}")
-        near = int((frame["margin"] < NEAR_LIMIT_MARGIN).sum())
+        near = int(frame["near_limit"].sum())
         if near:
             click.echo(
-                f"Caution: {near} listed design(s) run a part or the resistor within "
-                f"{NEAR_LIMIT_MARGIN:.0%} of its power limit; derate and check against local codes and licensed practice."
+                f"Caution: {near} listed design(s), marked !, run a part or the resistor within "
+                f"{NEAR_LIMIT_MARGIN:.0%} of its allowed power; derate and check against local codes and licensed "
+                "practice."
             )
+        for rank, cautions in zip(frame["rank"], frame["cautions"], strict=True):
+            if cautions:
+                click.echo(f"  #{rank}: {cautions}")
     click.echo("")
     for line in summary_lines(summary):
         click.echo(line)

@@ -348,7 +348,7 @@ class _Iterate:
 
     def _breakdown_slot(self, j, z, current):
         """One zener slot at its closed-form junction (DESIGN §3, version 2): with the curve
-        ``A = offset + m·c/q·(I/izt)^q`` and slope ``k`` on the junction's side of tnom,
+        ``A = offset + m·c/q·expm1(q·ln(I/izt))`` and slope ``k`` on the junction's side of tnom,
         ``V = (A ± spread·(Ta − tnom))/(1 − θ·k·I)``, ``dV/du = (m·c·(I/izt)^q + V·θ·k·I)/(1 − θ·k·I)``."""
         work, u = self.work, self.u
         size = u.shape
@@ -356,9 +356,10 @@ class _Iterate:
         np.subtract(u, z[Z_LOG_IZT], out=power)
         power *= z[Z_Q]
         np.minimum(power, KNEE_EXPONENT_CEILING, out=power)
-        np.exp(power, out=power)
+        np.expm1(power, out=power)
         voltage = np.multiply(z[Z_CQ], power, out=work(("z", j), size))
         voltage += z[Z_OFFSET]
+        power += 1.0  # (I/izt)^q, for the slope
         slope_t = z[Z_TC]
         np.multiply(z[Z_THETA], current, out=heating)
         if self.breakdown_spread[j]:

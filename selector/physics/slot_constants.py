@@ -37,15 +37,16 @@ def key_tables(parts: PartSet, multiplicity: int) -> tuple[np.ndarray, np.ndarra
     slot's voltage), m·pd, tj_max, m·tc_tol (signed later), tnom [K].
 
     Breakdown rows (DESIGN §3 version 2): with ``c = zzt·izt`` and ``q = 1 − m_knee``
-    (:func:`selector.physics.devices.breakdown_curve_terms`), m·vz − m·c/q (the offset,
-    later with ``s·row1`` and ``tc·(Ta − tnom)`` folded in), m·vz·vz_tol/100, m·tc, m·c/q,
-    q, ln izt, m·c; then the cold start's tangent form of the curve at izt
+    (:func:`selector.physics.devices.breakdown_curve_terms`), m·vz (the offset, later with
+    ``s·row1`` and ``tc·(Ta − tnom)`` folded in), m·vz·vz_tol/100, m·tc, m·c/q, q, ln izt,
+    m·c; then the cold start's tangent form of the curve at izt
     (``a·ln(I/izt) + rz·(I − izt)`` with ``a + rz·izt = c`` and ``rz = max(c·q/izt, 0)``:
     the same value and slope there) as its shift from the offset, m·a and m·rz;
     m·tc_tol (signed later), tnom [°C], θ·(tc + tc_tol) (per element, the steeper side's
     loop gain per ampere), θ/m, m·pd, tj_max. At ``Tj`` on the side of tnom with slope
     ``k`` (``tc ± tc_tol``) the slot voltage is
-    ``(offset ± spread·(Ta − tnom) + m·c/q·(I/izt)^q)/(1 − θ·k·I)``.
+    ``(offset ± spread·(Ta − tnom) + m·c/q·expm1(q·ln(I/izt)))/(1 − θ·k·I)`` — the expm1
+    form, so that ``q`` near 0 (where ``c/q`` is huge) loses no digits.
     """
     part = np.arange(2 * len(parts) + 1) % len(parts)
     m = float(multiplicity)
@@ -79,14 +80,14 @@ def key_tables(parts: PartSet, multiplicity: int) -> tuple[np.ndarray, np.ndarra
     start_rz = np.maximum(c * q / izt, 0.0)
     start_a = c - start_rz * izt
     breakdown = np.stack([
-        m * (parts.vz_v[part] - c / q),
+        m * parts.vz_v[part],
         m * parts.vz_v[part] * parts.vz_tol_pct[part] / 100.0,
         m * tc,
         m * c / q,
         q,
         np.log(izt),
         m * c,
-        m * (c / q - start_a * np.log(izt) - start_rz * izt),
+        -m * (start_a * np.log(izt) + start_rz * izt),
         m * start_a,
         m * start_rz,
         m * spread,

@@ -2,8 +2,10 @@
 
 The columns are the interface contract's (DESIGN §4): ``rank, stack, parts,
 resistor_ohm, vout_nom_v, vout_low_v, vout_high_v, error_v, margin, meets``, followed by
-our additions ``pareto`` (on the front of error, margin and part count), ``i_min_a`` and
-``conditions`` (conditions of use of the stack's parts, when any).
+our additions ``pareto`` (on the front of error, margin and part count), ``i_min_a``,
+``conditions`` (conditions of use of the stack's parts, when any), ``near_limit`` (a part
+or the resistor within 20 % of its allowed power: the table's ``!``) and ``cautions``
+(every caution of :mod:`selector.physics.design_cautions`, joined by "; ").
 """
 
 from __future__ import annotations
@@ -11,6 +13,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from selector.physics.design_cautions import NEAR_LIMIT_MARGIN, design_cautions
 from selector.search.ranking import pareto_front
 from selector.spec.stack_notation import format_stack
 
@@ -18,7 +21,7 @@ CONTRACT_COLUMNS: tuple[str, ...] = (
     "rank", "stack", "parts", "resistor_ohm", "vout_nom_v", "vout_low_v", "vout_high_v",
     "error_v", "margin", "meets",
 )  # fmt: skip
-EXTRA_COLUMNS: tuple[str, ...] = ("pareto", "i_min_a", "conditions")
+EXTRA_COLUMNS: tuple[str, ...] = ("pareto", "i_min_a", "conditions", "near_limit", "cautions")
 COLUMNS: tuple[str, ...] = CONTRACT_COLUMNS + EXTRA_COLUMNS
 
 
@@ -43,6 +46,7 @@ def shortlist_frame(parts, stacks: np.ndarray, resistor_ohm: np.ndarray, evaluat
     conditions = [
         "; ".join(dict.fromkeys(f"{parts.part[i]}: {condition[i]}" for i in row if condition[i])) for row in rows
     ]
+    cautions = [design_cautions(parts, stack, evaluation, design) for design, stack in enumerate(stacks)]
     return pd.DataFrame({
         "rank": np.arange(1, len(rows) + 1),
         "stack": [format_stack(parts.part[row]) for row in rows],
@@ -57,4 +61,6 @@ def shortlist_frame(parts, stacks: np.ndarray, resistor_ohm: np.ndarray, evaluat
         "pareto": pareto_front(evaluation.error_v, evaluation.margin, count),
         "i_min_a": evaluation.i_min_a,
         "conditions": conditions,
+        "near_limit": np.asarray(evaluation.margin, dtype=float) < NEAR_LIMIT_MARGIN,
+        "cautions": ["; ".join(c.text for c in found) for found in cautions],
     })

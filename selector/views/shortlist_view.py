@@ -48,6 +48,7 @@ _TABLE = (
     ("Vhigh [V]", "vout_high_v", lambda v: f"{v:.4f}"),
     ("error [mV]", "error_v", lambda v: f"{1000 * v:.1f}"),
     ("margin [%]", "margin", lambda v: f"{100 * v:.1f}"),
+    ("!", "near_limit", lambda v: "!" if v else ""),
     ("meets", "meets", lambda v: "yes" if v else "no"),
     ("front", "pareto", lambda v: "*" if v else ""),
 )
@@ -63,7 +64,8 @@ def terminal_table(frame: pd.DataFrame) -> str:
     def line(values):
         return "  ".join(v.rjust(w) if i in numeric else v.ljust(w) for i, (v, w) in enumerate(zip(values, widths, strict=True))).rstrip()
 
-    return "\n".join([line(headers), line(["-" * w for w in widths])] + [line(r) for r in cells])
+    legend = "! a part or the resistor within 20 % of its allowed power; * on the Pareto front"
+    return "\n".join([line(headers), line(["-" * w for w in widths])] + [line(r) for r in cells] + [legend])
 
 
 def summary_lines(summary) -> list[str]:
