@@ -356,3 +356,14 @@ def export_row(saved: SavedRevision) -> dict[str, object]:
         "spec_options": " ".join(content.spec_source.option_texts()),
         "schema_revision": saved.schema_revision, "tool_version": saved.tool_version,
     }
+
+
+def audit_chain_status(library) -> str | None:
+    """Whether the audit trail's hash chain is intact, in one line; None while the library
+    keeps no chain.
+
+    This is the one place ``designs verify`` and the report ask. A library revision that
+    chains every audit event (and saved revision) to the previous one by SHA-256 answers
+    here, e.g. ``"hash chain intact (1234 events)"`` or the first broken event.
+    """
+    return None

@@ -27,6 +27,7 @@ COMMAND_MODULES: dict[str, str] = {
     "report": "report_command",
     "approved": "approved_commands",
     "history": "history_command",
+    "designs": "designs_command",
 }
 
 
