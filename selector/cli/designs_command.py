@@ -121,7 +121,12 @@ def export_command(state, csv_file: str, all_revisions: bool) -> None:
       railwright designs export designs.csv
       railwright designs export all-revisions.csv --all-revisions
     """
-    from selector.catalog.saved_designs import EXPORT_COLUMNS, export_row, latest_revisions, revision_history
+    from selector.catalog.saved_designs import (
+        EXPORT_COLUMNS,
+        export_row,
+        latest_revisions,
+        revision_history,
+    )
     from selector.files.csv_writer import write_rows
 
     library = state.library()
