@@ -20,7 +20,12 @@ from selector.catalog import list_changes as changes
 from selector.catalog.audit import history
 from selector.catalog.design_snapshot import FieldChange
 from selector.catalog.library_hash import library_content_hash
-from selector.catalog.saved_designs import UnknownDesignError, latest_revisions, saved_revision, where_used
+from selector.catalog.saved_designs import (
+    UnknownDesignError,
+    latest_revisions,
+    saved_revision,
+    where_used,
+)
 from selector.catalog.store import head_revision
 from selector.errors import LibraryError, OptionError
 from selector.spec.spec_source import read_spec_source
