@@ -200,3 +200,21 @@ def test_unknown_designs_and_revisions(demo_library, spec_file):
         verify_designs(demo_library, ["nope"])
     with pytest.raises(OptionError, match=r"^--revision: 'bias-5v' has revisions 1 … 1, not 2$"):
         saved_revision(demo_library, "bias-5v", 2)
+
+
+def test_revision_0005_steps_down_and_up_with_its_guard(backend_library, spec_file):
+    from alembic import command
+    from sqlalchemy import inspect
+
+    from selector.catalog.store import alembic_config
+
+    save_design(spec_file, backend_library, "bias-5v", "Z5V1-B", reason="first build")
+    parts = backend_library.part_records()
+    with backend_library.engine.begin() as connection:
+        command.downgrade(alembic_config(connection), "0003")
+        assert not {"saved_designs", "design_revisions"} & set(inspect(connection).get_table_names())
+        command.upgrade(alembic_config(connection), "head")
+    assert backend_library.part_records() == parts and latest_revisions(backend_library) == []
+    save_design(spec_file, backend_library, "bias-5v", "Z5V1-B", reason="again")
+    with pytest.raises(LibraryError, match="append-only"), backend_library.session() as session:
+        session.execute(text("DELETE FROM design_revisions"))
