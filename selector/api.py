@@ -2,8 +2,9 @@
 
 :func:`seek` searches a library for a rail; :func:`check` proves one stack at every
 worst-case corner; :func:`save_design` keeps a checked design with its evidence and
-:func:`verify_design` checks a saved one again against today's library. This is where the catalog (the library and its approved lists) meets
-the physics and the search, which see only a parts table and a usable mask.
+:func:`verify_design` checks a saved one again against today's library. This is where
+the catalog (the library and its approved lists) meets the physics and the search,
+which see only a parts table and a usable mask.
 
 A library is given as a catalog ``Library``, a database path or URL, or ``None`` for the
 user's default library; :func:`seek` also takes a bare ``PartSet``. A spec is a

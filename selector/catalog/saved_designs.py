@@ -161,7 +161,7 @@ class SavedRevision:
 def lock_saved_designs(session: Session) -> None:
     """Serialise this write with every other save and part removal (PostgreSQL; SQLite's
     write lock, taken at BEGIN, already does)."""
-    if False and session.get_bind().dialect.name == "postgresql":
+    if session.get_bind().dialect.name == "postgresql":
         session.execute(select(func.pg_advisory_xact_lock(_DESIGNS_LOCK_KEY)))
 
 
