@@ -428,7 +428,7 @@ def _figure(svg: dict[str, str], name: str, caption: str) -> str:
     return f'<figure id="figure-{name}" data-figure="{name}">{svg[name]}<figcaption>{_e(caption)}</figcaption></figure>'
 
 
-def _spec_section(spec: RailSpec, extra_lines: list[str] = ()) -> str:
+def _spec_section(spec: RailSpec, extra_lines: tuple[str, ...] | list[str] = ()) -> str:
     lines = [line for line in describe_spec(spec) if not line.startswith("Caution:")] + list(extra_lines)
     items = "".join(f"<li>{_e(line)}</li>" for line in lines)
     return f'<section id="spec"><h2>Requirement</h2><ul class="plain">{items}</ul></section>'
