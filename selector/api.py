@@ -1,8 +1,10 @@
 """The library API: what a notebook, a script or the command line calls.
 
 :func:`seek` searches a library for a rail; :func:`check` proves one stack at every
-worst-case corner. This is where the catalog (the library and its approved lists) meets
-the physics and the search, which see only a parts table and a usable mask.
+worst-case corner; :func:`save_design` keeps a checked design with its evidence and
+:func:`verify_design` checks a saved one again against today's library. This is where
+the catalog (the library and its approved lists) meets the physics and the search,
+which see only a parts table and a usable mask.
 
 A library is given as a catalog ``Library``, a database path or URL, or ``None`` for the
 user's default library; :func:`seek` also takes a bare ``PartSet``. A spec is a
@@ -233,3 +235,173 @@ def check(
         monte_carlo=monte_carlo,
     )
     return CheckResult(design, warnings, conditions)
+
+
+#: Keys of ``check --json`` a saved design keeps: the contract's figures (no corners) and
+#: the infeasibility reason.
+FIGURE_KEYS: tuple[str, ...] = (
+    "resistor_ohm", "vout_nom_v", "vout_low_v", "vout_high_v", "error_v", "margin", "i_min_a", "feasible",
+    "meets", "reason",
+)  # fmt: skip
+
+
+def design_figures(result: CheckResult) -> dict:
+    """The :data:`FIGURE_KEYS` of a checked design, as ``check --json`` gives them."""
+    from selector.views.check_view import check_json
+
+    document = check_json(result.design)
+    return {key: document[key] for key in FIGURE_KEYS}
+
+
+def _spec_source(spec):
+    from selector.spec.spec_source import SpecSource, read_spec_source
+
+    return spec if isinstance(spec, SpecSource) else read_spec_source(spec, {})[1]
+
+
+def save_design(spec, library, name: str, stack: str, resistor: float | None = None, *, reason: str,
+                by: str | None = None):
+    """Check a design (:func:`check`) and save it as the next revision of ``name``.
+
+    Parameters
+    ----------
+    spec : SpecSource or path of a spec TOML
+        What the revision keeps as its spec (file text, SHA-256 and options).
+    library : ``selector.catalog.store.Library``, a db path/URL, or None
+    name : str
+        The design's name; a new save of a name adds a revision and keeps the old ones.
+    stack : str
+        Stack notation.
+    resistor : float [Ω], optional
+        As for :func:`check`.
+    reason : str
+        Why it is saved (required).
+    by : str, optional
+        Who saves it; default the login name.
+
+    Returns
+    -------
+    saved : selector.catalog.saved_designs.SavedRevision
+    result : CheckResult
+    """
+    from selector import __version__
+    from selector.catalog import saved_designs
+    from selector.catalog.design_snapshot import part_snapshot
+    from selector.spec.stack_notation import expand_stack, format_stack, parse_stack
+
+    saved_designs.check_design_name(name)
+    saved_designs.check_reason(reason)
+    source = _spec_source(spec)
+    catalog = open_catalog(library)
+    with catalog.session() as session:
+        snapshot = part_snapshot(session, expand_stack(parse_stack(stack)))
+    result = check(source.load(), catalog, stack, resistor)
+    design = result.design
+    content = saved_designs.DesignContent(
+        spec_source=source, stack=format_stack(design.elements), resistor_ohm=design.resistor_ohm,
+        resistor_chosen=design.resistor_chosen, list_name=design.spec.list_name, feasible=result.feasible,
+        meets=result.meets, list_allows=not result.list_warnings, figures=design_figures(result),
+        list_warnings=list(result.list_warnings), list_conditions=list(result.list_conditions), snapshot=snapshot,
+    )
+    saved = saved_designs.save_revision(catalog, name, content, reason=reason, by=by,
+                                        schema_revision=catalog.schema_revision(), tool_version=__version__)
+    return saved, result
+
+
+@dataclass(frozen=True)
+class DesignVerification:
+    """A saved design's latest revision checked again against today's library and lists.
+
+    Attributes
+    ----------
+    saved : selector.catalog.saved_designs.SavedRevision
+    result : CheckResult or None
+        Today's check of the same stack and resistor; None when it cannot run.
+    figures : dict or None
+        Today's :data:`FIGURE_KEYS`.
+    field_changes, status_changes : list
+        :func:`selector.catalog.design_snapshot.snapshot_changes` against the snapshot.
+    problems : list of str
+        Why the design cannot be checked again (a part gone, a list renamed …).
+    """
+
+    saved: object
+    result: CheckResult | None
+    figures: dict | None
+    field_changes: list = field(default_factory=list)
+    status_changes: list = field(default_factory=list)
+    problems: list[str] = field(default_factory=list)
+
+    @property
+    def list_warnings(self) -> list[str]:
+        return list(self.result.list_warnings) if self.result is not None else []
+
+    @property
+    def positive(self) -> bool:
+        """Still meets the spec, and its list still allows every part."""
+        return self.result is not None and self.result.meets and not self.result.list_warnings and not self.problems
+
+    @property
+    def verdict(self) -> str:
+        from selector.catalog.saved_designs import verdict_text
+
+        if self.result is None:
+            return "cannot be checked again: " + "; ".join(self.problems)
+        return verdict_text(self.result.meets, self.result.feasible, not self.result.list_warnings,
+                            str(self.figures["reason"]))
+
+    def figure_changes(self) -> list[tuple[str, object, object]]:
+        """``(key, saved, today)`` for every figure that differs (exactly) from the save."""
+        if self.figures is None:
+            return []
+        saved = self.saved.content.figures
+        return [(key, saved.get(key), self.figures[key]) for key in FIGURE_KEYS if saved.get(key) != self.figures[key]]
+
+    @property
+    def unchanged(self) -> bool:
+        """Nothing differs from the save: data, statuses, figures and verdict."""
+        return not (self.field_changes or self.status_changes or self.problems or self.figure_changes()) and \
+            self.verdict == self.saved.content.verdict
+
+
+def verify_design(library, saved, *, samples: int | None = None, seed: int = 0) -> DesignVerification:
+    """Check a saved design's revision again, with its own spec, stack and resistor.
+
+    Parameters
+    ----------
+    library : ``selector.catalog.store.Library``, a db path/URL, or None
+    saved : str or SavedRevision
+        A design name (its latest revision is checked) or a revision read before.
+    samples, seed : int
+        Monte Carlo units and seed, as for :func:`check` (none by default).
+    """
+    from selector.catalog import saved_designs
+    from selector.catalog.design_snapshot import part_snapshot, snapshot_changes
+    from selector.errors import RailwrightError
+
+    catalog = open_catalog(library)
+    if isinstance(saved, str):
+        saved = saved_designs.saved_revision(catalog, saved)
+    content = saved.content
+    with catalog.session() as session:
+        today = part_snapshot(session, saved.parts_used)
+    field_changes, status_changes, missing = snapshot_changes(content.snapshot, today)
+    problems = [f"{part} is no longer in the library" for part in missing]
+    result = None
+    if not missing:
+        label = f"saved design '{saved.name}': {content.spec_source.file_name or 'spec options'}"
+        try:
+            result = check(content.spec_source.load(label), catalog, content.stack, content.resistor_ohm,
+                           samples=samples, seed=seed)
+        except RailwrightError as error:
+            problems.append(str(error))
+    figures = design_figures(result) if result is not None else None
+    return DesignVerification(saved, result, figures, field_changes, status_changes, problems)
+
+
+def verify_designs(library, names: Sequence[str] | None = None) -> list[DesignVerification]:
+    """:func:`verify_design` for the latest revision of each named design (default all), by name."""
+    from selector.catalog.saved_designs import latest_revisions
+
+    catalog = open_catalog(library)
+    return [verify_design(catalog, saved) for saved in latest_revisions(catalog, names)]

@@ -97,6 +97,14 @@ _KNEE_NEAR_ONE_CASE = ([{"part": "RB-0", "family": "zener", "vz_v": 12.644321102
                          "tc_tol_v_per_k": 0.0031363141033553337, "pd_w": 0.12786862277179029,
                          "tj_max_c": 105.01782798167471}], 1)  # fmt: skip
 
+#: An LED whose tempco is positive near the ambient and negative when hot (xti 9, eg 0.74):
+#: the per-element junction solve from Ta once ended on a false runaway at 47 °C where the
+#: stack's steady state is 1094 °C.
+_TEMPCO_SIGN_CHANGE_CASE = ([{"part": "RB-0", "family": "led", "is_a": 1e-20, "n": 1.0, "rs_ohm": 1e-09,
+                              "eg_ev": 0.7358602534748728, "xti": 9.0, "vf_tol_v": 0.011045442794324692,
+                              "tnom_c": -19.327882858828385, "tc_tol_v_per_k": 0.0, "pd_w": 0.14010580996580269,
+                              "tj_max_c": 100.0}], 1)  # fmt: skip
+
 
 def _random_points(rng, part_count: int):
     """POINTS random stacks of up to four of the parts and their conditions: stacks, supply,
@@ -118,6 +126,7 @@ def _random_points(rng, part_count: int):
 @example(problem=_NO_ALLOWED_POWER_CASE)
 @example(problem=_LOOP_GAIN_AT_AMBIENT_CASE)
 @example(problem=_KNEE_NEAR_ONE_CASE)
+@example(problem=_TEMPCO_SIGN_CHANGE_CASE)
 def test_random_valid_points_are_solved_within_1_nV_or_flagged_with_a_reason(problem):
     records, seed = problem
     parts = PartSet.from_records(records)

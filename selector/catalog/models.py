@@ -2,7 +2,7 @@
 
 Parts and the import log (revision 0001); approved-parts lists, their entries and the
 append-only audit trail (revision 0002); the temperature-coefficient spread of a part
-(revision 0003).
+(revision 0003); saved designs and their append-only revisions (revision 0005).
 
 The database schema is made only by the Alembic migrations in ``migrations/``; these
 models describe the same schema for queries, and a test asserts the two never drift
@@ -18,6 +18,7 @@ from __future__ import annotations
 from datetime import UTC, datetime
 
 from sqlalchemy import (
+    Boolean,
     CheckConstraint,
     DateTime,
     Float,
@@ -52,6 +53,7 @@ SOURCE_LENGTH = 500
 LIST_NAME_LENGTH = 100
 PERSON_LENGTH = 128
 EVENT_ACTION_LENGTH = 32
+DESIGN_NAME_LENGTH = 100
 
 #: SQL text of the family CHECK constraint, shared with the initial migration.
 FAMILY_CHECK_SQL = "family IN (" + ", ".join(f"'{family}'" for family in FAMILIES) + ")"
@@ -193,6 +195,61 @@ class AuditEvent(Base):
     old_value: Mapped[str | None] = mapped_column(Text)
     new_value: Mapped[str | None] = mapped_column(Text)
     reason: Mapped[str] = mapped_column(Text)
+
+
+class SavedDesign(Base):
+    """One saved design, by name; its content is in its revisions (revision 0005)."""
+
+    __tablename__ = "saved_designs"
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    name: Mapped[str] = mapped_column(String(DESIGN_NAME_LENGTH), unique=True)
+    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True), default=utc_now)
+    created_by: Mapped[str] = mapped_column(String(PERSON_LENGTH))
+
+
+class DesignRevision(Base):
+    """One save of a design: what was checked, what it gave, and the evidence it rested on.
+
+    Append-only: revision 0005 installs triggers that make the database refuse UPDATE
+    and DELETE on this table, as for the audit events. ``parts_used`` (a JSON list of
+    part ids) and ``snapshot`` (JSON: each used part's record and list entries) are
+    text, not foreign keys, so a revision stays readable whatever happens to the parts.
+    """
+
+    __tablename__ = "design_revisions"
+    __table_args__ = (UniqueConstraint("design_id", "revision"),)
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    design_id: Mapped[int] = mapped_column(ForeignKey("saved_designs.id", ondelete="RESTRICT"))
+    #: 1 for the first save of a name, then 2, 3, …
+    revision: Mapped[int] = mapped_column(Integer)
+    saved_at: Mapped[datetime] = mapped_column(DateTime(timezone=True), default=utc_now)
+    saved_by: Mapped[str] = mapped_column(String(PERSON_LENGTH))
+    reason: Mapped[str] = mapped_column(Text)
+    #: The spec: file name as given (NULL when options gave everything), text, SHA-256
+    #: of its bytes, and the options given as a JSON object.
+    spec_file: Mapped[str | None] = mapped_column(String(1000))
+    spec_text: Mapped[str] = mapped_column(Text)
+    spec_sha256: Mapped[str | None] = mapped_column(String(64))
+    spec_options: Mapped[str] = mapped_column(Text)
+    stack: Mapped[str] = mapped_column(Text)
+    resistor_ohm: Mapped[float] = mapped_column(Float)
+    resistor_chosen: Mapped[bool] = mapped_column(Boolean)
+    list_name: Mapped[str | None] = mapped_column(String(LIST_NAME_LENGTH))
+    feasible: Mapped[bool] = mapped_column(Boolean)
+    meets: Mapped[bool] = mapped_column(Boolean)
+    #: Whether the spec's list allowed every part (true without a list).
+    list_allows: Mapped[bool] = mapped_column(Boolean)
+    #: JSON: the contract figures of ``check --json`` (without the corners).
+    figures: Mapped[str] = mapped_column(Text)
+    #: JSON: the list's warnings and conditions of use at the save.
+    list_notes: Mapped[str] = mapped_column(Text)
+    parts_used: Mapped[str] = mapped_column(Text)
+    snapshot: Mapped[str] = mapped_column(Text)
+    library_sha256: Mapped[str] = mapped_column(String(64))
+    schema_revision: Mapped[str] = mapped_column(String(32))
+    tool_version: Mapped[str] = mapped_column(String(32))
 
 
 #: Text columns of a part record, and every column a record carries.

@@ -489,22 +489,33 @@ class Library:
         A part that an approved-parts list references is not removed (refusal, not
         retirement): it must be taken off every list first (``approved drop``), or be
         kept and marked ``banned`` or ``no-new-design`` there, which keeps it out of
-        every design while its record stays readable.
+        every design while its record stays readable. Nor is a part that the latest
+        revision of a saved design uses (:mod:`selector.catalog.saved_designs`).
 
         Raises
         ------
         UnknownPartError
             When the part is not in the library.
         LibraryError
-            When lists reference the part; the message names each list and status.
+            When lists reference the part (the message names each list and status), or
+            saved designs use it (the message names each design).
         """
+        from selector.catalog.saved_designs import designs_using, lock_saved_designs, used_by_text
+
         actor = audit.person(by)
         why = (reason or "").strip() or "removed from the library"
 
         def work(session: Session) -> None:
+            lock_saved_designs(session)
             found = session.scalar(select(Part).where(Part.part == part))
             if found is None:
                 raise UnknownPartError(f"unknown part '{part}' (not in the library {self.location_text()})")
+            users = designs_using(session, part)
+            if users:
+                raise LibraryError(
+                    f"cannot remove {part}: the saved design(s) {used_by_text(users)} use it; mark it banned or "
+                    "no-new-design on its lists instead (the saved snapshots keep its data either way)"
+                )
             on_lists = session.execute(
                 select(ApprovedList.name, ListEntry.status)
                 .join(ListEntry, ListEntry.list_id == ApprovedList.id)

@@ -30,6 +30,7 @@ COMMAND_MODULES: dict[str, str] = {
     "report": "report_command",
     "approved": "approved_commands",
     "history": "history_command",
+    "designs": "designs_command",
 }
 
 #: Top-level command name → its help's first sentence, for the command list of
@@ -40,10 +41,12 @@ COMMAND_SUMMARIES: dict[str, str] = {
     "parts": "The shop's parts library: forward diodes, LEDs and zeners.",
     "check": "Solve one stack and series resistor at all 32 worst-case corners and report.",
     "seek": "Search every stack of up to max_parts library parts for the rail; list the best.",
-    "report": "Write a design review as one HTML file: spec, shortlist, corners, margins, plots.",
+    "report": "Write a design review as one HTML file: spec, shortlist, corners, margins, plots, each "
+    "used part's approval and data, provenance and sign-off lines.",
     "approved": "The shop's approved-parts lists: which parts may be designed in, and why.",
+    "designs": "Saved designs: a checked stack and resistor kept with its evidence, re-verified later.",
     "history": "Show who changed what, when (UTC), old → new, and why: imports, edits, status "
-    "changes and removals of parts and list entries, oldest first.",
+    "changes and removals of parts and list entries, and saves of designs, oldest first.",
 }
 
 

@@ -6,7 +6,7 @@ import click
 
 from selector.catalog import approved_lists, list_changes
 from selector.catalog.approved_list_csv import import_list_file, load_list_csv, write_list_csv
-from selector.spec.list_statuses import LIST_STATUSES
+from selector.spec.list_statuses import LIST_STATUSES, UNUSABLE_STATUSES
 from selector.views.part_sheet import format_table
 
 _BY_HELP = "Who makes the change (default: your login name)."
@@ -100,11 +100,28 @@ def set_command(state, list_name, part, status, reason, by, condition) -> None:
           --condition "only below 40 °C ambient"
       railwright approved set line-a D-REC1 banned --reason "supplier discontinued" --by "J. Roe"
     """
-    plan = list_changes.set_status(
-        state.library(), list_name, part, status, reason=reason, by=by, condition=condition
-    )
+    library = state.library()
+    plan = list_changes.set_status(library, list_name, part, status, reason=reason, by=by, condition=condition)
     for line in plan.lines():
         click.echo(f"{list_name}: {line}")
+    if not plan.unchanged:
+        _echo_designs_affected(library, list_name.strip(), part.strip(), status.strip().lower())
+
+
+def _echo_designs_affected(library, list_name: str, part: str, status: str) -> None:
+    """Name the saved designs on this list whose latest revision uses the part."""
+    from selector.catalog.saved_designs import used_by_text, where_used
+
+    users = where_used(library, part, list_name)
+    if not users:
+        return
+    names = " ".join(f"'{name}'" if " " in name else name for name, _ in users)
+    if status in UNUSABLE_STATUSES:
+        click.echo(f"{list_name}: {part} is now {status} in the saved design(s) {used_by_text(users)}; "
+                   f"'railwright designs verify {names}' fails them until they are saved without it")
+    else:
+        click.echo(f"{list_name}: {part} is used by the saved design(s) {used_by_text(users)}; "
+                   f"check them again with 'railwright designs verify {names}'")
 
 
 @approved_group.command("drop")

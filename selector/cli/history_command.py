@@ -6,6 +6,7 @@ import click
 
 from selector.catalog.approved_lists import check_history_subject
 from selector.catalog.audit import HISTORY_COLUMNS, history, parse_since
+from selector.catalog.saved_designs import ACTION_DESIGN_SAVED
 from selector.files.csv_writer import write_rows
 
 #: Longest old or new value shown on the terminal; ``--csv`` keeps every character.
@@ -19,6 +20,9 @@ def _shortened(text: str) -> str:
 
 
 def _event_line(row: dict) -> str:
+    if row["action"] == ACTION_DESIGN_SAVED:
+        on = f" (list '{row['list']}')" if row["list"] else ""
+        return f"{row['when_utc']}  {row['who']}  {row['action']}{on}: {_shortened(row['new'])}; why: {row['why']}"
     if row["part"]:
         subject = row["part"] + (f" on '{row['list']}'" if row["list"] else "")
     else:
@@ -42,7 +46,7 @@ def _event_line(row: dict) -> str:
 @click.pass_obj
 def history_command(state, part: str | None, list_name: str | None, since: str | None, csv_path: str | None) -> None:
     """Show who changed what, when (UTC), old → new, and why: imports, edits, status
-    changes and removals of parts and list entries, oldest first.
+    changes and removals of parts and list entries, and saves of designs, oldest first.
 
     The trail is append-only: the library refuses to change or delete an event.
     """

@@ -72,13 +72,19 @@ def list_command(state, families: tuple[str, ...], csv_path: str | None) -> None
 @click.argument("part")
 @click.pass_obj
 def show_command(state, part: str) -> None:
-    """Show every parameter of PART with its unit, and derived values at 25 °C.
+    """Show every parameter of PART with its unit, derived values at 25 °C, and the saved
+    designs whose latest revision uses it.
 
     \b
     Example:
       railwright parts show D-SIG1
     """
-    lines = part_sheet(state.library().part_record(part.strip()))
+    from selector.catalog.saved_designs import used_by_text, where_used
+
+    library = state.library()
+    lines = part_sheet(library.part_record(part.strip()))
+    users = where_used(library, part.strip())
+    lines.append(("used by saved designs", used_by_text(users) if users else "none"))
     width = max(len(label) for label, _ in lines)
     for label, text in lines:
         click.echo(f"{label.ljust(width)}  {text}".rstrip())
@@ -207,7 +213,8 @@ def export_command(state, csv_file: str, families: tuple[str, ...]) -> None:
 @click.option("--by", default=None, help="Who removes it (default: your login name).")
 @click.pass_obj
 def remove_command(state, part: str, reason: str | None, by: str | None) -> None:
-    """Remove PART from the library (refused while an approved list names it).
+    """Remove PART from the library (refused while an approved list names it or a saved
+    design uses it).
 
     \b
     Example:

@@ -72,12 +72,27 @@ def spec_options(command: Callable) -> Callable:
     ``spec``; a bad value raises :class:`selector.errors.SpecError` naming the file and
     key or the option, which the ``railwright`` group reports as one ``Error:`` line.
     """
+    return _with_spec_options(command, lambda path, overrides: {"spec": load_spec(path, overrides)})
 
+
+def spec_source_options(command: Callable) -> Callable:
+    """Like :func:`spec_options`, but the command reads the spec itself.
+
+    The command receives ``spec_path`` (the ``--spec`` value or None) and
+    ``spec_overrides`` (``"section.key"`` → the text of each spec option given), e.g. to
+    keep the spec's source (:func:`selector.spec.spec_source.read_spec_source`) or to
+    take the spec from somewhere else.
+    """
+    return _with_spec_options(command, lambda path, overrides: {
+        "spec_path": path, "spec_overrides": {key: value for key, value in overrides.items() if value is not None}})
+
+
+def _with_spec_options(command: Callable, hand_over: Callable[[str | None, dict], dict]) -> Callable:
     @functools.wraps(command)
     def with_spec(*args, **kwargs):
         spec_path = kwargs.pop("spec_path")
         overrides = {dotted: kwargs.pop(_parameter_name(dotted)) for dotted in OPTION_FOR_KEY}
-        kwargs["spec"] = load_spec(spec_path, overrides)
+        kwargs.update(hand_over(spec_path, overrides))
         return command(*args, **kwargs)
 
     for dotted in reversed(OPTION_FOR_KEY):

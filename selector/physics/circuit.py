@@ -48,12 +48,12 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
 
 import numpy as np
 
 from selector.physics.bracketed_newton import solve_block
-from selector.physics.devices import JUNCTION_CEILING_C, self_heated_element
+from selector.physics.devices import JUNCTION_CEILING_C, ElementState, self_heated_element
 from selector.physics.fast_newton import Workspace, newton_block
 from selector.physics.partset import PartSet
 from selector.physics.slot_constants import (
@@ -254,7 +254,7 @@ def solve_operating_points(
     if detail:
         conducting = status == STATUS_SOLVED
         result.update(_element_detail(parts, stacks, log_current, conditions[2], element_sign, element_spread,
-                                      conducting))  # fmt: skip
+                                      conducting, result["hottest_junction_c"]))  # fmt: skip
     return OperatingPoints(**result)
 
 
@@ -419,9 +419,13 @@ def solve_stack_corners(
     return OperatingPoints(**result)
 
 
-def _element_detail(parts, stacks, log_current, ambient, sign, spread, conducting):
+def _element_detail(parts, stacks, log_current, ambient, sign, spread, conducting, hottest_c):
     """Per-element state at the solved currents (exact junction solve per element); an
-    element carrying no current (stack off, or no solution) shows 0 V, 0 W, the ambient."""
+    element carrying no current (stack off, or no solution) shows 0 V, 0 W, the ambient.
+
+    A forward element whose tempco is positive near the ambient and negative when hot can
+    leave the Newton solve from ``Tj = Ta`` on a false runaway; it is solved again from the
+    stack's hottest junction (``hottest_c`` [°C]), next to the steady state the stack found."""
     shape = stacks.shape
     junction = np.broadcast_to(ambient[:, None], shape).copy()
     voltage = np.zeros(shape)
@@ -433,11 +437,26 @@ def _element_detail(parts, stacks, log_current, ambient, sign, spread, conductin
             parts, stacks[rows, slots], log_current[rows], ambient[rows], sign[rows, slots],
             tc_spread_sign=spread[rows, slots],
         )
+        if state.runaway.any():
+            again = np.nonzero(state.runaway)[0]
+            retried = self_heated_element(
+                parts, stacks[rows[again], slots[again]], log_current[rows[again]], ambient[rows[again]],
+                sign[rows[again], slots[again]], junction_guess_c=hottest_c[rows[again]],
+                tc_spread_sign=spread[rows[again], slots[again]],
+            )
+            state = ElementState(**{field.name: _replaced(getattr(state, field.name), getattr(retried, field.name), again)
+                                    for field in fields(ElementState)})
         junction[rows, slots] = state.junction_c
         voltage[rows, slots] = state.voltage_v
         power[rows, slots] = state.voltage_v * np.exp(log_current[rows])
         gain[rows, slots] = state.loop_gain
     return dict(junction_c=junction, element_voltage_v=voltage, element_power_w=power, element_loop_gain=gain)
+
+
+def _replaced(values: np.ndarray, replacements: np.ndarray, where: np.ndarray) -> np.ndarray:
+    values = values.copy()
+    values[where] = replacements
+    return values
 
 
 def family_slots(parts: PartSet, stacks: np.ndarray, element_sign: np.ndarray | None = None) -> tuple[np.ndarray, ...]:

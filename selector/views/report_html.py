@@ -54,12 +54,15 @@ class CandidateReview:
         :func:`selector.views.check_view.check_json` of the design (corners, margins, cautions).
     conditions : str
         Conditions of use of its parts from the approved list (empty when none).
+    list_warnings : tuple of str
+        One line per part the spec's list does not allow (a verdict-level failure).
     """
 
     rank: int | None
     design: CheckedDesign
     document: dict
     conditions: str = ""
+    list_warnings: tuple[str, ...] = ()
 
     @property
     def key(self) -> str:
@@ -90,6 +93,8 @@ class ReviewReport:
     library_location, schema_revision : str
     generated : datetime.datetime
         When the report was made (UTC).
+    evidence : selector.views.report_evidence.ReportEvidence, optional
+        Approvals, parts data, provenance and sign-off (see that module).
     """
 
     spec: RailSpec
@@ -100,6 +105,7 @@ class ReviewReport:
     library_location: str
     schema_revision: str
     generated: datetime.datetime
+    evidence: object | None = None
 
 
 # Gathering -------------------------------------------------------------------------------
@@ -166,6 +172,8 @@ def search_review(
     resolution_v: float = DEFAULT_RESOLUTION_V,
     force: bool = False,
     progress=None,
+    spec_source=None,
+    prepared_by: str | None = None,
 ) -> ReviewReport:
     """Search the library and gather the report of its shortlist.
 
@@ -187,8 +195,11 @@ def search_review(
         Monte Carlo samples and seed of each detailed design.
     rank_by, resolution_v, force, progress
         As for :func:`selector.search.engine.seek`.
+    spec_source, prepared_by
+        For the evidence sections (:func:`selector.views.report_evidence.gather_evidence`).
     """
     from selector.api import seek
+    from selector.views.report_evidence import gather_evidence
 
     if scatter_designs < 1:
         raise OptionError(f"--scatter: must be at least 1, not {scatter_designs}")
@@ -205,11 +216,13 @@ def search_review(
                       rank=int(row.rank), conditions=str(row.conditions or ""))
         for row in shortlist.itertuples()
     ]
+    evidence = gather_evidence(library, spec, candidates, spec_source=spec_source, prepared_by=prepared_by)
     return ReviewReport(spec, candidates, shortlist, summary, found, library.location_text(),
-                        library.schema_revision(), _now())
+                        evidence.schema_revision, _now(), evidence=evidence)
 
 
-def design_review(spec: RailSpec, library, stack_text: str, *, samples: int = DEFAULT_SAMPLES, seed: int = 0) -> ReviewReport:
+def design_review(spec: RailSpec, library, stack_text: str, *, samples: int = DEFAULT_SAMPLES, seed: int = 0,
+                  spec_source=None, prepared_by: str | None = None) -> ReviewReport:
     """Gather the report of one design (``--stack``; resistor from the spec or chosen).
 
     Parameters
@@ -221,12 +234,19 @@ def design_review(spec: RailSpec, library, stack_text: str, *, samples: int = DE
         Stack notation, e.g. ``"2*D-SIG1 + Z4V7-A"``.
     samples, seed : int
         Monte Carlo samples and seed.
+    spec_source, prepared_by
+        For the evidence sections (:func:`selector.views.report_evidence.gather_evidence`).
     """
     from selector.api import check
+    from selector.views.report_evidence import gather_evidence
 
-    design = check(spec, library, stack_text, samples=samples, seed=seed).design
-    candidate = CandidateReview(rank=None, design=design, document=check_json(design), conditions="")
-    return ReviewReport(spec, [candidate], None, None, None, library.location_text(), library.schema_revision(), _now())
+    result = check(spec, library, stack_text, samples=samples, seed=seed)
+    design = result.design
+    candidate = CandidateReview(rank=None, design=design, document=check_json(design),
+                                conditions="; ".join(result.list_conditions), list_warnings=tuple(result.list_warnings))
+    evidence = gather_evidence(library, spec, [candidate], spec_source=spec_source, prepared_by=prepared_by)
+    return ReviewReport(spec, [candidate], None, None, None, library.location_text(), evidence.schema_revision, _now(),
+                        evidence=evidence)
 
 
 # Figures ---------------------------------------------------------------------------------
@@ -408,8 +428,8 @@ def _figure(svg: dict[str, str], name: str, caption: str) -> str:
     return f'<figure id="figure-{name}" data-figure="{name}">{svg[name]}<figcaption>{_e(caption)}</figcaption></figure>'
 
 
-def _spec_section(spec: RailSpec) -> str:
-    lines = [line for line in describe_spec(spec) if not line.startswith("Caution:")]
+def _spec_section(spec: RailSpec, extra_lines: tuple[str, ...] | list[str] = ()) -> str:
+    lines = [line for line in describe_spec(spec) if not line.startswith("Caution:")] + list(extra_lines)
     items = "".join(f"<li>{_e(line)}</li>" for line in lines)
     return f'<section id="spec"><h2>Requirement</h2><ul class="plain">{items}</ul></section>'
 
@@ -536,11 +556,14 @@ def _monte_carlo_caption(design: CheckedDesign) -> str:
 
 
 def _candidate_section(candidate: CandidateReview, svg: dict[str, str]) -> str:
+    from selector.views import report_evidence as evidence_sections
+
     key, document = candidate.key, candidate.document
     how = "chosen from the series" if candidate.design.resistor_chosen else "as given"
     parts = [
         f'<article class="candidate" id="{key}" data-stack="{_e(document["stack"])}">',
         f"<h2>{_e(candidate.title)}</h2>",
+        evidence_sections.candidate_failure(candidate),
         f'<p><span class="verdict">{_e(_verdict(document))}</span> Series resistor '
         f"{_e(format_quantity(candidate.design.resistor_ohm, 'Ω'))} ({_e(how)}).</p>",
         _metrics_list(document),
@@ -588,11 +611,13 @@ def _cautions_section(report: ReviewReport) -> str:
 
 def _footer(report: ReviewReport) -> str:
     when = report.generated.astimezone(datetime.UTC).strftime("%Y-%m-%d %H:%M:%S UTC")
+    demo = report.evidence is None or report.evidence.uses_demo_parts
     return (
         f'<footer id="footer"><p>Library: <span data-field="library">{_e(report.library_location)}</span>; '
         f'schema revision <span data-field="schema">{_e(report.schema_revision or "none")}</span>. '
         f'Report made <time data-field="time" datetime="{_e(report.generated.isoformat())}">{_e(when)}</time> by '
-        f"railwright {_e(__version__)}. Parts data in the bundled demo library is invented.</p></footer>"
+        f"railwright {_e(__version__)}."
+        + (" Parts data in the bundled demo library is invented." if demo else "") + "</p></footer>"
     )
 
 
@@ -618,15 +643,21 @@ def render_html(report: ReviewReport, svg: dict[str, str]) -> str:
     else:
         title = f"Rail design review: {window}, {report.candidates[0].document['stack']}"
         lead = "The worst-case proof of one design."
-    body = [f"<h1>{_e(title)}</h1>", f'<p class="lead">{_e(lead)}</p>', _spec_section(spec)]
+    from selector.views import report_evidence as evidence
+    from selector.views.saved_design_report import saved_design_section
+
+    body = [f"<h1>{_e(title)}</h1>", f'<p class="lead">{_e(lead)}</p>', evidence.approval_failure_section(report),
+            evidence.demo_notice(report), saved_design_section(report),
+            _spec_section(spec, evidence.requirement_lines(report))]
     if report.shortlist is not None:
         body += [_search_section(report, svg), _shortlist_section(report)]
     body += [_candidate_section(candidate, svg) for candidate in report.candidates]
-    body += [_cautions_section(report), _footer(report)]
+    body += [evidence.approval_section(report), evidence.parameters_section(report), _cautions_section(report),
+             evidence.provenance_section(report), evidence.signoff_section(report), _footer(report)]
     return (
         '<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8">'
         '<meta name="viewport" content="width=device-width, initial-scale=1">'
-        f"<title>{_e(title)}</title><style>{STYLE_SHEET}</style></head>"
+        f"<title>{_e(title)}</title><style>{STYLE_SHEET}{evidence.EVIDENCE_STYLE}</style></head>"
         f"<body><main>{''.join(body)}</main></body></html>\n"
     )
 
