@@ -9,7 +9,7 @@ import dataclasses
 
 import numpy as np
 import pytest
-from test_search import brute_force, invented_parts, rail
+from test_search import V2_TERMS, brute_force, invented_parts, rail
 
 from selector.errors import SearchError
 from selector.physics.corners import REASON_NAMES, evaluate_designs
@@ -26,9 +26,13 @@ def brute_choice(values, error, feasible_row):
     return values[np.flatnonzero(errors <= best + 1e-9).max()]
 
 
-@pytest.mark.parametrize("changes", [{}, {"resistor_series": "E24", "target_v": 3.0}, {"load_kind": "resistance", "load_min": 800.0, "load_max": 4000.0}])
-def test_choice_equals_brute_force(changes):
-    parts, spec = invented_parts(), rail(**changes)
+@pytest.mark.parametrize(("changes", "tc_spread"), [
+    ({}, False), ({"resistor_series": "E24", "target_v": 3.0}, False),
+    ({"load_kind": "resistance", "load_min": 800.0, "load_max": 4000.0}, False),
+    (V2_TERMS, True), (V2_TERMS | {"resistor_series": "E24", "target_v": 3.0}, True),
+])  # fmt: skip
+def test_choice_equals_brute_force(changes, tc_spread):
+    parts, spec = invented_parts(tc_spread), rail(**changes)
     stacks, values, error, evaluation = brute_force(parts, spec)
     feasible = evaluation.feasible.reshape(len(stacks), values.size)
     chosen, chosen_evaluation = choose_resistors(parts, stacks, spec)
@@ -90,7 +94,8 @@ def test_infeasible_stack_keeps_a_reason():
 
 
 @pytest.mark.parametrize("changes", [{}, {"load_kind": "resistance", "load_min": 800.0, "load_max": 4000.0},
-                                     {"min_margin": 0.3, "ambient_max_c": 85.0}, {"target_v": 3.0, "min_current_a": 1e-3}])
+                                     {"min_margin": 0.3, "ambient_max_c": 85.0}, {"target_v": 3.0, "min_current_a": 1e-3},
+                                     V2_TERMS])
 def test_corner_screen_bounds_the_full_evaluation(changes):
     from test_search import random_invented_library
 

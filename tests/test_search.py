@@ -35,8 +35,17 @@ INVENTED = [
 ]
 
 
-def invented_parts() -> PartSet:
-    return PartSet.from_records(INVENTED)
+#: The same invented parts with a TC spread on every one (physics contract v2).
+INVENTED_WITH_TC_SPREAD = [record | {"tc_tol_v_per_k": 0.4e-3 if record["family"] == "zener" else 0.3e-3}
+                           for record in INVENTED]
+#: Contract v2 terms at once: resistor TCR, the resistor derated from 70 °C, hot ambients
+#: past the derating knee, and a zener current limit.
+V2_TERMS = {"resistor_tcr_per_k": 200e-6, "ambient_min_c": -20.0, "ambient_max_c": 105.0,
+            "resistor_rating_w": 0.5, "resistor_full_power_ambient_c": 70.0, "resistor_zero_power_ambient_c": 155.0}
+
+
+def invented_parts(tc_spread: bool = False) -> PartSet:
+    return PartSet.from_records(INVENTED_WITH_TC_SPREAD if tc_spread else INVENTED)
 
 
 def rail(**changes) -> RailSpec:
@@ -65,13 +74,17 @@ def test_enumeration_counts_every_multiset_once():
     assert np.all(np.diff(sorted_part, axis=1) >= 0)
 
 
-@pytest.mark.parametrize("changes", [{}, {"load_kind": "resistance", "load_min": 1000.0, "load_max": 5000.0},
-                                     {"min_margin": 0.3, "ambient_max_c": 85.0}, {"target_v": 3.0, "tolerance_v": 0.3}])
-def test_bounds_hold_for_every_feasible_design(changes):
-    parts, spec = invented_parts(), rail(**changes)
+@pytest.mark.parametrize(("changes", "tc_spread"), [
+    ({}, False), ({"load_kind": "resistance", "load_min": 1000.0, "load_max": 5000.0}, False),
+    ({"min_margin": 0.3, "ambient_max_c": 85.0}, False), ({"target_v": 3.0, "tolerance_v": 0.3}, False),
+    (V2_TERMS, True), (V2_TERMS | {"zener_izt_limit": 2.0, "tolerance_v": 0.5}, True),
+])  # fmt: skip
+def test_bounds_hold_for_every_feasible_design(changes, tc_spread):
+    parts, spec = invented_parts(tc_spread), rail(**changes)
     stacks, values, error, evaluation = brute_force(parts, spec)
     bounds = bound_stacks(part_bound_tables(parts, spec), stacks, spec)
     feasible = evaluation.feasible.reshape(len(stacks), values.size)
+    assert feasible.any()  # a case with nothing feasible would prove nothing
     vout = evaluation.vout_v.reshape(len(stacks), values.size, 32)
     for row in range(len(stacks)):
         for column in np.flatnonzero(feasible[row]):
@@ -82,13 +95,18 @@ def test_bounds_hold_for_every_feasible_design(changes):
         assert not (bounds.window_empty[row] and feasible[row].any())
 
 
-@pytest.mark.parametrize("changes", [{}, {"target_v": 3.0, "tolerance_v": 0.3}, {"tolerance_v": 0.5}])
-def test_search_shortlist_equals_brute_force(changes):
-    parts, spec = invented_parts(), rail(**changes)
+@pytest.mark.parametrize(("changes", "tc_spread"), [
+    ({}, False), ({"target_v": 3.0, "tolerance_v": 0.3}, False), ({"tolerance_v": 0.5}, False),
+    (V2_TERMS | {"tolerance_v": 0.5}, True), (V2_TERMS | {"target_v": 3.0, "tolerance_v": 0.3}, True),
+    (V2_TERMS | {"zener_izt_limit": 2.0, "tolerance_v": 0.5}, True),
+])  # fmt: skip
+def test_search_shortlist_equals_brute_force(changes, tc_spread):
+    parts, spec = invented_parts(tc_spread), rail(**changes)
     stacks, values, error, _ = brute_force(parts, spec)
     per_stack = error.min(axis=1)
     top = 6
     expected = np.sort(per_stack[np.isfinite(per_stack)])[:top]
+    assert expected.size > 0  # a case that finds nothing would prove little
     shortlist, _, summary = search_library(parts, spec, top=top, resolution_v=1e-12, rank_by="error,parts,margin", workers=1)
     assert summary.considered == len(stacks)
     np.testing.assert_allclose(np.sort(shortlist.evaluation.error_v), expected, rtol=0, atol=1e-12)
@@ -146,6 +164,8 @@ def random_invented_library(seed: int) -> PartSet:
                             izt_a=izt, zzt_ohm=float(rng.uniform(5, 40)), izk_a=izt / 10, zzk_ohm=float(rng.uniform(200, 900)),
                             vz_tol_pct=float(rng.choice([1.0, 5.0])), tc_v_per_k=float(rng.uniform(-3e-3, 3e-3)),
                             pd_w=float(rng.choice([0.25, 0.5]))))
+    if seed >= 6:  # contract v2: a TC spread on every part
+        records = [record | {"tc_tol_v_per_k": float(rng.uniform(0.0, 1e-3))} for record in records]
     return PartSet.from_records(records)
 
 
@@ -173,7 +193,7 @@ def brute_force_shortlist(parts: PartSet, spec: RailSpec, top: int):
     return chosen[order], np.array(resistors)[order], evaluation.error_v[rows][order]
 
 
-@pytest.mark.parametrize("seed", range(6))
+@pytest.mark.parametrize("seed", range(10))
 def test_random_libraries_shortlist_equals_brute_force(seed):
     rng = np.random.default_rng(100 + seed)
     changes = dict(target_v=float(rng.uniform(2.5, 7.0)), tolerance_v=float(rng.choice([0.05, 0.2, 0.5])),
@@ -186,6 +206,11 @@ def test_random_libraries_shortlist_equals_brute_force(seed):
         changes.update(resistor_min_ohm=100.0, resistor_max_ohm=2200.0)
     if seed == 4:
         changes.update(resistor_fixed_ohm=680.0)
+    if seed >= 6:  # contract v2: resistor TCR, hot ambients past the derating knee
+        changes.update(resistor_tcr_per_k=float(rng.choice([100e-6, 400e-6])), ambient_max_c=float(rng.uniform(75, 125)),
+                       ambient_min_c=-40.0, resistor_rating_w=0.5)
+    if seed == 8:
+        changes.update(zener_izt_limit=3.0)
     parts, spec = random_invented_library(seed), rail(**changes)
     expected_stacks, expected_r, expected_error = brute_force_shortlist(parts, spec, top=5)
     shortlist, _, _ = search_library(parts, spec, top=5, workers=1)
