@@ -47,6 +47,8 @@ from selector.physics.solver_settings import (
 
 #: Rounding units of ``F``'s terms within which a closed bracket's residual counts as solved.
 ROUNDING_ULPS = 32.0
+#: Newton steps of the junction settling in the second, settled pass.
+MAX_SETTLE_STEPS = 60
 #: Largest residual a closed bracket may be accepted with [V].
 ROUNDING_FLOOR_CEILING_V = 1e-6
 #: How far the bracket's top moves up when ``F`` is still positive there [ln A].
@@ -168,8 +170,15 @@ def _start(fw: _Family, zn: _Family, supply, resistor, ambient, load_fixed, load
 
 
 def solve_block(parts, forward_part, forward_count, forward_sign, forward_spread, breakdown_part, breakdown_count,
-                breakdown_sign, breakdown_spread, supply, resistor, ambient, load_fixed, load_conductance):  # fmt: skip
+                breakdown_sign, breakdown_spread, supply, resistor, ambient, load_fixed, load_conductance,
+                settle_first=False):  # fmt: skip
     """Solve one block of points that share a slot layout; see the module docstring.
+
+    A point the coupled iteration leaves unconverged is solved once more with every
+    forward junction settled at each trial current before the sign of ``F`` is judged
+    (``settle_first``): slower, but each bracket step is then exact. The coupled step
+    judges ``F`` with junctions one Newton step behind the current, which a bisection
+    far from the root can leave on the wrong side for good.
 
     Returns
     -------
@@ -210,20 +219,44 @@ def solve_block(parts, forward_part, forward_count, forward_sign, forward_spread
             work = {name: value[active] for name, value in work.items()}
             index = index[active]
             active = np.ones(index.size, dtype=bool)
-        finished, pinned = _iteration(fw, zn, work, active, index, status, out)
+        finished, pinned = _iteration(fw, zn, work, active, index, status, out, settle_first)
         active &= ~finished
     if active.any():
         # Out of iterations with a junction held at the ceiling: it would settle above it.
         status[index[active & pinned]] = STATUS_RUNAWAY
+    retry = np.flatnonzero(status == STATUS_NOT_CONVERGED)
+    if retry.size and not settle_first and lf:
+        inputs = (forward_part, forward_count, forward_sign, forward_spread, breakdown_part, breakdown_count,
+                  breakdown_sign, breakdown_spread, supply, resistor, ambient, load_fixed, load_conductance)
+        again = solve_block(parts, *(value[retry] for value in inputs), settle_first=True)
+        for target, value in zip((out["u"], out["v"], status, out["margin"], out["hottest"], out["tolerance"]), again,
+                                 strict=True):  # fmt: skip
+            target[retry] = value
     return out["u"], out["v"], status, out["margin"], out["hottest"], out["tolerance"]
 
 
-def _iteration(fw, zn, work, active, index, status, out):
+def _settle_junctions(fw, u, current, junction_f):
+    """Forward junctions settled at fixed currents: Newton on ``Tj − Ta − θ·I·V(I, Tj)``."""
+    floor_f = forward_junction_floor_c(fw.ambient, fw.theta * current, fw.offset, fw.spread, fw.tnom_c)
+    for _ in range(MAX_SETTLE_STEPS):
+        v_f, _, dt_f = _forward_terms(fw, u, current, junction_f)
+        heating = fw.theta * current
+        thermal_residual = junction_f - fw.ambient - heating * v_f
+        if not (np.abs(thermal_residual) > THERMAL_TOLERANCE_K).any():
+            break
+        headroom = np.maximum(1.0 - heating * dt_f, 1.0 - RUNAWAY_LOOP_GAIN)
+        junction_f = np.clip(junction_f - thermal_residual / headroom, floor_f, JUNCTION_CEILING_C)
+    return junction_f
+
+
+def _iteration(fw, zn, work, active, index, status, out, settle_first=False):
     """One coupled Newton (or bisection) step of every active point, in place on ``work``;
     finished points are stored in ``status`` and ``out``. Returns (finished, pinned)."""
     u = work["u"]
     current = np.exp(u)
     junction_f = work["junction_f"].T
+    if settle_first and junction_f.size:
+        junction_f = _settle_junctions(fw, u, current, junction_f)
 
     # Forward slots: linearise the thermal equation r = Tj − Ta − θ·I·V = 0.
     v_f, du_f, dt_f = _forward_terms(fw, u, current, junction_f)
@@ -278,10 +311,14 @@ def _iteration(fw, zn, work, active, index, status, out):
     # its terms: a residual within that floor is as solved as double precision allows.
     terms = (work["supply"] + work["resistor"] * (current + np.abs(work["load_fixed"]))
              + load_gain * ((fw.multiplicity * np.abs(v_settled)).sum(axis=0) + (zn.multiplicity * scale_z).sum(axis=0)))
-    # u itself is known to its rounding, which leaves F unresolved by its slope times that;
-    # beyond a microvolt no residual counts as solved.
+    # u itself is known to its rounding, which leaves F unresolved by its slope times that.
+    # F carries the stack voltage times the load gain 1 + R·G_L, so a residual of F is
+    # that gain times the rail's own: beyond a microvolt of rail no residual counts as solved.
+    # And with the root inside the closed bracket, F at u is at most its slope times the
+    # bracket's width away from 0 (mean value theorem).
     rounding = ROUNDING_ULPS * np.finfo(float).eps * (terms + np.abs(slope) * np.maximum(np.abs(u), 1.0))
-    floor = np.clip(rounding, KCL_TOLERANCE_V, ROUNDING_FLOOR_CEILING_V)
+    rounding += np.abs(slope) * (hi_w - lo_w)
+    floor = np.clip(rounding, KCL_TOLERANCE_V, ROUNDING_FLOOR_CEILING_V * load_gain)
     done |= collapsed & (np.abs(residual) <= floor) & ~unsettled & ~runaway
     finished = (done | collapsed) & active
 

@@ -100,7 +100,9 @@ class OperatingPoints:
     kcl_tolerance_v : array [V]
         What ``|kcl_residual_v|`` was solved to: 0.1 nV, or, where the circuit equation's
         terms are so large that double precision cannot resolve that (a load gain of
-        thousands over a zener deep below its knee), 32 rounding units of them.
+        thousands over a zener deep below its knee), 32 rounding units of them plus the
+        slope times the closed bracket's width; never more than 1 µV of rail (1 µV times
+        the load gain ``1 + R·G_L``).
     status : int array
         Index into :data:`STATUS_NAMES`.
     worst_element_margin : array [1]
@@ -268,29 +270,37 @@ def _assembled(log_current, vout, status, worst_margin, hottest, supply, resisto
     # A slot with no allowed power (ambient at or past its Tjmax) carries NO_ALLOWED_POWER_W
     # in for 0 W, so its margin lands far below −1e250, where no real P/P_max can reach: −∞.
     worst_margin[worst_margin < NO_ALLOWED_POWER_MARGIN] = -np.inf
-    off = np.nonzero(status == STATUS_STACK_OFF)
-    if off[0].size:
+    # Most workloads solve every point: the fix-ups below then have nothing to do.
+    every_point_solved = not status.any()  # STATUS_SOLVED is 0
+    off = None if every_point_solved else np.nonzero(status == STATUS_STACK_OFF)
+    if off is not None and off[0].size:
         supply_off, resistor_off = np.broadcast_to(supply, vout.shape)[off], np.broadcast_to(resistor, vout.shape)[off]
         fixed_off = np.broadcast_to(load_fixed, vout.shape)[off]
         gain_off = 1.0 + resistor_off * np.broadcast_to(load_conductance, vout.shape)[off]
         vout[off] = (supply_off - resistor_off * fixed_off) / gain_off
         worst_margin[off] = 1.0
         hottest[off] = np.broadcast_to(ambient, hottest.shape)[off]
-    unsolved = np.nonzero(status != STATUS_SOLVED)
-    log_current[unsolved] = 0.0
+    if not every_point_solved:
+        log_current[status != STATUS_SOLVED] = 0.0
     current = np.exp(log_current)
-    current[off] = 0.0
-    unsolved = np.nonzero(~np.isin(status, SOLUTION_STATUSES))
-    vout[unsolved] = 0.0
+    if off is not None and off[0].size:
+        current[off] = 0.0
+    unsolved = None
+    if not every_point_solved:
+        without_solution = (status != STATUS_SOLVED) & (status != STATUS_STACK_OFF)
+        unsolved = without_solution.nonzero() if without_solution.any() else None
+    if unsolved is not None:
+        vout[unsolved] = 0.0
     load = load_conductance * vout
     load += load_fixed
     through_resistor = current + load
     residual = supply - resistor * through_resistor
     residual -= vout
-    for value in (current, load, through_resistor, residual):
-        value[unsolved] = 0.0
-    worst_margin[unsolved] = -np.inf
-    hottest[unsolved] = np.broadcast_to(ambient, hottest.shape)[unsolved]
+    if unsolved is not None:
+        for value in (current, load, through_resistor, residual):
+            value[unsolved] = 0.0
+        worst_margin[unsolved] = -np.inf
+        hottest[unsolved] = np.broadcast_to(ambient, hottest.shape)[unsolved]
     return dict(
         vout_v=vout,
         stack_current_a=current,
@@ -414,7 +424,8 @@ def solve_stack_corners(
         )
         conducting = (status == STATUS_SOLVED).reshape(-1)
         per_element = _element_detail(parts, flat_stacks, log_current.reshape(-1), conditions[2].reshape(-1),
-                                      element_sign, element_spread, conducting)  # fmt: skip
+                                      element_sign, element_spread, conducting,
+                                      result["hottest_junction_c"].reshape(-1))  # fmt: skip
         result.update({name: value.reshape(count, corners, width) for name, value in per_element.items()})
     return OperatingPoints(**result)
 

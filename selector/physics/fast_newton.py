@@ -247,11 +247,44 @@ class _Iterate:
         np.minimum(u, self.hi, out=u)
         for _ in range(_START_STEPS):
             _line_step(u, line_k, line_p, line_q, self.lo, self.hi, n_vt, log_is, scratch, work(6, size))
+        self.zener_start = [(z[Z_START_SHIFT], z[Z_START_A], z[Z_START_RZ]) for z in self.breakdown]
+        if self.breakdown:
+            # The tangent at izt is far from a zener run well away from its test current:
+            # the line takes each zener's tangent at the current found so far, and one
+            # more step follows.
+            self._retangent(u, line_k, line_p, line_q)
+            _line_step(u, line_k, line_p, line_q, self.lo, self.hi, n_vt, log_is, scratch, work(6, size))
         self.u = u
         if heated:
             self.junction = _heated_start(self, line_k, line_p, line_q)
         else:
             self.junction = [np.broadcast_to(ambient_k, size).copy() for _ in self.forward]
+
+    def _retangent(self, u, line_k, line_p, line_q) -> None:
+        """Each zener's curve ``g(u) = m·c/q·expm1(q·(u − ln izt))`` replaced in the load
+        line, in place, by its form ``shift + a·u + rz·e^u`` at ``u``: the same value, slope
+        ``m·c·x^q`` and (where ``q ≥ 0``) curvature ``q·m·c·x^q``, ``x = I/izt``."""
+        work, size = self.work, u.shape
+        current = np.exp(u, out=work("retangent current", size))
+        for j, z in enumerate(self.breakdown):
+            power = np.subtract(u, z[Z_LOG_IZT], out=work(("retangent", j, 0), size))
+            power *= z[Z_Q]
+            np.minimum(power, KNEE_EXPONENT_CEILING, out=power)
+            value = np.expm1(power, out=work(("retangent", j, 1), size))
+            power = np.add(value, 1.0, out=power)
+            value *= z[Z_CQ]
+            slope = np.multiply(z[Z_C], power, out=power)
+            rz = np.multiply(slope, z[Z_Q], out=work(("retangent", j, 2), size))
+            np.maximum(rz, 0.0, out=rz)
+            rz /= current
+            a = np.subtract(slope, np.multiply(rz, current, out=work(("retangent", j, 3), size)), out=slope)
+            shift = np.subtract(value, np.multiply(a, u, out=work(("retangent", j, 4), size)), out=value)
+            shift -= np.multiply(rz, current, out=work(("retangent", j, 4), size))
+            old_shift, old_a, old_rz = self.zener_start[j]
+            line_k -= self.load_gain * (shift - old_shift)
+            line_q += self.load_gain * (a - old_a)
+            line_p += self.load_gain * (rz - old_rz)
+            self.zener_start[j] = (shift, a, rz)
 
     def evaluate(self, at_ambient: bool, checking: bool):
         """KCL residual ``F``, ``−F′`` and the resistor's share ``R·I`` at ``u``, every slot
@@ -456,11 +489,11 @@ def _heated_start(state: _Iterate, line_k, line_p, line_q):
         dv_dt /= gain
         line_p += np.multiply(load_gain, dv_dt, out=dv_dt)
         slot_v.append(voltage)
-    for z in state.breakdown:
-        voltage = np.multiply(z[Z_START_A], u, out=product)
+    for z, (shift, a, rz) in zip(state.breakdown, state.zener_start, strict=True):
+        voltage = np.multiply(a, u, out=product)
         voltage += z[Z_OFFSET]
-        voltage += z[Z_START_SHIFT]
-        voltage += np.multiply(z[Z_START_RZ], start_current, out=gain)
+        voltage += shift
+        voltage += np.multiply(rz, start_current, out=gain)
         voltage *= z[Z_TC]
         voltage *= z[Z_THETA]
         np.multiply(z[Z_TC], z[Z_THETA], out=gain)

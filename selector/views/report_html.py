@@ -22,6 +22,7 @@ import pandas as pd
 
 from selector import __version__
 from selector.errors import OptionError
+from selector.physics.design_cautions import NEAR_LIMIT_MARGIN
 from selector.physics.design_metrics import design_metrics
 from selector.physics.montecarlo import DEFAULT_SAMPLES, PERCENTILE_NAMES, run_monte_carlo
 from selector.physics.partset import PartSet
@@ -389,8 +390,10 @@ SHORTLIST_COLUMNS: tuple[tuple[str, str, object], ...] = (
     ("meets", "meets", lambda v: "yes" if v else "no"),
     ("on front", "pareto", lambda v: "front" if v else ""),
     ("least stack current", "i_min_a", lambda v: format_quantity(v, "A", 3)),
+    ("near limit", "near_limit", lambda v: "!" if v else ""),
+    ("cautions", "cautions", str),
 )
-_TEXT_COLUMNS = {"stack", "meets", "pareto"}
+_TEXT_COLUMNS = {"stack", "meets", "pareto", "near_limit", "cautions"}
 
 
 def _shortlist_section(report: ReviewReport) -> str:
@@ -417,7 +420,9 @@ def _shortlist_section(report: ReviewReport) -> str:
     headers = [h for h, _, _ in SHORTLIST_COLUMNS] + (["conditions of use"] if with_conditions else []) + [""]
     meeting = int(frame["meets"].sum())
     lead = (f"{len(frame)} designs, best first; {meeting} meet the tolerance at every corner."
-            + (" Where fewer meet, the closest feasible designs fill the list." if meeting < len(frame) else ""))
+            + (" Where fewer meet, the closest feasible designs fill the list." if meeting < len(frame) else "")
+            + f" ! marks a design in which a part or the resistor comes within {NEAR_LIMIT_MARGIN:.0%} of its allowed"
+            " power at some corner.")
     return (f'<section id="shortlist"><h2>Shortlist</h2><p>{_e(lead)}</p>'
             f"{_table(headers, rows, 'shortlist')}</section>")
 
@@ -535,10 +540,13 @@ def _metrics_list(document: dict) -> str:
         "least stack current " + shown(document["i_min_a"], format_quantity(document["i_min_a"] or 0.0, "A", 3))
         + "; least dissipation margin " + shown(document["margin"], f"{100 * (document['margin'] or 0.0):.1f} %"),
         "line regulation " + shown(m["line_regulation_mv_per_v"], f"{m['line_regulation_mv_per_v'] or 0:.4g} mV/V")
+        + f" ({m['regulation_model']}), ripple attenuation "
+        + shown(m["ripple_attenuation_db"], f"{m['ripple_attenuation_db'] or 0:.1f} dB") + f" ({m['ripple_model']})"
         + ", load regulation " + shown(m["load_regulation_mv_per_ma"], f"{m['load_regulation_mv_per_ma'] or 0:.4g} mV/mA")
         + ", rail tempco " + shown(m["tempco_mv_per_k"], f"{m['tempco_mv_per_k'] or 0:.4g} mV/K") + " at nominal",
+        # hottest_corner is 1-based in the check document, as every corner reference.
         "hottest junction " + shown(m["hottest_junction_c"], f"{m['hottest_junction_c'] or 0:.1f} °C")
-        + f" at corner {m['hottest_corner'] + 1}",
+        + f" at corner {m['hottest_corner']}",
     ]
     return '<ul class="plain">' + "".join(f"<li>{_e(line)}</li>" for line in lines) + "</ul>"
 
