@@ -172,6 +172,15 @@ def test_thermal_voltage_at_300_K_is_25_852_mV():
     assert thermal_voltage_v(300.0 - 273.15) == pytest.approx(constants.k * 300 / constants.e, rel=1e-15)
 
 
+def test_k_over_q_and_zero_celsius_are_scipy_constants_bit_for_bit():
+    # The solver writes k, e (exact in the 2019 SI) and 0 °C out to start faster; they
+    # must be scipy.constants' own values (CODATA 2022), not merely close to them.
+    from selector.physics.devices import BOLTZMANN_OVER_CHARGE_V_PER_K, ZERO_CELSIUS_K
+
+    assert BOLTZMANN_OVER_CHARGE_V_PER_K == constants.k / constants.e
+    assert ZERO_CELSIUS_K == constants.zero_Celsius
+
+
 # An invented LED-like set with a large series resistance: amperes heat it past any rating.
 _HOT_LED = dict(part="INV-HOT", family="led", is_a=1e-20, n=2.5, rs_ohm=1.85, eg_ev=2.68, xti=6.9, tnom_c=9.0,
                 pd_w=0.17, tj_max_c=200.0)  # fmt: skip

@@ -40,14 +40,19 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import constants
 
 from selector.physics.partset import PartSet, zener_knee_exponent
 
-#: k/q [V/K] from scipy.constants (CODATA 2022; k and e are exact since the 2019 SI).
-BOLTZMANN_OVER_CHARGE_V_PER_K: float = constants.k / constants.e
-#: Offset from °C to K.
-ZERO_CELSIUS_K: float = constants.zero_Celsius
+# k and e are exact since the 2019 SI, so scipy.constants' k, e and zero_Celsius are these
+# very numbers; they are written out because importing scipy.constants costs about 170 ms
+# at every start of a command that shows a part. tests/test_devices.py checks them bit for
+# bit against scipy.constants (CODATA 2022).
+_BOLTZMANN_J_PER_K = 1.380649e-23
+_ELEMENTARY_CHARGE_C = 1.602176634e-19
+#: k/q [V/K], equal to scipy.constants.k / scipy.constants.e.
+BOLTZMANN_OVER_CHARGE_V_PER_K: float = _BOLTZMANN_J_PER_K / _ELEMENTARY_CHARGE_C
+#: Offset from °C to K, equal to scipy.constants.zero_Celsius.
+ZERO_CELSIUS_K: float = 273.15
 #: Iterations allowed for the forward element's junction temperature (bisection alone
 #: narrows the bracket below the tolerance in 43).
 _THERMAL_ITERATIONS = 80
