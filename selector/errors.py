@@ -7,6 +7,11 @@ Every user-facing failure is one of these. The command-line layer turns them int
 
 from __future__ import annotations
 
+#: Exit code of a negative verdict (DESIGN §4): ``check`` when the design does not meet,
+#: ``seek --require-meeting`` when nothing meets, ``designs verify`` when a saved design
+#: no longer holds. Not an error: the output says why.
+NEGATIVE_VERDICT_EXIT = 3
+
 
 class RailwrightError(Exception):
     """Base of every error the tool reports to a user as one line."""

@@ -96,7 +96,8 @@ def test_seek_command_shows_conditions_and_refuses_unknown_lists(run_cli, listed
 def test_check_warns_about_unusable_parts(run_cli, listed, backend_db, stack, warning):
     fixed = ("--resistor", "1k")  # the resistor choice is not what is tested here
     result = run_cli("--db", backend_db, "check", *RAIL_OPTIONS, *fixed, "--list", "line-a", "--stack", stack)
-    assert result.exit_code == 0
+    # A warning, not an error; at 1 kΩ none of these meets the rail, hence exit 3 (DESIGN §4).
+    assert result.exit_code == 3
     assert result.stderr == warning
     as_json = run_cli("--db", backend_db, "check", *RAIL_OPTIONS, *fixed, "--list", "line-a", "--stack", stack,
                       "--json")

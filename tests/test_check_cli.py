@@ -46,7 +46,7 @@ def run(setup, *arguments):
 
 def test_json_has_the_contract_keys_and_32_corners(setup):
     result = run(setup, "--stack", "D-SIG1 + Z4V7-A", "--resistor", "270", "--json")
-    assert result.exit_code == 0, result.output
+    assert result.exit_code == 3, result.output
     document = json.loads(result.output)
     contract = ["resistor_ohm", "vout_nom_v", "vout_low_v", "vout_high_v", "error_v", "margin",
                 "i_min_a", "feasible", "meets", "corners"]  # fmt: skip
@@ -62,7 +62,7 @@ def test_json_has_the_contract_keys_and_32_corners(setup):
 def test_without_resistor_the_contract_choice_is_used(setup):
     db, spec_path = setup
     result = run(setup, "--stack", "D-SIG1 + Z4V7-A", "--json")
-    assert result.exit_code == 0, result.output
+    assert result.exit_code == 3, result.output
     library = open_library(db, notify=lambda line: None)
     parts = library.load_partset()
     stack = parts.index_of(["D-SIG1", "Z4V7-A"])
@@ -72,7 +72,7 @@ def test_without_resistor_the_contract_choice_is_used(setup):
 
 def test_terminal_report_shows_design_corners_metrics_and_parts(setup):
     result = run(setup, "--stack", "D-SIG1 + Z4V7-A", "--resistor", "270", "--monte-carlo", "500")
-    assert result.exit_code == 0, result.output
+    assert result.exit_code == 3, result.output
     text = result.output
     assert text.startswith("Design: D-SIG1 + Z4V7-A with 270 Ω (as given)")
     assert ("Corners (< lowest rail, > highest rail, o stack off, ! no solution; R at its tolerance and TCR; "
@@ -87,7 +87,7 @@ def test_terminal_report_shows_design_corners_metrics_and_parts(setup):
 
 def test_high_supply_caution_defers_to_codes(setup):
     result = run(setup, "--stack", "Z4V7-A", "--resistor", "47k", "--supply-min", "70V", "--supply-max", "80V")
-    assert result.exit_code == 0, result.output
+    assert result.exit_code == 3, result.output
     assert "above the 60 V DC ES1 limit of IEC 62368-1" in result.output
     assert "this tool is not a safety assessment" in result.output
 
@@ -125,7 +125,7 @@ def test_help_has_an_example():
 def test_a_design_without_a_solution_says_why_at_each_corner(setup):
     # 11–13 V through 1 Ω into one signal diode: amperes, a junction far past any survival.
     result = run(setup, "--stack", "D-SIG1", "--resistor", "1")
-    assert result.exit_code == 0, result.output
+    assert result.exit_code == 3, result.output
     lines = result.output.splitlines()
     assert lines[2] == "Verdict: NOT FEASIBLE (no solution at 32 of 32 corners: thermal runaway at 32)"
     assert sum(line.endswith("no solution: thermal runaway") for line in lines) == 32
@@ -136,7 +136,7 @@ def test_a_design_without_a_solution_says_why_at_each_corner(setup):
 
 def test_a_load_past_what_the_supply_can_give_is_named(setup):
     result = run(setup, "--stack", "Z5V1-B", "--resistor", "1200", "--load-max", "20mA")
-    assert result.exit_code == 0, result.output
+    assert result.exit_code == 3, result.output
     assert result.output.splitlines()[2] == (
         "Verdict: NOT FEASIBLE (no solution at 16 of 32 corners: load takes all the supply can give at 16)")
     document = json.loads(run(setup, "--stack", "Z5V1-B", "--resistor", "1200", "--load-max", "20mA", "--json").output)
@@ -148,7 +148,7 @@ def test_microamperes_at_a_negative_tolerance_solve_at_every_corner(setup):
     # negative, and its junction settles a little below the ambient (once "did not converge").
     result = run(setup, "--stack", "Z4V7-A + D-SCH3", "--resistor", "4.7M", "--ambient-max", "85", "--load-max", "0",
                  "--json")  # fmt: skip
-    assert result.exit_code == 0, result.output
+    assert result.exit_code == 3, result.output
     assert {corner["status"] for corner in json.loads(result.output)["corners"]} == {"solved"}
 
 

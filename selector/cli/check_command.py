@@ -8,7 +8,7 @@ import click
 
 from selector.api import check as check_design
 from selector.cli.spec_options import SPEC_OPTIONS_EPILOG, spec_options
-from selector.errors import OptionError
+from selector.errors import NEGATIVE_VERDICT_EXIT, OptionError
 from selector.views.check_view import check_json, check_lines
 
 MAX_MONTE_CARLO_SAMPLES = 10_000_000
@@ -43,7 +43,8 @@ def check(state, stack_text, as_json, samples, seed, derating, spec):
     Without --resistor the resistor is chosen from the spec's series by the least
     worst-case error among feasible values. With --list (or [search] list) a part the
     list does not allow is warned about, naming its status, and the condition of each
-    conditional part is shown.
+    conditional part is shown. Exits 3 when the design does not meet the spec (every
+    limit it breaks is named, with its corners and values), so a script can gate on it.
     """
     if samples is not None and not (1 <= samples <= MAX_MONTE_CARLO_SAMPLES):
         raise OptionError(f"--monte-carlo: {samples} is not between 1 and {MAX_MONTE_CARLO_SAMPLES}")
@@ -62,6 +63,8 @@ def check(state, stack_text, as_json, samples, seed, derating, spec):
         click.echo("\n".join(check_lines(design)))
         for condition in conditions:
             click.echo(f"Condition of use (list '{spec.list_name}'): {condition}")
+    if not design.meets:
+        raise click.exceptions.Exit(NEGATIVE_VERDICT_EXIT)
 
 
 COMMANDS = [check]

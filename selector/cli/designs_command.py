@@ -5,9 +5,8 @@ from __future__ import annotations
 import click
 
 from selector.cli.spec_options import SPEC_OPTIONS_EPILOG, spec_source_options
+from selector.errors import NEGATIVE_VERDICT_EXIT
 
-#: Exit code of a negative verdict (DESIGN §4).
-NEGATIVE_VERDICT_EXIT = 3
 _BY_HELP = "Who saves it (default: your login name)."
 
 

@@ -16,6 +16,7 @@ from selector.physics.circuit import STATUS_NAMES, STATUS_SOLVED, STATUS_STACK_O
 from selector.physics.corners import CornerSet, worst_case_corners
 from selector.physics.design_cautions import Caution, corner_list
 from selector.physics.design_cautions import design_cautions as physics_cautions
+from selector.physics.design_failures import LIMIT_MARKS, Failure, design_failures
 from selector.physics.montecarlo import PERCENTILE_NAMES
 from selector.spec.rail_spec import RailSpec, spec_cautions
 from selector.spec.stack_notation import format_stack
@@ -27,8 +28,13 @@ DEFER = "this tool is not a safety assessment; follow local codes and licensed p
 
 
 def _margin_text(margin: float, format_spec: str = ".1%") -> str:
-    """A margin as a percentage, or why there is none (no allowed dissipation)."""
-    return "none (no allowed dissipation at the ambient)" if margin == -np.inf else format(margin, format_spec)
+    """A margin as a percentage; an overload as how many times the allowed power it is
+    (``margin = 1 − P/P_max``); or why there is none (no allowed dissipation)."""
+    if margin == -np.inf:
+        return "none (no allowed dissipation at the ambient)"
+    if margin < 0:
+        return f"overload: {1.0 - margin:.3g} × allowed power"
+    return format(margin, format_spec)
 
 
 def _finite(value) -> float | None:
@@ -62,6 +68,11 @@ def design_cautions(design: CheckedDesign) -> list[str]:
             f"(limit {tj_max:.0f} °C) at corner {metrics.hottest_corner + 1}; {DEFER}"
         )
     return lines
+
+
+def failures(design: CheckedDesign) -> list[Failure]:
+    """Every limit the design breaks (:func:`selector.physics.design_failures.design_failures`)."""
+    return design_failures(design.parts, design.stack, design.spec, design.metrics.evaluation)
 
 
 def design_model_cautions(design: CheckedDesign) -> list[Caution]:
@@ -150,6 +161,11 @@ def check_json(design: CheckedDesign) -> dict:
             {"kind": c.kind, "part": c.part, "corners": list(c.corners), "text": c.text}
             for c in design_model_cautions(design)
         ],
+        "failures": [
+            {"limit": f.limit, "part": f.part, "corners": list(f.corners), "value": _finite(f.value),
+             "allowed": _finite(f.allowed), "text": f.text}
+            for f in failures(design)
+        ],
     }
     if design.monte_carlo is not None:
         mc = design.monte_carlo
@@ -211,6 +227,8 @@ def check_lines(design: CheckedDesign) -> list[str]:
         f"ambient {spec.ambient_min_c:g} … {spec.ambient_max_c:g} °C",
         f"Verdict: {_verdict(design)}",
     ]
+    broken = failures(design)
+    lines += [f"  fails: {failure.text}" for failure in broken]
     if ev.solved[0]:
         lines += [
             f"  rail {volts(ev.vout_nom_v[0]) if np.isfinite(ev.vout_nom_v[0]) else '— (no solution)'} nominal, "
@@ -220,8 +238,9 @@ def check_lines(design: CheckedDesign) -> list[str]:
         ]
     lines += ["", "Corners (< lowest rail, > highest rail, o stack off, ! no solution; R at its tolerance and TCR; "
                   "parts −/+: every part at its low/high tolerance and TC spread):"]
-    lines += _corner_table(design)
+    lines += _corner_table(design, broken)
     if ev.solved[0] and np.isfinite(ev.vout_nom_v[0]):
+        tj_max = float(design.parts.tj_max_c[design.stack[metrics.hottest_element]])
         lines += [
             "",
             "At nominal:",
@@ -230,7 +249,7 @@ def check_lines(design: CheckedDesign) -> list[str]:
             f"  load regulation {metrics.load_regulation_mv_per_ma:.4g} mV/mA (DC)",
             f"  rail tempco {metrics.tempco_mv_per_k:.4g} mV/K",
             f"  efficiency {metrics.efficiency:.1%}",
-            f"Hottest junction: {metrics.hottest_junction_c:.1f} °C, "
+            "Hottest junction: " + _junction_text(metrics.hottest_junction_c, tj_max) + ", "
             f"{design.elements[metrics.hottest_element]} (position {metrics.hottest_element + 1}) "
             f"at corner {metrics.hottest_corner + 1}",
             f"Series resistor: worst {format_quantity(metrics.resistor_worst_power_w, 'W', 3)}; "
@@ -262,7 +281,13 @@ def check_lines(design: CheckedDesign) -> list[str]:
     return lines
 
 
-def _corner_table(design: CheckedDesign) -> list[str]:
+def _junction_text(junction_c: float, tj_max_c: float) -> str:
+    if junction_c > tj_max_c:
+        return f"past Tjmax {tj_max_c:.0f} °C ({junction_c:.0f} °C by the model)"
+    return f"{junction_c:.1f} °C"
+
+
+def _corner_table(design: CheckedDesign, broken: list[Failure]) -> list[str]:
     ev, spec = design.metrics.evaluation, design.spec
     corners = worst_case_corners(spec)
     resistive = spec.load_kind == "resistance"
@@ -270,7 +295,12 @@ def _corner_table(design: CheckedDesign) -> list[str]:
     header = (
         f"  {'#':>2}  {'supply [V]':>10} {load_header:>10} {'Ta [°C]':>8} {'R [Ω]':>10} {'parts':>5}"
         f"  {'rail [V]':>10} {'stack [mA]':>10} {'P_R [mW]':>10} {'hot Tj [°C]':>11}"
+        + ("  breaks" if broken else "")
     )
+    marks: dict[int, list[str]] = {}
+    for failure in broken:
+        for corner in failure.corners:
+            marks.setdefault(corner - 1, []).append(LIMIT_MARKS[failure.limit])
     rows = [header]
     solved = ev.corner_solved[0]
     vout = ev.vout_v[0]
@@ -290,6 +320,8 @@ def _corner_table(design: CheckedDesign) -> list[str]:
                 f"  {vout[c]:>10.4f} {1e3 * ev.stack_current_a[0, c]:>10.3f} "
                 f"{1e3 * ev.resistor_power_w[0, c]:>10.1f} {ev.hottest_junction_c[0, c]:>11.1f}"
             )
+            if c in marks:
+                cells += "  " + ", ".join(dict.fromkeys(marks[c]))
         else:
             cells += f"  no solution: {STATUS_NAMES[ev.corner_status[0, c]]}"
         rows.append(" " + cells)

@@ -1,0 +1,95 @@
+"""A negative verdict names every limit it breaks, with the part, the corners and the
+values; ``check`` exits 3 on it (DESIGN §4). The demo library is invented."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+from click.testing import CliRunner
+
+from selector.cli import main
+from selector.physics.corners import worst_case_corners
+from selector.physics.design_failures import common_conditions
+from selector.spec.rail_spec import RailSpec
+
+EXAMPLE_SPEC = str(Path(__file__).parents[1] / "examples" / "rail-5v-from-12v.toml")
+
+
+@pytest.fixture(scope="module")
+def db(tmp_path_factory):
+    path = str(tmp_path_factory.mktemp("failures") / "lib.sqlite")
+    assert CliRunner().invoke(main, ["--db", path, "init", "--demo"]).exit_code == 0
+    return path
+
+
+def check(db, *arguments):
+    return CliRunner().invoke(main, ["--db", db, "check", "--spec", EXAMPLE_SPEC, *arguments])
+
+
+def test_a_meeting_design_exits_0_and_names_no_failure(db):
+    result = check(db, "--stack", "Z5V1-B")
+    assert result.exit_code == 0
+    assert "Verdict: MEETS the spec at every corner" in result.output
+    assert "fails:" not in result.output and "breaks" not in result.output
+    assert json.loads(check(db, "--stack", "Z5V1-B", "--json").output)["failures"] == []
+
+
+def test_too_little_current_names_the_part_its_knee_the_corners_and_what_they_share(db):
+    result = check(db, "--stack", "Z5V1-B", "--resistor", "620")
+    assert result.exit_code == 3
+    lines = result.output.splitlines()
+    assert lines[2:5] == [
+        "Verdict: NOT FEASIBLE (bias)",
+        "  fails: rail 4.392 V below the window's 4.6 V at corners 9, 11, 13, 15 (Vin min, load most, parts low)",
+        "  fails: Z5V1-B current 137 µA below its knee 1.2 mA at corners 9–16 (Vin min, load most)",
+    ]
+    # The corner table marks each failing corner with the limits it breaks.
+    rows = {line.split()[0].lstrip("<>o!"): line for line in lines if line[:4].strip().lstrip("<>o!").isdigit()}
+    assert rows["9"].endswith("  low, bias") and rows["10"].endswith("  bias") and not rows["1"].endswith("bias")
+    document = json.loads(check(db, "--stack", "Z5V1-B", "--resistor", "620", "--json").output)
+    bias = document["failures"][1]
+    assert {key: bias[key] for key in ("limit", "part", "corners")} == {
+        "limit": "least current", "part": "Z5V1-B", "corners": list(range(9, 17))}
+    assert bias["allowed"] == pytest.approx(1.2e-3, rel=1e-12)  # the demo part's izk_a
+    assert bias["value"] == pytest.approx(min(c["stack_current_a"] for c in document["corners"]), rel=1e-12)
+
+
+def test_too_much_dissipation_reads_as_an_overload_not_a_negative_percentage(db):
+    result = check(db, "--stack", "Z5V1-B", "--resistor", "100")
+    assert result.exit_code == 3
+    assert "  fails: resistor overload: 2.64 × allowed power at corners 1–32" in result.output
+    assert "least margin overload: 2.64 × allowed power" in result.output
+    assert "-163" not in result.output and "−163" not in result.output
+
+
+def test_resistor_power_names_the_watts_and_its_derated_allowance(db):
+    result = check(db, "--stack", "Z5V1-B", "--resistor", "330", "--resistor-rating", "0.125W")
+    assert result.exit_code == 3
+    assert "  fails: resistor 204 mW above 125 mW allowed at corners 17–32 (Vin max)" in result.output
+
+
+def test_a_forward_part_past_its_current_limit_and_its_tjmax(db):
+    result = check(db, "--stack", "D-SIG1", "--resistor", "22")
+    assert result.exit_code == 3
+    assert "  fails: D-SIG1 current 550 mA above its limit 200 mA at corners 1–32" in result.output
+    assert "Hottest junction: past Tjmax 175 °C (229 °C by the model)" in result.output
+
+
+def test_corners_without_a_solution_are_one_failure(db):
+    result = check(db, "--stack", "D-SIG1", "--resistor", "1")
+    assert result.exit_code == 3
+    assert "  fails: no solution at corners 1–32: thermal runaway" in result.output
+    failure = json.loads(check(db, "--stack", "D-SIG1", "--resistor", "1", "--json").output)["failures"][-1]
+    assert failure["limit"] == "no solution" and failure["value"] is None and failure["corners"] == list(range(1, 33))
+
+
+def test_common_conditions_are_what_every_listed_corner_shares():
+    spec = RailSpec(target_v=5.0, tolerance_v=0.4, supply_min_v=11.0, supply_max_v=13.0, supply_nominal_v=12.0,
+                    load_kind="current", load_min=0.0, load_max=0.01, ambient_min_c=0.0, ambient_max_c=50.0)
+    labels = worst_case_corners(spec).labels
+    assert common_conditions(labels, np.arange(8, 16)) == "Vin min, load most"
+    assert common_conditions(labels, np.array([0, 31])) == ""
+    assert common_conditions(labels, np.array([5])) == labels[5]
