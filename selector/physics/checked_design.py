@@ -4,11 +4,13 @@ the physics found (the contract metrics and their detail, and optionally a Monte
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 from typing import TYPE_CHECKING
 
 import numpy as np
 
 from selector.physics.design_metrics import DesignMetrics
+from selector.physics.error_budget import BudgetLine, error_budget
 from selector.physics.partset import PartSet
 from selector.spec.rail_spec import RailSpec
 
@@ -34,6 +36,11 @@ class CheckedDesign:
         """Meets the spec at every corner (DESIGN §3), each corner at the operating point
         reached from zero current."""
         return bool(self.metrics.evaluation.meets[0]) and self.metrics.off_lowest_root_corners.size == 0
+
+    @cached_property
+    def budget(self) -> list[BudgetLine]:
+        """The error budget (:func:`selector.physics.error_budget.error_budget`), largest first."""
+        return error_budget(self.parts, self.stack, self.resistor_ohm, self.spec, self.metrics.evaluation)
 
     @property
     def elements(self) -> list[str]:

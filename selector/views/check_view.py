@@ -17,6 +17,7 @@ from selector.physics.corners import CornerSet, worst_case_corners
 from selector.physics.design_cautions import Caution, corner_list
 from selector.physics.design_cautions import design_cautions as physics_cautions
 from selector.physics.design_failures import LIMIT_MARKS, Failure, design_failures
+from selector.physics.error_budget import dominant_source
 from selector.physics.montecarlo import PERCENTILE_NAMES
 from selector.spec.rail_spec import RailSpec, spec_cautions
 from selector.spec.stack_notation import format_stack
@@ -161,6 +162,15 @@ def check_json(design: CheckedDesign) -> dict:
             {"kind": c.kind, "part": c.part, "corners": list(c.corners), "text": c.text}
             for c in design_model_cautions(design)
         ],
+        "budget": [
+            {"source": line.source, "low_v": _finite(line.low_v), "high_v": _finite(line.high_v),
+             "linear_low_v": _finite(line.linear_low_v), "linear_high_v": _finite(line.linear_high_v),
+             "share": _finite(line.share)}
+            for line in design.budget
+        ],
+        "budget_method": "each source alone at its extremes, the rest nominal, solved exactly; shifts from the "
+        "nominal rail; the interaction is what the 32 corners add beyond their sum; linear_*: the small-signal "
+        "estimate",
         "failures": [
             {"limit": f.limit, "part": f.part, "corners": list(f.corners), "value": _finite(f.value),
              "allowed": _finite(f.allowed), "text": f.text}
@@ -236,6 +246,10 @@ def check_lines(design: CheckedDesign) -> list[str]:
             f"worst case; error {volts(ev.error_v[0])} (allowed {volts(spec.tolerance_v)})",
             f"  least stack current {amps(ev.i_min_a[0])}; least margin {_margin_text(ev.margin[0])}",
         ]
+    dominant = dominant_source(design.budget)
+    if dominant is not None and np.isfinite(dominant.share):
+        lines.append(f"  largest source of error: {dominant.source} ({dominant.share:.0%} of the worst-side deviation)")
+    lines += budget_lines(design)
     lines += ["", "Corners (< lowest rail, > highest rail, o stack off, ! no solution; R at its tolerance and TCR; "
                   "parts −/+: every part at its low/high tolerance and TC spread):"]
     lines += _corner_table(design, broken)
@@ -279,6 +293,23 @@ def check_lines(design: CheckedDesign) -> list[str]:
         lines.append("")
         lines += [f"Caution: {line}" for line in cautions]
     return lines
+
+
+def budget_lines(design: CheckedDesign) -> list[str]:
+    """The error budget as a table: each source's exact shift below and above the nominal
+    rail, its share of the worst-side deviation, and the linearised estimate beside it."""
+    if not design.budget:
+        return []
+    mv = lambda v: "—" if not np.isfinite(v) else f"{1e3 * v:+.2f}"  # noqa: E731
+    nominal = format_quantity(float(design.metrics.evaluation.vout_nom_v[0]), "V")
+    rows = ["", f"Error budget (each source alone at its extremes, the rest nominal, solved exactly; shift from the "
+                f"nominal {nominal}; linear: the small-signal estimate):",
+            f"  {'source':<32} {'below [mV]':>11} {'above [mV]':>11} {'share':>6}  {'linear [mV]':>17}"]
+    for line in design.budget:
+        linear = f"{mv(line.linear_low_v)} {mv(line.linear_high_v)}" if np.isfinite(line.linear_low_v) else ""
+        share = f"{line.share:.0%}" if np.isfinite(line.share) else "—"
+        rows.append(f"  {line.source:<32} {mv(line.low_v):>11} {mv(line.high_v):>11} {share:>6}  {linear:>17}")
+    return rows
 
 
 def _junction_text(junction_c: float, tj_max_c: float) -> str:
