@@ -67,6 +67,45 @@ class CheckResult:
     def feasible(self) -> bool:
         return bool(self.design.metrics.evaluation.feasible[0])
 
+    @property
+    def verdict(self) -> str:
+        """The verdict line of ``railwright check`` (without "Verdict: ")."""
+        from selector.views.check_view import verdict_text
+
+        return verdict_text(self.design)
+
+    @property
+    def failures(self) -> list:
+        """Every limit the design breaks (:class:`selector.physics.design_failures.Failure`)."""
+        from selector.views.check_view import failures
+
+        return failures(self.design)
+
+    @property
+    def metrics(self):
+        """:class:`selector.physics.design_metrics.DesignMetrics` of the design."""
+        return self.design.metrics
+
+    @property
+    def corners(self):
+        """The 32 corners as a pandas DataFrame, one row per corner (numbered from 1)."""
+        import pandas as pd
+
+        from selector.views.check_view import check_json
+
+        rows = check_json(self.design)["corners"]
+        return pd.DataFrame(rows).set_index("index")
+
+    @property
+    def budget(self):
+        """The error budget as a pandas DataFrame, largest source first
+        (:func:`selector.physics.error_budget.error_budget`)."""
+        import pandas as pd
+
+        columns = ["source", "low_v", "high_v", "linear_low_v", "linear_high_v", "share"]
+        return pd.DataFrame([[getattr(line, name) for name in columns] for line in self.design.budget],
+                            columns=columns)  # fmt: skip
+
 
 def as_spec(spec: RailSpec | str | Path | Mapping) -> RailSpec:
     """A RailSpec from a RailSpec, the path of a spec TOML, or a dict shaped like the TOML."""

@@ -73,9 +73,10 @@ def test_report_writes_pngs_and_respects_scatter(report_db, tmp_path):
     result = run("--db", report_db, "report", *QUICK, "--top", "2", "--sweeps", "1", "--scatter", "3",
                  "--monte-carlo", "300", "--out", out, "--png", png)
     assert result.exit_code == 0, result.output
-    assert "5 PNG file(s)" in result.output
+    assert "6 PNG file(s)" in result.output
     assert sorted(p.name for p in png.iterdir()) == [
-        "error-vs-margin.png", "rank-01-ambient.png", "rank-01-monte-carlo.png", "rank-01-supply.png",
+        "error-vs-margin.png", "rank-01-ambient.png", "rank-01-budget.png", "rank-01-monte-carlo.png",
+        "rank-01-supply.png",
         "rank-02-monte-carlo.png",
     ]
     assert "(3 of the" in out.read_text(encoding="utf-8")

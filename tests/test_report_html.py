@@ -103,7 +103,8 @@ def test_search_page_has_every_section_and_plot(search_page):
     review, page = search_page
     parsed = outline(page)
     assert {"spec", "search", "shortlist", "cautions", "footer", "rank-01", "rank-02", "rank-03"} <= parsed.ids
-    expected = ["error-vs-margin"] + [f"rank-{r:02d}-{kind}" for r in (1, 2, 3) for kind in ("supply", "ambient", "monte-carlo")]
+    kinds = ("supply", "ambient", "monte-carlo", "budget")
+    expected = ["error-vs-margin"] + [f"rank-{r:02d}-{kind}" for r in (1, 2, 3) for kind in kinds]
     assert sorted(parsed.figures) == sorted(expected)
     assert parsed.tags.count("svg") == len(expected)
     assert page.count('class="corners"') == 3 and page.count('class="margins"') == 3
@@ -161,7 +162,7 @@ def test_design_page_for_one_stack(report_library, tmp_path):
     parsed = outline(page)
     assert {"spec", "design", "cautions", "footer"} <= parsed.ids
     assert "shortlist" not in parsed.ids and "search" not in parsed.ids
-    assert sorted(parsed.figures) == ["design-ambient", "design-monte-carlo", "design-supply"]
+    assert sorted(parsed.figures) == ["design-ambient", "design-budget", "design-monte-carlo", "design-supply"]
     assert "TZ-4V7 + TF-SIG with 390 Ω" in page or "TF-SIG + TZ-4V7 with 390 Ω" in page
     assert "(as given)" in page
     assert review.candidates[0].design.monte_carlo.seed == 2
@@ -224,5 +225,6 @@ def test_unwritable_outputs_name_the_option(report_library, tmp_path):
 def test_png_dir_gets_one_file_per_figure(report_library, tmp_path):
     review = design_review(load_spec(None, SPEC_OPTIONS), report_library, "TF-SIG + TZ-4V7", samples=100)
     written = write_report(review, tmp_path / "r.html", tmp_path / "png")
-    assert sorted(p.name for p in written) == ["design-ambient.png", "design-monte-carlo.png", "design-supply.png"]
+    assert sorted(p.name for p in written) == ["design-ambient.png", "design-budget.png", "design-monte-carlo.png",
+                                                "design-supply.png"]
     assert all(p.read_bytes().startswith(b"\x89PNG") for p in written)

@@ -91,7 +91,8 @@ def wanted_text(spec: RailSpec) -> str:
     return text + (f" (nominal {volts(spec.rail_nominal_v)})" if spec.rail_nominal_v is not None else "")
 
 
-def _verdict(design: CheckedDesign) -> str:
+def verdict_text(design: CheckedDesign) -> str:
+    """The verdict of one design, as the check report's first line states it."""
     ev = design.metrics.evaluation
     if design.metrics.off_lowest_root_corners.size:
         return (f"NOT PROVEN (at {corner_list(design.metrics.off_lowest_root_corners + 1)} the solver's operating "
@@ -235,7 +236,7 @@ def check_lines(design: CheckedDesign) -> list[str]:
         f"Wanted: {wanted_text(spec)}; "
         f"supply {volts(spec.supply_min_v)} … {volts(spec.supply_max_v)}; "
         f"ambient {spec.ambient_min_c:g} … {spec.ambient_max_c:g} °C",
-        f"Verdict: {_verdict(design)}",
+        f"Verdict: {verdict_text(design)}",
     ]
     broken = failures(design)
     lines += [f"  fails: {failure.text}" for failure in broken]

@@ -83,7 +83,7 @@ def _figure():
     return figure, axes
 
 
-def _styled(make):
+def styled(make):
     """Run a figure-making function under :data:`STYLE` without touching global rcParams."""
     import matplotlib
 
@@ -122,7 +122,7 @@ def sweep_figure(sweep: Sweep, spec: RailSpec, title: str):
         axes.legend(loc="center left", bbox_to_anchor=(1.02, 0.5))
         return figure
 
-    return _styled(make)
+    return styled(make)
 
 
 def error_margin_figure(
@@ -179,7 +179,7 @@ def error_margin_figure(
         axes.legend(loc="center left", bbox_to_anchor=(1.02, 0.5))
         return figure
 
-    return _styled(make)
+    return styled(make)
 
 
 def monte_carlo_figure(result: MonteCarloResult, spec: RailSpec, title: str):
@@ -211,7 +211,7 @@ def monte_carlo_figure(result: MonteCarloResult, spec: RailSpec, title: str):
         axes.legend(loc="center left", bbox_to_anchor=(1.02, 0.5))
         return figure
 
-    return _styled(make)
+    return styled(make)
 
 
 # Output --------------------------------------------------------------------------------

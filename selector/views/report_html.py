@@ -257,7 +257,8 @@ def report_figures(report: ReviewReport, sweep_designs: int = DEFAULT_SWEEP_DESI
     """Every figure of the report by name (the PNG file stem and the SVG id prefix).
 
     Every design gets its Monte Carlo histogram; the first ``sweep_designs`` designs
-    also get their supply and ambient sweeps (each figure costs about 0.1 s to draw).
+    also get their error budget and their supply and ambient sweeps (each figure costs
+    about 0.1 s to draw).
     """
     from selector.physics import sweeps
     from selector.views import plots
@@ -278,6 +279,11 @@ def report_figures(report: ReviewReport, sweep_designs: int = DEFAULT_SWEEP_DESI
             design.monte_carlo, spec, f"{candidate.title}: Monte Carlo spread")
         if position >= sweep_designs:
             continue
+        if design.budget:
+            from selector.views.budget_chart import budget_figure
+
+            figures[f"{candidate.key}-budget"] = budget_figure(
+                design.budget, float(design.metrics.evaluation.vout_nom_v[0]), f"{candidate.title}: error budget")
         figures[f"{candidate.key}-supply"] = plots.sweep_figure(
             sweeps.supply_sweep(design.parts, stack, resistor, spec), spec, f"{candidate.title}: rail against supply")
         figures[f"{candidate.key}-ambient"] = plots.sweep_figure(
@@ -582,6 +588,10 @@ def _candidate_section(candidate: CandidateReview, svg: dict[str, str]) -> str:
         "<h3>Corners</h3>",
         '<p>All 32 worst-case corners; the lowest and highest rail are in bold.</p>',
         _corner_table(candidate),
+        "<h3>Error budget</h3>",
+        _figure(svg, f"{key}-budget", "Each source alone at its extremes with every other at nominal, solved exactly: "
+                "the bars are the rail's shift below and above the nominal rail; the marks are the small-signal "
+                "estimate; 'interaction' is what the 32 corners add beyond the sum of the single shifts."),
         "<h3>Margin per part</h3>",
         '<p>Worst power over the corners and the rated power; the margin is taken against the power allowed '
         "at each corner's ambient, min(rated, (Tj max − Ta)/θ).</p>",
