@@ -89,9 +89,17 @@ def test_one_bad_cell_names_its_column(tmp_path, column, cell, message):
 
 
 def test_required_fields_per_family(tmp_path):
+    # The file lacks the columns, so a part already in the library would keep its values
+    # (DESIGN §4): the check of these new parts comes at the import, against the library.
+    from selector.catalog.store import open_library
+
     path = write(tmp_path, "part,family,pd_w\nD-1,led,0.1\nZ-1,zener,0.5\n")
+    parts_file = load_parts_csv(path)
+    library = open_library(str(tmp_path / "empty.sqlite"), notify=lambda line: None)
     with pytest.raises(InputDataError) as caught:
-        load_parts_csv(path)
+        library.import_parts_file(parts_file)
+    assert library.part_records() == []
+    library.close()
     lines = str(caught.value).splitlines()
     assert lines[:2] == [f"{path}:2: is_a: required for family led", f"{path}:2: n: required for family led"]
     # DESIGN §3 v2: an LED must also give its band gap and Tjmax, and the message says why.
@@ -101,6 +109,13 @@ def test_required_fields_per_family(tmp_path):
         f"{path}:2: tj_max_c: required for family led (LEDs are rated far below the 150 °C default)",
     ]
     assert [line.split(": ")[1] for line in lines[4:]] == ["vz_v", "izt_a", "zzt_ohm", "izk_a", "zzk_ohm"]
+
+
+def test_a_required_column_present_but_empty_is_refused_when_read(tmp_path):
+    path = write(tmp_path, "part,family,is_a,n,pd_w\nD-1,signal,,1.8,0.1\n")
+    with pytest.raises(InputDataError) as caught:
+        load_parts_csv(path)
+    assert str(caught.value) == f"{path}:2: is_a: required for family signal"
 
 
 def test_a_knee_steeper_than_any_real_zeners_is_refused(tmp_path):

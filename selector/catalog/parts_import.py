@@ -143,12 +143,45 @@ class RawRow:
 
 @dataclass(frozen=True)
 class PartsFile:
-    """A validated parts file: its records, warnings and identity for the import log."""
+    """A validated parts file: its records, warnings and identity for the import log.
+
+    ``columns`` are the columns the file has (None: every column, as a model card or a
+    fit gives a whole record). A column the file lacks leaves that field of an existing
+    part unchanged (DESIGN §4), so such a record is complete only once merged with the
+    library's (:func:`merged_records`); ``lines`` are the records' lines in the file.
+    """
 
     label: str
     sha256: str
     records: list[dict[str, object]]
     warnings: list[str] = field(default_factory=list)
+    columns: frozenset[str] | None = None
+    lines: tuple[int, ...] = ()
+
+
+def merged_records(parts_file: PartsFile, existing: Mapping[str, Mapping[str, object]]) -> list[dict[str, object]]:
+    """The file's records with every column the file lacks taken from the library's part
+    of the same id (a new part keeps None: the default), checked whole.
+
+    Raises
+    ------
+    InputDataError
+        One line per problem of a merged record, ``FILE:LINE: column: message``.
+    """
+    if parts_file.columns is None:
+        return parts_file.records
+    merged, errors = [], []
+    for number, record in enumerate(parts_file.records):
+        current = existing.get(str(record["part"]))
+        whole = dict(record) if current is None else {
+            column: (record[column] if column in parts_file.columns else current.get(column)) for column in record}
+        line = parts_file.lines[number] if number < len(parts_file.lines) else 0
+        where = f"{parts_file.label}:{line}" if line else parts_file.label
+        errors.extend(f"{where}: {message}" for message in _completeness_problems(whole))
+        merged.append(whole)
+    if errors:
+        raise InputDataError("\n".join(errors))
+    return merged
 
 
 def file_digest(data: bytes) -> str:
@@ -255,7 +288,7 @@ def _text_problem(text: str) -> str | None:
     return None
 
 
-def validate_rows(rows: Sequence[RawRow], label: str) -> list[dict[str, object]]:
+def validate_rows(rows: Sequence[RawRow], label: str, present: frozenset[str] | None = None) -> list[dict[str, object]]:
     """Check every cell of every row; return the records, or raise with every problem.
 
     Parameters
@@ -264,6 +297,10 @@ def validate_rows(rows: Sequence[RawRow], label: str) -> list[dict[str, object]]
         Cells by column name; a missing column is the same as an empty cell.
     label : str
         The file name shown in messages.
+    present : frozenset of str, optional
+        The columns the file has, when it lacks some: a record is then completed from the
+        library before it is checked whole (:func:`merged_records`), so here only the
+        problems of the columns it has are reported (None: every record is whole).
 
     Returns
     -------
@@ -280,7 +317,7 @@ def validate_rows(rows: Sequence[RawRow], label: str) -> list[dict[str, object]]
     records = []
     first_line_of: dict[str, int] = {}
     for row in rows:
-        record, row_errors = _validate_row(row, first_line_of)
+        record, row_errors = _validate_row(row, first_line_of, present)
         where = f"{label}:{row.line}" if row.line else label
         errors.extend(f"{where}: {message}" for message in row_errors)
         records.append(record)
@@ -297,7 +334,8 @@ def _cell_text(value: object) -> str:
     return restore_cell(str(value)).strip() if isinstance(value, str) else str(value)
 
 
-def _validate_row(row: RawRow, first_line_of: dict[str, int]) -> tuple[dict[str, object], list[str]]:
+def _validate_row(row: RawRow, first_line_of: dict[str, int],
+                  present: frozenset[str] | None = None) -> tuple[dict[str, object], list[str]]:  # fmt: skip
     errors: list[str] = []
     cells = row.cells
     record: dict[str, object] = {}
@@ -348,14 +386,25 @@ def _validate_row(row: RawRow, first_line_of: dict[str, int]) -> tuple[dict[str,
             errors.append(f"{column}: {problem}")
         record[column] = value
 
+    flagged = {message.split(":", 1)[0] for message in errors}
+    for message in _completeness_problems(record):
+        column = message.split(":", 1)[0]
+        if column not in flagged and (present is None or column in present):
+            errors.append(message)
+    return record, errors
+
+
+def _completeness_problems(record: Mapping[str, object]) -> list[str]:
+    """What a whole record lacks or contradicts: its family's required columns, and the
+    checks that involve two columns."""
+    problems = []
+    family = record.get("family")
     if family in FAMILIES:
         required = REQUIRED_BREAKDOWN if family in BREAKDOWN_FAMILIES else REQUIRED_FORWARD
         required += REQUIRED_EXTRA.get(family, ())
-        for column in required:
-            if record[column] is None and not any(message.startswith(f"{column}:") for message in errors):
-                errors.append(f"{column}: required for family {family}{REQUIRED_WHY.get((family, column), '')}")
-    errors.extend(_cross_problems(record))
-    return record, errors
+        problems += [f"{column}: required for family {family}{REQUIRED_WHY.get((family, column), '')}"
+                     for column in required if record.get(column) is None]  # fmt: skip
+    return problems + _cross_problems(record)
 
 
 def _cross_problems(record: Mapping[str, object]) -> list[str]:
@@ -392,9 +441,15 @@ def load_parts_csv(path: str | Path) -> PartsFile:
     """
     label = str(path)
     data = read_input_bytes(path)
-    _, rows, warnings = read_csv_rows(decode_text(data, label), label)
-    records = validate_rows(rows, label)
-    return PartsFile(label, file_digest(data), records, warnings + data_warnings(records, label))
+    columns, rows, warnings = read_csv_rows(decode_text(data, label), label)
+    present = frozenset(columns) & frozenset(KNOWN_COLUMNS)
+    whole = present >= frozenset(RECORD_COLUMNS)
+    records = validate_rows(rows, label, None if whole else present)
+    # A record the file gives whole is checked for plausibility now; one completed from
+    # the library keeps the data it was checked with.
+    given_whole = [record for record in records if not _completeness_problems(record)]
+    return PartsFile(label, file_digest(data), records, warnings + data_warnings(given_whole, label),
+                     columns=None if whole else present, lines=tuple(row.line for row in rows))  # fmt: skip
 
 
 def data_warnings(records: Sequence[Mapping[str, object]], label: str) -> list[str]:
@@ -416,7 +471,8 @@ class FieldChange:
 
     def describe(self) -> str:
         """``column: old → new`` with exact numbers, ``(empty)`` for not given."""
-        return f"{self.column}: {_plain(self.old)} \u2192 {_plain(self.new)}"
+        clears = " (clears)" if self.new in (None, "") and self.old not in (None, "") else ""
+        return f"{self.column}: {_plain(self.old)} \u2192 {_plain(self.new)}{clears}"
 
 
 def _plain(value: object) -> str:

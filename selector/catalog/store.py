@@ -21,6 +21,7 @@ import time
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
+from functools import partial
 from pathlib import Path
 from typing import TYPE_CHECKING, TypeVar
 
@@ -40,7 +41,13 @@ from selector.catalog.models import (
     Part,
     utc_now,
 )
-from selector.catalog.parts_import import ImportPlan, PartsFile, load_parts_csv, plan_changes
+from selector.catalog.parts_import import (
+    ImportPlan,
+    PartsFile,
+    load_parts_csv,
+    merged_records,
+    plan_changes,
+)
 from selector.catalog.resources import demo_csv_path, migrations_folder
 from selector.errors import LibraryError, OptionError, UnknownPartError
 from selector.physics.partset import PartSet
@@ -407,6 +414,7 @@ class Library:
         file_name: str,
         file_sha256: str,
         dry_run: bool = False,
+        complete: Callable[[dict[str, dict[str, object]]], list[dict[str, object]]] | None = None,
     ) -> ImportPlan:
         """Add new parts and update changed ones in one transaction, and log the import.
 
@@ -420,6 +428,10 @@ class Library:
             The imported file and the SHA-256 of its bytes, for the log.
         dry_run : bool
             Plan only; write nothing (not even the log).
+        complete : callable, optional
+            Given the library's current records of the parts concerned (by part id), in
+            the same transaction, returns the records to import — a partial file's
+            records completed from them (:func:`selector.catalog.parts_import.merged_records`).
 
         Returns
         -------
@@ -429,12 +441,12 @@ class Library:
         records = list(records)
         if dry_run:
             with self.session() as session:
-                return _plan_import(session, records)[0]
+                return _plan_import(session, records, complete)[0]
         actor = audit.current_user()
         reason = f"{kind} import of {file_name}"[:1000]
 
         def work(session: Session) -> ImportPlan:
-            plan, existing = _plan_import(session, records)
+            plan, existing = _plan_import(session, records, complete)
             now = utc_now()
             if plan.added:
                 session.execute(
@@ -467,21 +479,30 @@ class Library:
         return self.write(work)
 
     def import_parts_file(self, parts_file: PartsFile, *, kind: str = "parts csv", dry_run: bool = False) -> ImportPlan:
-        """Import a validated :class:`PartsFile` (see :meth:`import_records`)."""
+        """Import a validated :class:`PartsFile` (see :meth:`import_records`): a column the
+        file lacks leaves that field of an existing part unchanged (DESIGN §4)."""
         return self.import_records(
             parts_file.records,
             kind=kind,
             file_name=parts_file.label,
             file_sha256=parts_file.sha256,
             dry_run=dry_run,
+            complete=None if parts_file.columns is None else partial(merged_records, parts_file),
         )
 
     def import_demo_sets(self) -> ImportPlan:
-        """Add (or refresh) the bundled invented demo sets."""
+        """Add the bundled invented demo parts the library lacks.
+
+        A demo part already in the library is never changed, whatever its data now (a
+        user may have edited it): the plan lists it as unchanged, and the import only adds.
+        """
         demo = load_parts_csv(demo_csv_path())
-        return self.import_parts_file(
-            PartsFile(demo_csv_path().name, demo.sha256, demo.records, demo.warnings), kind="demo sets"
-        )
+
+        def missing_only(existing: dict[str, dict[str, object]]) -> list[dict[str, object]]:
+            return [existing.get(str(record["part"]), record) for record in demo.records]
+
+        return self.import_records(demo.records, kind="demo sets", file_name=demo_csv_path().name,
+                                   file_sha256=demo.sha256, complete=missing_only)  # fmt: skip
 
     def remove_part(self, part: str, *, by: str | None = None, reason: str | None = None) -> None:
         """Delete one part, recording its last values in the audit trail.
@@ -537,14 +558,17 @@ class Library:
         self.write(work)
 
 
-def _plan_import(session: Session, records: list[dict[str, object]]) -> tuple[ImportPlan, dict[str, Part]]:
+def _plan_import(session: Session, records: list[dict[str, object]], complete=None) -> tuple[ImportPlan, dict[str, Part]]:
     wanted = [record["part"] for record in records]
     existing = {
         part.part: part
         for chunk in _chunks(wanted, 500)
         for part in session.scalars(select(Part).where(Part.part.in_(chunk)))
     }
-    return plan_changes({name: part.record() for name, part in existing.items()}, records), existing
+    current = {name: part.record() for name, part in existing.items()}
+    if complete is not None:
+        records = complete(current)
+    return plan_changes(current, records), existing
 
 
 def _worth_retrying(error: BaseException) -> bool:

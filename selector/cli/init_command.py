@@ -14,8 +14,9 @@ def init_command(state, demo: bool) -> None:
     As with every command, a new default library gets the demo sets and a new library
     at --db starts empty unless --demo is given.
 
-    An existing library is kept as it is; with --demo the demo sets are added to it, or
-    refreshed. The demo sets are invented, not any maker's data.
+    An existing library is kept as it is; with --demo the demo parts it lacks are added,
+    and a demo part already there is never changed (the count kept is shown). The demo
+    sets are invented, not any maker's data.
 
     \b
     Examples:
@@ -25,7 +26,8 @@ def init_command(state, demo: bool) -> None:
     library = state.library(create_with_demo=True if demo else None)
     revision = library.schema_revision()
     if demo and not library.created:
-        click.echo(f"demo sets: {library.import_demo_sets().summary()}")
+        plan = library.import_demo_sets()
+        click.echo(f"demo sets: {len(plan.added)} added, {len(plan.unchanged)} already in the library kept as they are")
     click.echo(f"library {library.location_text()} ready (schema revision {revision})")
 
 

@@ -27,6 +27,8 @@ def _report(plan: ImportPlan, label: str, dry_run: bool) -> None:
         click.echo(f"dry run, nothing written: {label}: {plan.summary()}")
     else:
         click.echo(f"imported {label}: {plan.summary()}")
+        for record, changes in plan.changed:
+            click.echo(f"  {record['part']}: " + "; ".join(change.describe() for change in changes))
 
 
 @click.group("parts")
@@ -98,7 +100,11 @@ def import_command(state, csv_file: str, dry_run: bool) -> None:
     """Import a parts CSV: new parts are added, changed parts updated, in one transaction.
 
     Every cell is checked first; any problem is reported as FILE:LINE: column: message
-    and nothing is written. Cells may be quantities such as '2.5 nA' or '500m'.
+    and nothing is written. Cells may be quantities such as '2.5 nA' or '500m'. A column
+    the file does not have leaves that field of an existing part unchanged (a file of
+    part, family and one column updates that column alone); an empty cell in a column it
+    has clears the field (the part then takes the default). Every change is listed,
+    field by field, and a cleared field says "clears".
 
     \b
     Examples:
