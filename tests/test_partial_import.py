@@ -5,6 +5,8 @@ demo parts are invented."""
 
 from __future__ import annotations
 
+import pytest
+
 from selector.catalog.store import open_library
 
 
@@ -78,3 +80,35 @@ def test_init_demo_adds_only_missing_demo_parts_and_keeps_edited_ones(run_cli, b
     assert result.stdout.splitlines()[0] == "demo sets: 1 added, 73 already in the library kept as they are"
     assert _record(backend_db, "Z5V1-A")["vz_tol_pct"] == 2.0
     assert _record(backend_db, "D-SIG1") is not None
+
+
+def test_parts_set_changes_fields_with_the_import_checks_and_an_audit_line(run_cli, backend_db):
+    assert run_cli("--db", backend_db, "init", "--demo").exit_code == 0
+    before = _record(backend_db, "Z5V1-A")
+    result = run_cli("--db", backend_db, "parts", "set", "Z5V1-A", "vz_tol_pct=2", "tj_max_c=150",
+                     "--reason", "lot 7 grade", "--by", "A. Tester")
+    assert result.exit_code == 0
+    assert result.stdout == "changed Z5V1-A: vz_tol_pct: 5.0 → 2.0; tj_max_c: 175.0 → 150.0\n"
+    assert _record(backend_db, "Z5V1-A") == before | {"vz_tol_pct": 2.0, "tj_max_c": 150.0}
+    history = run_cli("--db", backend_db, "history").stdout.splitlines()
+    assert history[-1].endswith("A. Tester  part changed  Z5V1-A: vz_tol_pct=5.0; tj_max_c=175.0 → "
+                                "vz_tol_pct=2.0; tj_max_c=150.0; why: lot 7 grade")
+    again = run_cli("--db", backend_db, "parts", "set", "Z5V1-A", "vz_tol_pct=2", "--reason", "again")
+    assert again.stdout == "Z5V1-A: nothing changes (the values are the ones it has)\n"
+
+
+@pytest.mark.parametrize(("arguments", "message"), [
+    (["vz_tol=2", "--reason", "x"], "Error: COLUMN=VALUE: 'vz_tol' is not a parts column (did you mean vz_tol_pct?)\n"),
+    (["izk_a=50m", "--reason", "x"],
+     "Error: parts set Z5V1-A: izk_a: knee current 50 mA must be below izt_a 3 mA\n"),
+    (["vz_tol_pct=2"], "Error: --reason: missing; say why the part's data changes, e.g. 'datasheet rev C'\n"),
+    (["vz_tol_pct=2", "--reason", "two\nlines"], "Error: --reason: must be one line of at most 2000 printable "
+                                                 "characters\n"),
+])  # fmt: skip
+def test_parts_set_refuses_in_one_line_and_changes_nothing(run_cli, backend_db, arguments, message):
+    assert run_cli("--db", backend_db, "init", "--demo").exit_code == 0
+    before = _record(backend_db, "Z5V1-A")
+    result = run_cli("--db", backend_db, "parts", "set", "Z5V1-A", *arguments)
+    assert result.exit_code in (1, 2)
+    assert result.stderr == message
+    assert _record(backend_db, "Z5V1-A") == before

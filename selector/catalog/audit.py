@@ -49,6 +49,21 @@ def current_user() -> str:
     return name.strip()[:PERSON_LENGTH] or "unknown"
 
 
+#: Longest reason kept [characters] (the lists' text limit).
+REASON_LIMIT = 2000
+
+
+def required_reason(reason: str | None, what: str = "every change needs a reason", option: str = "--reason") -> str:
+    """A change's reason: required, one printable line (no control, line-separator or
+    direction-override characters, which could forge or hide history lines), capped."""
+    cleaned = (reason or "").strip()
+    if not cleaned:
+        raise OptionError(f"{option}: missing; {what}")
+    if len(cleaned) > REASON_LIMIT or not cleaned.isprintable():
+        raise OptionError(f"{option}: must be one line of at most {REASON_LIMIT} printable characters")
+    return cleaned
+
+
 def person(by: str | None, option: str = "--by") -> str:
     """Who makes a change: ``by`` checked (one printable line), or the OS user."""
     if by is None:

@@ -69,12 +69,7 @@ def rename_list(library, old: str, new: str, *, reason: str | None, by: str | No
 
 
 def _required_reason(reason: str | None) -> str:
-    cleaned = (reason or "").strip()
-    if not cleaned:
-        raise OptionError("--reason: missing; every change to a list needs a reason")
-    if len(cleaned) > TEXT_LIMIT or any(ord(character) < 32 for character in cleaned):
-        raise OptionError(f"--reason: must be one line of at most {TEXT_LIMIT} characters")
-    return cleaned
+    return audit.required_reason(reason, "every change to a list needs a reason")
 
 
 @dataclass

@@ -543,6 +543,18 @@ def plan_changes(
     return plan
 
 
+def setting_file(part: str, family: str, settings: Mapping[str, str], label: str) -> PartsFile:
+    """A one-row partial parts file of ``COLUMN=VALUE`` settings of one existing part
+    (``parts set``): checked cell by cell now, and whole once merged with the library's
+    record (:func:`merged_records`). ``family`` is the part's own unless a setting
+    changes it."""
+    cells = {"part": part, "family": family, **settings}
+    present = frozenset(cells)
+    records = validate_rows([RawRow(0, cells)], label, present)
+    digest = file_digest("\n".join(f"{column}={value}" for column, value in sorted(cells.items())).encode())
+    return PartsFile(label, digest, records, columns=present, lines=(0,))
+
+
 def parse_column_settings(settings: Sequence[str], option: str = "--set") -> dict[str, str]:
     """Read ``COLUMN=VALUE`` option values into a mapping (values still text).
 
@@ -558,6 +570,10 @@ def parse_column_settings(settings: Sequence[str], option: str = "--set") -> dic
         if not equals or not column:
             raise OptionError(f"{option}: '{setting[:60]}' is not COLUMN=VALUE, e.g. pd_w=500m")
         if column not in KNOWN_COLUMNS or column == "part":
-            raise OptionError(f"{option}: '{column[:40]}' is not a parts column")
+            import difflib
+
+            nearest = difflib.get_close_matches(column, KNOWN_COLUMNS, n=1)
+            hint = f" (did you mean {nearest[0]}?)" if nearest else ""
+            raise OptionError(f"{option}: '{units.shown(column[:40])}' is not a parts column{hint}")
         values[column] = value.strip()
     return values

@@ -415,6 +415,8 @@ class Library:
         file_sha256: str,
         dry_run: bool = False,
         complete: Callable[[dict[str, dict[str, object]]], list[dict[str, object]]] | None = None,
+        reason: str | None = None,
+        by: str | None = None,
     ) -> ImportPlan:
         """Add new parts and update changed ones in one transaction, and log the import.
 
@@ -432,6 +434,8 @@ class Library:
             Given the library's current records of the parts concerned (by part id), in
             the same transaction, returns the records to import — a partial file's
             records completed from them (:func:`selector.catalog.parts_import.merged_records`).
+        reason, by : str, optional
+            Why and who, for the audit trail (default: "KIND import of FILE", the OS user).
 
         Returns
         -------
@@ -442,8 +446,8 @@ class Library:
         if dry_run:
             with self.session() as session:
                 return _plan_import(session, records, complete)[0]
-        actor = audit.current_user()
-        reason = f"{kind} import of {file_name}"[:1000]
+        actor = audit.person(by)
+        reason = (reason or f"{kind} import of {file_name}")[:1000]
 
         def work(session: Session) -> ImportPlan:
             plan, existing = _plan_import(session, records, complete)
@@ -489,6 +493,28 @@ class Library:
             dry_run=dry_run,
             complete=None if parts_file.columns is None else partial(merged_records, parts_file),
         )
+
+    def set_fields(self, part: str, settings: dict[str, str], *, reason: str, by: str | None = None,
+                   dry_run: bool = False) -> ImportPlan:  # fmt: skip
+        """Change some fields of one part in one transaction, with the import's cell and
+        whole-record checks, audit-logged old → new with ``reason`` (``parts set``).
+
+        Raises
+        ------
+        UnknownPartError
+            When the part is not in the library.
+        InputDataError, OptionError
+            For a value or a merged record the import would refuse.
+        """
+        from selector.catalog.parts_import import setting_file
+
+        why = audit.required_reason(reason, "say why the part's data changes, e.g. 'datasheet rev C'")
+        current = self.part_record(part)
+        label = f"parts set {part}"
+        parts_file = setting_file(part, settings.get("family", str(current["family"])), settings, label)
+        return self.import_records(parts_file.records, kind="parts set", file_name=label, file_sha256=parts_file.sha256,
+                                   dry_run=dry_run, complete=partial(merged_records, parts_file), reason=why,
+                                   by=by)  # fmt: skip
 
     def import_demo_sets(self) -> ImportPlan:
         """Add the bundled invented demo parts the library lacks.

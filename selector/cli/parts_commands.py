@@ -213,6 +213,36 @@ def export_command(state, csv_file: str, families: tuple[str, ...]) -> None:
         click.echo(f"wrote {count} parts to {csv_file}")
 
 
+@parts_group.command("set")
+@click.argument("part")
+@click.argument("settings", nargs=-1, required=True, metavar="COLUMN=VALUE...")
+@click.option("--reason", default=None, help="Why the data changes (required); kept in 'railwright history'.")
+@click.option("--by", default=None, help="Who makes the change (default: your login name).")
+@click.option("--dry-run", is_flag=True, help="Show the change; write nothing.")
+@click.pass_obj
+def set_command(state, part: str, settings: tuple[str, ...], reason, by, dry_run: bool) -> None:
+    """Change some fields of PART: the import's checks of each value and of the whole part,
+    one transaction, each field's old → new kept in 'railwright history' with the reason.
+
+    Values are quantities as in a parts CSV ('2 %' is not one: vz_tol_pct takes a
+    number); an empty value clears the field.
+
+    \b
+    Examples:
+      railwright parts set Z5V1-A vz_tol_pct=2 --reason "new grade from lot 7"
+      railwright parts set D-SIG1 tj_max_c=150 theta_ja_k_per_w=300 --reason "datasheet rev C" --by "A. Tester"
+    """
+    library = state.library()
+    plan = library.set_fields(part.strip(), parse_column_settings(settings, "COLUMN=VALUE"), reason=reason, by=by,
+                              dry_run=dry_run)  # fmt: skip
+    if not plan.changed:
+        click.echo(f"{part.strip()}: nothing changes (the values are the ones it has)")
+        return
+    for _, changes in plan.changed:
+        lead = "would change" if dry_run else "changed"
+        click.echo(f"{lead} {part.strip()}: " + "; ".join(change.describe() for change in changes))
+
+
 @parts_group.command("remove")
 @click.argument("part")
 @click.option("--reason", default=None, help="Why the part goes; kept in 'railwright history'.")
