@@ -21,7 +21,7 @@ from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 
-from selector.errors import SearchError
+from selector.errors import OptionError, SearchError
 from selector.physics.checked_design import CheckedDesign
 from selector.physics.partset import PartSet
 from selector.search.ranking import DEFAULT_RESOLUTION_V
@@ -217,6 +217,7 @@ def check(
     derating: float = 1.0,
     samples: int | None = None,
     seed: int = 0,
+    pick: str = "error",
 ) -> CheckResult:
     """Prove one stack and series resistor at all 32 worst-case corners (DESIGN §3).
 
@@ -233,6 +234,11 @@ def check(
         Fraction of a resistor rating the shop lets a design use, for the rating advice.
     samples, seed : int
         Monte Carlo units and seed (no Monte Carlo when ``samples`` is None or 0).
+    pick : str
+        Which meeting series value to take when the resistor is chosen: ``"error"`` (the
+        contract's least worst-case error, the default), ``"margin"`` (the most
+        dissipation margin) or ``"centre"`` (the rail centred in the window); see
+        :mod:`selector.search.series_sweep`.
 
     Returns
     -------
@@ -247,7 +253,11 @@ def check(
     from selector.catalog.approved_lists import list_view, stack_notes
     from selector.physics.design_metrics import design_metrics
     from selector.search.resistor_choice import choose_resistors
+    from selector.search.series_sweep import PICKS, series_sweep
     from selector.spec.stack_notation import expand_stack, parse_stack
+
+    if pick not in PICKS:
+        raise OptionError(f"--pick: '{pick}' is not one of {', '.join(PICKS)}")
 
     spec = as_spec(spec)
     catalog = open_catalog(library)
@@ -257,7 +267,14 @@ def check(
     if spec.list_name is not None:
         warnings, conditions = stack_notes(list_view(catalog, parts, spec.list_name, spec.statuses), parts, indices)
     fixed = resistor if resistor is not None else spec.resistor_fixed_ohm
-    chosen = float(fixed) if fixed is not None else float(choose_resistors(parts, indices[None, :], spec)[0][0])
+    sweep = series_sweep(parts, indices, spec)
+    picked = None if fixed is not None else sweep.pick(spec, pick)
+    if fixed is not None:
+        chosen = float(fixed)
+    elif picked is not None:
+        chosen = picked
+    else:  # nothing feasible: the contract's choice still names a design and its reason
+        chosen = float(choose_resistors(parts, indices[None, :], spec)[0][0])
     monte_carlo = None
     if samples:
         # Imported only when asked for: Monte Carlo loads scipy.special.
@@ -272,6 +289,8 @@ def check(
         resistor_chosen=fixed is None,
         metrics=design_metrics(parts, indices, chosen, spec, resistor_derating=derating),
         monte_carlo=monte_carlo,
+        series_values_ohm=sweep.values_ohm,
+        meeting_resistors_ohm=sweep.meeting_ohm,
     )
     return CheckResult(design, warnings, conditions)
 

@@ -19,7 +19,8 @@ MAX_MONTE_CARLO_SAMPLES = 10_000_000
     epilog="\b\nExamples:\n"
     '  railwright check --spec rail.toml --stack "Z4V7-A + 2*D-SIG1"\n'
     '  railwright check --spec rail.toml --stack "2*D-SIG1" --resistor 1k --json\n'
-    '  railwright check --spec rail.toml --stack "Z4V7-A" --monte-carlo 10000\n\n'
+    '  railwright check --spec rail.toml --stack "Z4V7-A" --monte-carlo 10000\n'
+    '  railwright check --spec rail.toml --stack "Z4V7-A + D-SCH3" --pick centre\n\n'
     + SPEC_OPTIONS_EPILOG
     + "\n\nMonte Carlo: each of N units draws its parts' tolerances and TC spreads and the "
     "resistor's tolerance and TCR once (normal, 3 sigma at the limit, truncated there; "
@@ -33,11 +34,14 @@ MAX_MONTE_CARLO_SAMPLES = 10_000_000
 @click.option("--monte-carlo", "samples", type=int, default=None, metavar="N",
               help="Also run a Monte Carlo of N units, e.g. 10000.")
 @click.option("--seed", type=int, default=0, show_default=True, help="Monte Carlo seed.")
+@click.option("--pick", type=click.Choice(["error", "margin", "centre"]), default="error", show_default=True,
+              help="Which meeting series value to take when R is chosen: least worst-case error (the contract's "
+              "choice), most dissipation margin, or the rail centred in the window.")
 @click.option("--derating", type=float, default=1.0, show_default=True, metavar="FRACTION",
               help="Shop derating for the resistor rating advice: fraction of a rating that may be used, e.g. 0.5.")
 @spec_options
 @click.pass_obj
-def check(state, stack_text, as_json, samples, seed, derating, spec):
+def check(state, stack_text, as_json, samples, seed, pick, derating, spec):
     """Solve one stack and series resistor at all 32 worst-case corners and report.
 
     Without --resistor the resistor is chosen from the spec's series by the least
@@ -50,7 +54,7 @@ def check(state, stack_text, as_json, samples, seed, derating, spec):
         raise OptionError(f"--monte-carlo: {samples} is not between 1 and {MAX_MONTE_CARLO_SAMPLES}")
     if not (0.0 < derating <= 1.0):
         raise OptionError(f"--derating: {derating:g} is not in (0, 1]")
-    result = check_design(spec, state.library(), stack_text, derating=derating, samples=samples, seed=seed)
+    result = check_design(spec, state.library(), stack_text, derating=derating, samples=samples, seed=seed, pick=pick)
     for warning in result.list_warnings:
         click.echo(f"Warning: {warning}", err=True)
     design, warnings, conditions = result.design, result.list_warnings, result.list_conditions

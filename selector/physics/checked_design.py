@@ -30,6 +30,9 @@ class CheckedDesign:
     resistor_chosen: bool
     metrics: DesignMetrics
     monte_carlo: MonteCarloResult | None = None
+    #: The spec's series values the stack was tried at [Ω], and those at which it meets.
+    series_values_ohm: np.ndarray | None = None
+    meeting_resistors_ohm: np.ndarray | None = None
 
     @property
     def meets(self) -> bool:

@@ -172,6 +172,8 @@ def check_json(design: CheckedDesign) -> dict:
         "budget_method": "each source alone at its extremes, the rest nominal, solved exactly; shifts from the "
         "nominal rail; the interaction is what the 32 corners add beyond their sum; linear_*: the small-signal "
         "estimate",
+        "meeting_resistors_ohm": None if design.meeting_resistors_ohm is None
+        else [float(value) for value in design.meeting_resistors_ohm],
         "failures": [
             {"limit": f.limit, "part": f.part, "corners": list(f.corners), "value": _finite(f.value),
              "allowed": _finite(f.allowed), "text": f.text}
@@ -247,6 +249,8 @@ def check_lines(design: CheckedDesign) -> list[str]:
             f"worst case; error {volts(ev.error_v[0])} (allowed {volts(spec.tolerance_v)})",
             f"  least stack current {amps(ev.i_min_a[0])}; least margin {_margin_text(ev.margin[0])}",
         ]
+    if design.series_values_ohm is not None:
+        lines.append("  " + meeting_range_text(design))
     dominant = dominant_source(design.budget)
     if dominant is not None and np.isfinite(dominant.share):
         lines.append(f"  largest source of error: {dominant.source} ({dominant.share:.0%} of the worst-side deviation)")
@@ -294,6 +298,17 @@ def check_lines(design: CheckedDesign) -> list[str]:
         lines.append("")
         lines += [f"Caution: {line}" for line in cautions]
     return lines
+
+
+def meeting_range_text(design: CheckedDesign) -> str:
+    """``"meets for 390 … 510 Ω (E24)"``: the series values at which the stack meets."""
+    from selector.search.series_sweep import value_ranges_text
+
+    values, meeting, spec = design.series_values_ohm, design.meeting_resistors_ohm, design.spec
+    if not meeting.size:
+        return (f"meets for no {spec.resistor_series} value from {format_quantity(values[0], 'Ω')} to "
+                f"{format_quantity(values[-1], 'Ω')}")  # fmt: skip
+    return f"meets for {value_ranges_text(values, meeting)} ({spec.resistor_series})"
 
 
 def budget_lines(design: CheckedDesign) -> list[str]:
