@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import csv
 import json
+from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
@@ -83,4 +84,40 @@ def test_nothing_feasible_names_the_main_rejection(invented_db):
 def test_help_has_an_example():
     result = run("seek", "--help")
     assert result.exit_code == 0
-    assert "Example: railwright seek --spec rail.toml" in result.output
+    assert "  railwright seek --spec rail.toml --top 5 --csv shortlist.csv" in result.output
+    assert "--require-meeting   (exit 3 when nothing meets, for scripts)" in result.output
+
+
+def test_require_meeting_exits_3_only_when_nothing_meets(tmp_path):
+    db = str(tmp_path / "lib.sqlite")
+    assert run("--db", db, "init", "--demo").exit_code == 0
+    example = str(Path(__file__).parents[1] / "examples" / "rail-5v-from-12v.toml")
+    assert run("--db", db, "seek", "--spec", example, "--require-meeting").exit_code == 0
+    tight = run("--db", db, "seek", "--spec", example, "--tolerance", "100mV", "--require-meeting")
+    assert tight.exit_code == 3
+    assert "meets" in tight.output  # the closest designs are still listed
+    assert run("--db", db, "seek", "--spec", example, "--tolerance", "100mV").exit_code == 0  # DESIGN §4
+
+
+def test_table_has_parts_window_p_margin_and_pareto_with_a_legend(tmp_path):
+    db = str(tmp_path / "lib.sqlite")
+    assert run("--db", db, "init", "--demo").exit_code == 0
+    example = str(Path(__file__).parents[1] / "examples" / "rail-5v-from-12v.toml")
+    lines = run("--db", db, "seek", "--spec", example, "--top", "3").output.splitlines()
+    header = next(line for line in lines if line.startswith("#  stack"))
+    assert header.split() == ["#", "stack", "parts", "R", "[Ω]", "Vnom", "[V]", "Vlow", "[V]", "Vhigh", "[V]", "error",
+                              "[mV]", "window", "[mV]", "P", "margin", "[%]", "!", "meets", "Pareto"]
+    first = lines[lines.index(header) + 2]
+    assert "+5.2" in first  # 400 mV allowed, 394.8 mV worst-case error
+    assert ("window: tolerance minus worst-case error (negative: outside); P margin: least dissipation margin; "
+            "! a part or the resistor within 20% of its allowed power; * on the Pareto front of error, margin and "
+            "part count") in lines
+
+
+def test_a_tolerance_that_looks_like_a_percentage_is_warned(tmp_path):
+    db = str(tmp_path / "lib.sqlite")
+    assert run("--db", db, "init", "--demo").exit_code == 0
+    example = str(Path(__file__).parents[1] / "examples" / "rail-5v-from-12v.toml")
+    result = run("--db", db, "seek", "--spec", example, "--tolerance", "3", "--top", "1")
+    assert ("Warning: [rail] tolerance: 3 V is 60% of the 5 V target (a bare number is volts); write '3 %' if a "
+            "percentage was meant") in result.output

@@ -42,7 +42,9 @@ class DelayedProgress:
 
 @click.command(
     "seek",
-    epilog="Example: railwright seek --spec rail.toml --top 5 --csv shortlist.csv\n\n" + SPEC_OPTIONS_EPILOG,
+    epilog="\b\nExamples:\n  railwright seek --spec rail.toml --top 5 --csv shortlist.csv\n"
+    "  railwright seek --spec rail.toml --require-meeting   (exit 3 when nothing meets, for scripts)\n\n"
+    + SPEC_OPTIONS_EPILOG,
 )
 @spec_options
 @click.option("--top", type=click.IntRange(1, 10000), default=10, show_default=True, help="Shortlist length.")
@@ -51,8 +53,11 @@ class DelayedProgress:
 @click.option("--rank-by", metavar="KEYS", default=None, help="Key order after 'meets', e.g. 'margin,error' (keys: error, margin, parts).")
 @click.option("--resolution", metavar="VOLTS", default="1 mV", show_default=True, help="Error step the ranking treats as equal, e.g. '5 mV'.")
 @click.option("--force", is_flag=True, help="Search even when the candidate count is above the sane limit.")
+@click.option("--require-meeting", is_flag=True,
+              help="Exit 3 when no design meets the spec (by default seek exits 0 and lists the closest).")
 @click.pass_context
-def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool, rank_by: str | None, resolution: str, force: bool) -> None:
+def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool, rank_by: str | None, resolution: str,
+         force: bool, require_meeting: bool) -> None:  # fmt: skip
     """Search every stack of up to max_parts library parts for the rail; list the best.
 
     Every candidate is either solved at all 32 worst-case corners with its series
@@ -79,6 +84,7 @@ def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool
         write_shortlist_csv(frame, csv_path)
     if as_json:
         click.echo(shortlist_json(frame, summary.as_dict()))
+        _exit_if_nothing_meets(frame, require_meeting)
         return
     for line in describe_spec(spec):
         click.echo(line)
@@ -87,7 +93,7 @@ def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool
         reason = summary.main_rejection
         click.echo(f"No feasible design. Most candidates were rejected because: {reason or 'no candidate'}.")
     else:
-        click.echo(terminal_table(frame))
+        click.echo(terminal_table(frame, spec.tolerance_v))
         for rank, conditions in zip(frame["rank"], frame["conditions"], strict=True):
             if conditions:
                 click.echo(f"  #{rank} conditions of use (list '{spec.list_name}'): {conditions}")
@@ -106,6 +112,14 @@ def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool
         click.echo(line)
     if csv_path is not None:
         click.echo(f"Shortlist written to {csv_path} ({len(frame)} rows, best error {format_quantity(float(frame['error_v'].min()), 'V') if len(frame) else '—'}).")
+    _exit_if_nothing_meets(frame, require_meeting)
+
+
+def _exit_if_nothing_meets(frame, require_meeting: bool) -> None:
+    from selector.errors import NEGATIVE_VERDICT_EXIT
+
+    if require_meeting and not bool(frame["meets"].any()):
+        raise click.exceptions.Exit(NEGATIVE_VERDICT_EXIT)
 
 
 COMMANDS = [seek]

@@ -12,7 +12,7 @@ from collections.abc import Callable
 
 import click
 
-from selector.spec.rail_spec import OPTION_FOR_KEY, load_spec
+from selector.spec.rail_spec import OPTION_FOR_KEY, load_spec, spec_warnings
 
 #: Help text per spec key: unit and an example value.
 _HELP: dict[str, tuple[str, str]] = {
@@ -72,7 +72,14 @@ def spec_options(command: Callable) -> Callable:
     ``spec``; a bad value raises :class:`selector.errors.SpecError` naming the file and
     key or the option, which the ``railwright`` group reports as one ``Error:`` line.
     """
-    return _with_spec_options(command, lambda path, overrides: {"spec": load_spec(path, overrides)})
+    return _with_spec_options(command, lambda path, overrides: {"spec": _warned(load_spec(path, overrides))})
+
+
+def _warned(spec):
+    """The spec, after its likely slips are told on stderr."""
+    for warning in spec_warnings(spec):
+        click.echo(f"Warning: {warning}", err=True)
+    return spec
 
 
 def spec_source_options(command: Callable) -> Callable:

@@ -821,6 +821,24 @@ def load_spec(
     return RailSpec(**fields)
 
 
+#: A rail tolerance above this fraction of the target is warned about: a bare number is
+#: volts, so "3" meant as 3 % reads as 3 V (common practice, no source: few rails allow 20 %).
+TOLERANCE_TYPO_FRACTION = 0.20
+
+
+def spec_warnings(spec: RailSpec) -> list[str]:
+    """Likely slips in a spec, one line each: a tolerance so wide it was probably meant as
+    a percentage."""
+    warnings = []
+    if not spec.rail_window and spec.target_v > 0 and spec.tolerance_v > TOLERANCE_TYPO_FRACTION * spec.target_v:
+        warnings.append(
+            f"[rail] tolerance: {_volts(spec.tolerance_v)} is {spec.tolerance_v / spec.target_v:.0%} of the "
+            f"{_volts(spec.target_v)} target (a bare number is volts); write '{spec.tolerance_v:g} %' if a "
+            "percentage was meant"
+        )
+    return warnings
+
+
 def spec_cautions(spec: RailSpec) -> list[str]:
     """Safety cautions a spec calls for, one line each (empty when none).
 
@@ -843,5 +861,6 @@ __all__ = [
     "UNUSABLE_STATUSES",
     "load_spec",
     "spec_cautions",
+    "spec_warnings",
 ]
 

@@ -41,30 +41,42 @@ def shortlist_json(frame: pd.DataFrame, summary: dict) -> str:
 _TABLE = (
     ("#", "rank", lambda v: str(v)),
     ("stack", "stack", str),
-    ("n", "parts", str),
+    ("parts", "parts", str),
     ("R [Ω]", "resistor_ohm", lambda v: format_quantity(v, "", digits=3)),
     ("Vnom [V]", "vout_nom_v", lambda v: f"{v:.4f}" if math.isfinite(v) else "—"),  # NaN: no nominal solution
     ("Vlow [V]", "vout_low_v", lambda v: f"{v:.4f}"),
     ("Vhigh [V]", "vout_high_v", lambda v: f"{v:.4f}"),
     ("error [mV]", "error_v", lambda v: f"{1000 * v:.1f}"),
-    ("margin [%]", "margin", lambda v: f"{100 * v:.1f}"),
+    ("window [mV]", "window_v", lambda v: f"{1000 * v:+.1f}"),
+    ("P margin [%]", "margin", lambda v: f"{100 * v:.1f}"),
     ("!", "near_limit", lambda v: "!" if v else ""),
     ("meets", "meets", lambda v: "yes" if v else "no"),
-    ("front", "pareto", lambda v: "*" if v else ""),
+    ("Pareto", "pareto", lambda v: "*" if v else ""),
 )
+#: Columns of :data:`_TABLE` aligned right.
+_NUMERIC = {"rank", "parts", "resistor_ohm", "vout_nom_v", "vout_low_v", "vout_high_v", "error_v", "window_v",
+            "margin"}
+#: The line under the table that says what its marks mean.
+TABLE_LEGEND = ("window: tolerance minus worst-case error (negative: outside); P margin: least dissipation margin; "
+                "! a part or the resistor within {near:.0%} of its allowed power; * on the Pareto front of error, "
+                "margin and part count")
 
 
-def terminal_table(frame: pd.DataFrame) -> str:
-    """Aligned text table with units in the headers and engineering notation."""
+def terminal_table(frame: pd.DataFrame, tolerance_v: float) -> str:
+    """Aligned text table with units in the headers and engineering notation, and a
+    one-line legend of its marks."""
+    from selector.physics.design_cautions import NEAR_LIMIT_MARGIN
+
+    frame = frame.assign(window_v=tolerance_v - frame["error_v"])
     headers = [title for title, _, _ in _TABLE]
     cells = [[show(row[column]) for _, column, show in _TABLE] for _, row in frame.iterrows()]
     widths = [max([len(h)] + [len(r[i]) for r in cells]) for i, h in enumerate(headers)]
-    numeric = {0, 2, 3, 4, 5, 6, 7, 8}
+    numeric = {i for i, (_, column, _) in enumerate(_TABLE) if column in _NUMERIC}
 
     def line(values):
         return "  ".join(v.rjust(w) if i in numeric else v.ljust(w) for i, (v, w) in enumerate(zip(values, widths, strict=True))).rstrip()
 
-    legend = "! a part or the resistor within 20 % of its allowed power; * on the Pareto front"
+    legend = TABLE_LEGEND.format(near=NEAR_LIMIT_MARGIN)
     return "\n".join([line(headers), line(["-" * w for w in widths])] + [line(r) for r in cells] + [legend])
 
 
