@@ -123,6 +123,6 @@ def test_an_unwritable_csv_destination_is_one_line_and_leaves_nothing(tmp_path):
     from selector.files.csv_writer import write_rows
 
     destination = tmp_path / "no such folder" / "out.csv"
-    with pytest.raises(OptionError, match=r"^cannot write '.*out\.csv': No such file or directory$"):
+    with pytest.raises(OptionError, match=r"^--csv: cannot write '.*out\.csv': No such file or directory$"):
         write_rows(destination, ["a"], [{"a": 1.0}])
     assert not destination.parent.exists()

@@ -142,7 +142,7 @@ def import_list_file(library, list_name: str, list_file: ListFile, *, by: str | 
     return apply_entries(library, list_name, list_file.entries, by=by, dry_run=dry_run)
 
 
-def write_list_csv(destination, rows) -> int:
+def write_list_csv(destination, rows, option: str = "--csv") -> int:
     """Write list entries (rows of :func:`~selector.catalog.approved_lists.list_entries`)
     with :data:`EXPORT_COLUMNS`, spreadsheet-safe; returns the row count."""
-    return write_rows(destination, EXPORT_COLUMNS, rows)
+    return write_rows(destination, EXPORT_COLUMNS, rows, option)

@@ -19,7 +19,7 @@ from selector.files.csv_writer import write_rows
 EXPORT_COLUMNS: tuple[str, ...] = RECORD_COLUMNS
 
 
-def write_parts_csv(destination: str | Path | TextIO, records: Iterable[Mapping[str, object]]) -> int:
+def write_parts_csv(destination: str | Path | TextIO, records: Iterable[Mapping[str, object]], option: str = "--csv") -> int:
     """Write part records as a parts CSV; returns how many were written.
 
     Raises
@@ -27,4 +27,4 @@ def write_parts_csv(destination: str | Path | TextIO, records: Iterable[Mapping[
     OSError
         When the destination cannot be written (the caller names it to the user).
     """
-    return write_rows(destination, EXPORT_COLUMNS, records)
+    return write_rows(destination, EXPORT_COLUMNS, records, option)

@@ -50,6 +50,7 @@ from selector.catalog.parts_import import (
 )
 from selector.catalog.resources import demo_csv_path, migrations_folder
 from selector.errors import LibraryError, OptionError, UnknownPartError
+from selector.files import output_files
 from selector.physics.partset import PartSet
 from selector.spec.part_fields import FAMILIES
 from selector.spec.stack_notation import part_id_order
@@ -642,6 +643,8 @@ def open_library(
     notify = notify or (lambda _line: None)
     location = resolve_location(db_option)
     if location.path is not None:
+        # No output of this process may be written over the library's files.
+        output_files.protect(location.path)
         creating = _check_sqlite_file(location.path)
         if creating:
             _prepare_folder(location)

@@ -166,7 +166,7 @@ def show_command(state, list_name: str, status: str | None, csv_path: str | None
         click.echo(format_table(shown, columns))
     else:
         click.echo(f"no parts on the list '{list_name}'" + (f" with status {status}" if status else ""))
-    if csv_path:
+    if csv_path is not None:
         count = write_list_csv(csv_path, rows)
         click.echo(f"wrote {count} entries to {csv_path}", err=True)
 
@@ -213,7 +213,7 @@ def export_command(state, list_name: str, csv_file: str) -> None:
     Example:
       railwright approved export line-a line-a.csv
     """
-    count = write_list_csv(csv_file, approved_lists.list_entries(state.library(), list_name))
+    count = write_list_csv(csv_file, approved_lists.list_entries(state.library(), list_name), "FILE.csv")
     if csv_file != "-":
         click.echo(f"wrote {count} entries of '{list_name}' to {csv_file}")
 

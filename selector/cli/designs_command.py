@@ -132,7 +132,7 @@ def export_command(state, csv_file: str, all_revisions: bool) -> None:
     revisions = latest_revisions(library)
     if all_revisions:
         revisions = [old for latest in revisions for old in revision_history(library, latest.name)]
-    count = write_rows(csv_file, EXPORT_COLUMNS, [export_row(saved) for saved in revisions])
+    count = write_rows(csv_file, EXPORT_COLUMNS, [export_row(saved) for saved in revisions], "FILE.csv")
     if csv_file != "-":
         click.echo(f"wrote {count} revision(s) to {csv_file}")
 

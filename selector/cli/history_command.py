@@ -64,7 +64,7 @@ def history_command(state, part: str | None, list_name: str | None, since: str |
             click.echo(_event_line(row))
     else:
         click.echo("no events")
-    if csv_path:
+    if csv_path is not None:
         count = write_rows(csv_path, HISTORY_COLUMNS, rows)
         click.echo(f"wrote {count} events to {csv_path}", err=True)
 

@@ -65,7 +65,7 @@ def list_command(state, families: tuple[str, ...], csv_path: str | None) -> None
         click.echo(format_table(list_rows(records), _LIST_COLUMNS))
     else:
         click.echo("no parts" + (f" of family {', '.join(families)}" if families else ""))
-    if csv_path:
+    if csv_path is not None:
         count = write_parts_csv(csv_path, records)
         click.echo(f"wrote {count} parts to {csv_path}", err=True)
 
@@ -208,7 +208,7 @@ def export_command(state, csv_file: str, families: tuple[str, ...]) -> None:
       railwright parts export zeners.csv --family zener
     """
     records = state.library().part_records([family.lower() for family in families] or None)
-    count = write_parts_csv(csv_file, records)
+    count = write_parts_csv(csv_file, records, "FILE.csv")
     if csv_file != "-":
         click.echo(f"wrote {count} parts to {csv_file}")
 

@@ -3,7 +3,6 @@ cells are spreadsheet-safe (:mod:`selector.files.csv_cells`) and floats read bac
 
 from __future__ import annotations
 
-import contextlib
 import csv
 import io
 import sys
@@ -11,8 +10,8 @@ from collections.abc import Iterable, Mapping, Sequence
 from pathlib import Path
 from typing import TextIO
 
-from selector.errors import OptionError
 from selector.files.csv_cells import format_number, neutralise_cell
+from selector.files.output_files import checked_destination, write_atomically
 
 
 def _cell(value: object) -> str:
@@ -29,33 +28,30 @@ def write_rows(
     destination: str | Path | TextIO,
     columns: Sequence[str],
     rows: Iterable[Mapping[str, object]],
+    option: str = "--csv",
 ) -> int:
     """Write mappings as CSV with safe cells and exact floats; returns the row count.
 
     Parameters
     ----------
     destination : path or text stream
-        A file path (written as UTF-8, replaced only once complete), ``"-"`` for standard
-        output, or an open stream. An unwritable path raises ``OptionError`` naming it.
+        A file path (written as UTF-8, replaced only once complete, never over the
+        library: :mod:`selector.files.output_files`), ``"-"`` for standard output, or an
+        open stream. An unwritable or refused path raises ``OptionError`` naming it.
     columns : sequence of str
         Header, in order; keys missing from a row are written empty.
     rows : iterable of mapping
         The rows.
+    option : str
+        The option or argument that named the file, for messages.
     """
     if destination == "-":
         destination = sys.stdout
     if isinstance(destination, (str, Path)):
-        path = Path(destination)
+        checked_destination(destination, option)
         buffer = io.StringIO()
         count = write_rows(buffer, columns, rows)
-        partial = path.with_name(path.name + ".partial")
-        try:
-            partial.write_text(buffer.getvalue(), encoding="utf-8", newline="")
-            partial.replace(path)
-        except OSError as error:
-            with contextlib.suppress(OSError):
-                partial.unlink(missing_ok=True)
-            raise OptionError(f"cannot write '{path}': {error.strerror or error}") from None
+        write_atomically(destination, buffer.getvalue(), option)
         return count
     writer = csv.writer(destination, lineterminator="\n")
     # The csv module quotes a cell holding the line terminator but not a bare carriage

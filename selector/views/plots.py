@@ -3,7 +3,7 @@
 The sweep data come from :mod:`selector.physics.sweeps`. The figures are
 plain :class:`matplotlib.figure.Figure` objects drawn without ``pyplot``, so making them
 changes no global backend; :func:`svg_markup` turns one into inline SVG for an HTML page
-and :func:`write_png` rasterises it with the Agg backend.
+and :func:`png_bytes` rasterises it with the Agg backend.
 
 The style is our own and survives black-and-white print: every curve differs by line
 style and marker, not by colour alone, and windows are hatched as well as tinted.
@@ -13,7 +13,6 @@ from __future__ import annotations
 
 import io
 import re
-from pathlib import Path
 
 import numpy as np
 
@@ -245,11 +244,12 @@ def svg_markup(figure, prefix: str) -> str:
     return text.strip()
 
 
-def write_png(figure, path: str | Path, dpi: int = 150) -> Path:
-    """Rasterise the figure to a PNG file with the Agg backend; returns the path."""
+def png_bytes(figure, dpi: int = 150) -> bytes:
+    """The figure rasterised to PNG with the Agg backend (written by the caller through
+    :func:`selector.files.output_files.write_atomically`)."""
     import matplotlib
 
-    path = Path(path)
+    buffer = io.BytesIO()
     with matplotlib.rc_context(STYLE):
-        figure.savefig(path, format="png", dpi=dpi, metadata={"Software": None})
-    return path
+        figure.savefig(buffer, format="png", dpi=dpi, metadata={"Software": None})
+    return buffer.getvalue()

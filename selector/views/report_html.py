@@ -22,6 +22,7 @@ import pandas as pd
 
 from selector import __version__
 from selector.errors import OptionError
+from selector.files.output_files import checked_destination, write_atomically
 from selector.physics.design_cautions import NEAR_LIMIT_MARGIN
 from selector.physics.design_metrics import design_metrics
 from selector.physics.montecarlo import DEFAULT_SAMPLES, PERCENTILE_NAMES, run_monte_carlo
@@ -316,19 +317,19 @@ def write_report(
 
     figures = report_figures(report, sweep_designs)
     written = []
+    checked_destination(out_path, "--out")
     if png_dir is not None:
         folder = Path(png_dir)
+        if folder.is_symlink():
+            raise OptionError(f"--png: '{folder}' is a symbolic link; give the folder itself")
         try:
             folder.mkdir(parents=True, exist_ok=True)
-            written = [plots.write_png(figure, folder / f"{name}.png") for name, figure in figures.items()]
         except OSError as error:
             raise OptionError(f"--png: cannot write into '{folder}': {error.strerror or error}") from None
+        written = [write_atomically(folder / f"{name}.png", plots.png_bytes(figure), "--png")
+                   for name, figure in figures.items()]  # fmt: skip
     svg = {name: plots.svg_markup(figure, name) for name, figure in figures.items()}
-    page = render_html(report, svg)
-    try:
-        Path(out_path).write_text(page, encoding="utf-8")
-    except OSError as error:
-        raise OptionError(f"--out: cannot write '{out_path}': {error.strerror or error}") from None
+    write_atomically(out_path, render_html(report, svg), "--out")
     return written
 
 
