@@ -173,6 +173,8 @@ def parse_since(text: str, option: str = "--since") -> datetime:
         if len(cleaned) == 10:
             return datetime.combine(date.fromisoformat(cleaned), time(), tzinfo=UTC)
         return as_utc(datetime.fromisoformat(cleaned.replace("Z", "+00:00")))
+    except OverflowError:  # a real date whose UTC time lies past year 9999
+        raise OptionError(f"{option}: '{shown(cleaned[:40])}' is beyond the last representable time") from None
     except ValueError:
         raise OptionError(
             f"{option}: '{shown(cleaned[:40])}' is not a date; write e.g. 2026-12-01 or 2026-12-01T14:30"

@@ -29,6 +29,7 @@ from selector.catalog.models import (
 )
 from selector.errors import InputDataError, OptionError
 from selector.files.csv_cells import format_number, restore_cell
+from selector.files.input_files import InputFileProblem, read_bounded
 from selector.physics.partset import PartSet
 from selector.spec import units
 from selector.spec.part_fields import (
@@ -191,18 +192,10 @@ def file_digest(data: bytes) -> str:
 
 def read_input_bytes(path: str | Path) -> bytes:
     """A file's bytes, refusing missing, unreadable or oversized files with one line."""
-    path = Path(path)
     try:
-        size = path.stat().st_size
-        if path.is_dir():
-            raise InputDataError(f"{path}: is a folder, not a file")
-        if size > MAX_FILE_BYTES:
-            raise InputDataError(f"{path}: {size} bytes is too large (limit {MAX_FILE_BYTES})")
-        return path.read_bytes()
-    except FileNotFoundError:
-        raise InputDataError(f"{path}: no such file") from None
-    except OSError as error:
-        raise InputDataError(f"{path}: cannot read ({error.strerror or error})") from None
+        return read_bounded(path, MAX_FILE_BYTES)
+    except InputFileProblem as problem:
+        raise InputDataError(f"{path}: {problem}") from None
 
 
 def decode_text(data: bytes, label: str) -> str:

@@ -100,11 +100,26 @@ class LibraryLocation:
         """The file path, or the URL with any password shown as ``***``."""
         if self.path is not None:
             return str(self.path)
-        return self.url.render_as_string(hide_password=True)
+        return _masked(self.url.render_as_string(hide_password=False))
+
+
+#: Longest ``--db`` value read [characters] (far past any real path or URL).
+MAX_DB_OPTION_LENGTH = 1024
 
 
 def resolve_location(db_option: str | None) -> LibraryLocation:
     """Read the ``--db`` value: None (default), a file path, or an SQLAlchemy URL."""
+    if db_option is not None and len(db_option) > MAX_DB_OPTION_LENGTH:
+        raise OptionError(f"--db: {len(db_option)} characters is too long for a path or URL (at most "
+                          f"{MAX_DB_OPTION_LENGTH})")  # fmt: skip
+    try:
+        return _resolved_location(db_option)
+    except (ValueError, OSError) as error:  # a port that is no number, a bracket left open, an unusable path
+        detail = error.strerror if isinstance(error, OSError) and error.strerror else "not a usable path or URL"
+        raise OptionError(f"--db: '{_masked(db_option or '')}': {detail}") from None
+
+
+def _resolved_location(db_option: str | None) -> LibraryLocation:
     if db_option is None:
         path = default_library_path()
         return LibraryLocation(URL.create("sqlite", database=str(path)), path, True)
@@ -112,8 +127,14 @@ def resolve_location(db_option: str | None) -> LibraryLocation:
     if not text:
         raise OptionError("--db: empty; give a library file path or a database URL")
     if "://" in text:
+        if text.partition("://")[2].split("/", 1)[0].count("@") > 1:
+            # An '@' in the password, not encoded: the driver would take part of the
+            # password for the host name and print it in its error.
+            raise OptionError(f"--db: '{_masked(text)}': more than one '@' before the host; write an '@' in the "
+                              "password as %40")  # fmt: skip
         try:
             url = make_url(text)
+            url.port  # noqa: B018 - SQLAlchemy reads the port only when asked
         except ArgumentError:
             raise OptionError(f"--db: '{_masked(text)}' is not a database URL") from None
         if url.get_backend_name() not in SUPPORTED_BACKENDS:
@@ -130,10 +151,16 @@ def resolve_location(db_option: str | None) -> LibraryLocation:
 
 
 def _masked(text: str) -> str:
-    try:
-        return make_url(text).render_as_string(hide_password=True)
-    except ArgumentError:
-        return text.split("@")[-1] if "@" in text else text
+    """A ``--db`` value safe to print: everything between ``://`` and the last ``@`` (the
+    user and password, whatever characters the password holds) and any ``password=`` in
+    the query become ``***``."""
+    import re
+
+    scheme, separator, rest = text.partition("://")
+    if separator and "@" in rest:
+        rest = "***@" + rest.rsplit("@", 1)[1]
+    rest = re.sub(r"(?i)(password=)[^&]*", r"\1***", rest)
+    return f"{scheme}{separator}{rest}"
 
 
 def _configure_sqlite(engine: Engine) -> None:
@@ -551,7 +578,7 @@ class Library:
         from selector.catalog.saved_designs import designs_using, lock_saved_designs, used_by_text
 
         actor = audit.person(by)
-        why = (reason or "").strip() or "removed from the library"
+        why = audit.required_reason(reason) if (reason or "").strip() else "removed from the library"
 
         def work(session: Session) -> None:
             lock_saved_designs(session)
@@ -645,7 +672,10 @@ def open_library(
     if location.path is not None:
         # No output of this process may be written over the library's files.
         output_files.protect(location.path)
-        creating = _check_sqlite_file(location.path)
+        try:
+            creating = _check_sqlite_file(location.path)
+        except OSError as error:  # e.g. a name longer than the file system allows
+            raise OptionError(f"--db: '{location.path}': {error.strerror or error}") from None
         if creating:
             _prepare_folder(location)
     engine = _make_engine(location)

@@ -117,6 +117,12 @@ class RailwrightGroup(click.Group):
             raise
 
     def parse_args(self, ctx: click.Context, args: list[str]) -> list[str]:
+        for position, argument in enumerate(args, start=1):
+            # Bytes that are not UTF-8 reach Python as lone surrogates, which no file,
+            # database or terminal write can encode: refuse them here, once for every command.
+            if any("\udc80" <= character <= "\udcff" for character in argument):
+                shown = argument.encode("utf-8", "surrogateescape").decode("utf-8", "backslashreplace")
+                raise click.UsageError(f"argument {position} ('{shown[:60]}') is not valid UTF-8 text")
         try:
             return super().parse_args(ctx, args)
         except _HELP_ON_NO_ARGS:

@@ -33,7 +33,7 @@ MAX_MONTE_CARLO_SAMPLES = 10_000_000
 @click.option("--json", "as_json", is_flag=True, help="Print the result as JSON instead of a report.")
 @click.option("--monte-carlo", "samples", type=int, default=None, metavar="N",
               help="Also run a Monte Carlo of N units, e.g. 10000.")
-@click.option("--seed", type=int, default=0, show_default=True, help="Monte Carlo seed.")
+@click.option("--seed", type=click.IntRange(min=0), default=0, show_default=True, help="Monte Carlo seed (0 or more).")
 @click.option("--pick", type=click.Choice(["error", "margin", "centre"]), default="error", show_default=True,
               help="Which meeting series value to take when R is chosen: least worst-case error (the contract's "
               "choice), most dissipation margin, or the rail centred in the window.")

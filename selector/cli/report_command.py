@@ -39,7 +39,7 @@ MAX_MONTE_CARLO_SAMPLES = 1_000_000
               help="Designs, best first, that also get rail-against-supply and rail-against-ambient plots.")
 @click.option("--monte-carlo", "samples", type=click.IntRange(1, MAX_MONTE_CARLO_SAMPLES), default=10_000,
               show_default=True, metavar="N", help="Monte Carlo samples per design.")
-@click.option("--seed", type=int, default=0, show_default=True, help="Monte Carlo seed.")
+@click.option("--seed", type=click.IntRange(min=0), default=0, show_default=True, help="Monte Carlo seed (0 or more).")
 @click.pass_obj
 def report(state, spec_path, spec_overrides, out_path, top, stack_text, design_name, prepared_by, png_dir,
            scatter_designs, sweep_designs, samples, seed):

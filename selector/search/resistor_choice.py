@@ -89,13 +89,14 @@ def candidate_resistors(spec: RailSpec) -> np.ndarray:
     return values
 
 
-def resistor_slots(bounds: StackBounds, values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """First and last index into ``values`` inside each stack's provable range.
+def resistor_slots(bounds: StackBounds, values: np.ndarray, error_cut_v: float = np.inf) -> tuple[np.ndarray, np.ndarray]:
+    """First and last index into ``values`` inside each stack's provable range (for a
+    search that keeps only designs with an error bound of at most ``error_cut_v``).
 
     ``first > last`` where no value can be feasible.
     """
     first = np.searchsorted(values, bounds.resistor_low_ohm * (1 - 1e-12), side="left")
-    last = np.searchsorted(values, bounds.resistor_high_ohm * (1 + 1e-12), side="right") - 1
+    last = np.searchsorted(values, bounds.resistor_high_within(error_cut_v) * (1 + 1e-12), side="right") - 1
     last = np.where(bounds.window_empty, first - 1, last)
     return first, last
 
@@ -279,7 +280,7 @@ def bounded_designs(cell_tables: CellBoundTables, stacks: np.ndarray, bounds: St
         Lower bound on each design's ``error_v``; inf where the bounds prove it infeasible.
     """
     values = candidate_resistors(spec)
-    first, last = resistor_slots(bounds, values)
+    first, last = resistor_slots(bounds, values, error_cut_v)
     stack_of_design, slot = design_slots(first, last, values.size)
     error_lower = np.zeros(slot.size)
     infeasible = np.zeros(slot.size, dtype=bool)

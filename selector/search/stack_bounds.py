@@ -432,6 +432,14 @@ class StackBounds:
         Every feasible series resistor lies in this range (point 7).
     window_empty : array (n,) of bool
         The floor exceeds a cap: no current is both enough and safe.
+    resistor_high_conducting_ohm : array (n,) [Ω]
+        The range's top for designs whose stack conducts at every corner. For a stack that
+        may be off (point 8) ``resistor_high_ohm`` is unbounded, since above this value a
+        corner's load pulls the rail below the stack's conduction; every such design has an
+        off corner and so an error of at least ``off_error_floor_v``.
+    off_error_floor_v : array (n,) [V]
+        Least error of any design of the stack with an off corner (inf for a stack that
+        cannot be off): a search whose cut is below it needs only the conducting range.
     """
 
     vout_lower_v: np.ndarray
@@ -442,6 +450,15 @@ class StackBounds:
     resistor_low_ohm: np.ndarray
     resistor_high_ohm: np.ndarray
     window_empty: np.ndarray
+    resistor_high_conducting_ohm: np.ndarray | None = None
+    off_error_floor_v: np.ndarray | None = None
+
+    def resistor_high_within(self, error_cut_v: float) -> np.ndarray:
+        """The range's top that matters to a search keeping only designs whose error
+        bound is at most ``error_cut_v`` [Ω]."""
+        if self.resistor_high_conducting_ohm is None:
+            return self.resistor_high_ohm
+        return np.where(self.off_error_floor_v > error_cut_v, self.resistor_high_conducting_ohm, self.resistor_high_ohm)
 
 
 def bound_stacks(tables: PartBoundTables, stacks: np.ndarray, spec: RailSpec) -> StackBounds:
@@ -509,7 +526,9 @@ def bound_stacks(tables: PartBoundTables, stacks: np.ndarray, spec: RailSpec) ->
         rating = max(1.0 - spec.min_margin, 0.0) * resistor_allowed_power_w(spec, np.array(class_ambients(spec)))
         by_rating = np.where(rating[None, :] > 0, headroom**2 / (rating[None, :] * factor_low[None, :]),
                              np.where(headroom > 0, np.inf, 0.0))  # fmt: skip
-    high = np.where(np.isnan(high) | off[:, None], np.inf, high)
+    high = np.where(np.isnan(high), np.inf, high)
+    conducting_high = high.min(axis=1)
+    high = np.where(off[:, None], np.inf, high)
     low = np.nan_to_num(np.maximum(by_current, by_rating), nan=0.0)
     return StackBounds(
         vout_lower_v=lower,
@@ -520,4 +539,6 @@ def bound_stacks(tables: PartBoundTables, stacks: np.ndarray, spec: RailSpec) ->
         resistor_low_ohm=low.max(axis=1),
         resistor_high_ohm=high.min(axis=1),
         window_empty=window_empty,
+        resistor_high_conducting_ohm=conducting_high,
+        off_error_floor_v=np.where(off, off_error_floor(spec, off_rail), np.inf),
     )

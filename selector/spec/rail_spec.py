@@ -16,6 +16,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from selector.errors import QuantityError, SpecError, SpecOptionError
+from selector.files.input_files import InputFileProblem, read_bounded
 from selector.spec import units
 from selector.spec.eseries import SERIES_STEPS, series_values
 from selector.spec.list_statuses import LIST_STATUSES, UNUSABLE_STATUSES
@@ -220,18 +221,11 @@ def _read_toml(path: str | Path) -> tuple[str, dict]:
     """Read a spec file as a TOML table, refusing oversized, binary or malformed files."""
     label = str(path)
     try:
-        with open(path, "rb") as handle:
-            data = handle.read(MAX_SPEC_BYTES + 1)
-    except FileNotFoundError:
-        raise SpecError(f"{label}: no such file") from None
-    except IsADirectoryError:
-        raise SpecError(f"{label}: is a directory, not a spec file") from None
-    except PermissionError:
-        raise SpecError(f"{label}: permission denied") from None
-    except OSError as error:
-        raise SpecError(f"{label}: cannot read ({error.strerror or error})") from None
-    if len(data) > MAX_SPEC_BYTES:
-        raise SpecError(f"{label}: larger than 1 MB; a spec file is a few lines of TOML")
+        data = read_bounded(path, MAX_SPEC_BYTES)
+    except InputFileProblem as problem:
+        if str(problem).startswith("larger than"):
+            raise SpecError(f"{label}: larger than 1 MB; a spec file is a few lines of TOML") from None
+        raise SpecError(f"{label}: {problem}") from None
     if b"\0" in data:
         line = data[: data.index(b"\0")].count(b"\n") + 1
         raise SpecError(f"{label}: line {line}: contains a NUL byte; a spec file is text")
@@ -247,6 +241,8 @@ def _read_toml(path: str | Path) -> tuple[str, dict]:
         raise SpecError(f"{label}: invalid TOML: {error}") from None
     except RecursionError:
         raise SpecError(f"{label}: invalid TOML: values nested too deeply") from None
+    except ValueError:  # an integer of thousands of digits (Python's conversion limit)
+        raise SpecError(f"{label}: invalid TOML: a number far too long for any quantity") from None
 
 
 def _unknown(name: str, known: tuple[str, ...] | list[str]) -> str:
@@ -311,12 +307,22 @@ def _split(entry: _Entry) -> tuple[float, units.Kind | None]:
         raise _fail(entry, str(error)) from None
 
 
+#: Largest magnitude a spec quantity may have, by kind: far past any rail this tool can
+#: prove, and small enough that every later product stays finite.
+QUANTITY_LIMITS: dict[str, float] = {"voltage": 1e5, "current": 1e3, "resistance": 1e12, "power": 1e6}
+
+
 def _quantity(entry: _Entry, kind: units.Kind) -> float:
     _check_scalar(entry)
     try:
-        return units.parse_quantity(entry.raw, kind)
+        value = units.parse_quantity(entry.raw, kind)
     except QuantityError as error:
         raise _fail(entry, str(error)) from None
+    limit = QUANTITY_LIMITS.get(kind.name)
+    if limit is not None and abs(value) > limit:
+        raise _fail(entry, f"{units.format_quantity(value, kind.symbol)} is beyond {units.format_quantity(limit, kind.symbol)}, "
+                           f"the largest {kind.name} a rail spec may have")  # fmt: skip
+    return value
 
 
 def _fraction(entry: _Entry, what: str, low: float, high: float, inclusive_low: bool) -> float:

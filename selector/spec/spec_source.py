@@ -16,7 +16,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from selector.errors import SpecError
-from selector.spec.rail_spec import OPTION_FOR_KEY, RailSpec, load_spec
+from selector.files.input_files import InputFileProblem, read_bounded
+from selector.spec.rail_spec import MAX_SPEC_BYTES, OPTION_FOR_KEY, RailSpec, load_spec
 
 
 @dataclass(frozen=True)
@@ -88,9 +89,9 @@ def read_spec_source(path: str | Path | None, overrides: Mapping[str, object]) -
     if path is None:
         return spec, SpecSource(None, "", None, given)
     try:
-        data = Path(path).read_bytes()
-    except OSError as error:
-        raise SpecError(f"{path}: cannot read ({error.strerror or error})") from None
+        data = read_bounded(path, MAX_SPEC_BYTES)
+    except InputFileProblem as problem:
+        raise SpecError(f"{path}: {problem}") from None
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError:
