@@ -121,3 +121,50 @@ def test_a_tolerance_that_looks_like_a_percentage_is_warned(tmp_path):
     result = run("--db", db, "seek", "--spec", example, "--tolerance", "3", "--top", "1")
     assert ("Warning: [rail] tolerance: 3 V is 60% of the 5 V target (a bare number is volts); write '3 %' if a "
             "percentage was meant") in result.output
+
+
+@pytest.mark.parametrize("overrides", [{}, {"load.min": "1 kohm", "load.max": "10 kohm"},
+                                       {"resistor.tcr": "100 ppm/K", "search.zener_izt_limit": "5",
+                                        "search.families": "zener,signal", "resistor.fixed": "470"}])
+def test_the_spec_as_run_reads_back_to_the_same_spec(overrides):
+    import tomllib
+
+    from selector.spec.rail_spec import load_spec
+    from selector.spec.spec_summary import spec_toml
+
+    example = str(Path(__file__).parents[1] / "examples" / "rail-5v-from-12v.toml")
+    spec = load_spec(example, overrides)
+    assert load_spec(None, {}, table=tomllib.loads(spec_toml(spec)), table_label="again") == spec
+
+
+def test_a_window_spec_reads_back_to_within_double_rounding():
+    import dataclasses
+    import tomllib
+
+    from selector.spec.rail_spec import load_spec
+    from selector.spec.spec_summary import spec_toml
+
+    example = str(Path(__file__).parents[1] / "examples" / "rail-5v-from-12v.toml")
+    spec = load_spec(example, {"rail.min": "4.7V", "rail.max": "5.4V"})
+    again = load_spec(None, {}, table=tomllib.loads(spec_toml(spec)), table_label="again")
+    assert again.rail_window and again.rail_min_v == pytest.approx(4.7, abs=1e-12)
+    assert dataclasses.replace(again, target_v=spec.target_v, tolerance_v=spec.tolerance_v) == spec
+
+
+def test_csv_gets_its_spec_sibling_and_json_its_context(tmp_path):
+    db = str(tmp_path / "lib.sqlite")
+    assert run("--db", db, "init", "--demo").exit_code == 0
+    example = str(Path(__file__).parents[1] / "examples" / "rail-5v-from-12v.toml")
+    out = tmp_path / "short.csv"
+    result = run("--db", db, "seek", "--spec", example, "--top", "2", "--csv", str(out))
+    assert result.output.splitlines()[-1] == (f"Shortlist written to {out} (2 rows, best error 394.8 mV); the spec as run "
+                                              f"to {tmp_path / 'short.spec.toml'}.")
+    again = run("--db", db, "seek", "--spec", str(tmp_path / "short.spec.toml"), "--top", "2", "--csv",
+                str(tmp_path / "again.csv"))
+    assert again.exit_code == 0
+    assert (tmp_path / "again.csv").read_text(encoding="utf-8") == out.read_text(encoding="utf-8")
+    document = json.loads(run("--db", db, "seek", "--spec", example, "--top", "1", "--json").output)
+    assert list(document) == ["shortlist", "summary", "context"]
+    context = document["context"]
+    assert set(context) == {"spec", "library_sha256", "computed_at", "railwright_version"}
+    assert len(context["library_sha256"]) == 64 and context["spec"]["target_v"] == 5.0

@@ -415,7 +415,7 @@ def test_missing_file_and_directory(in_tmp):
     (in_tmp / "folder").mkdir()
     with pytest.raises(SpecError) as caught:
         load_spec("folder")
-    assert str(caught.value) == "folder: is a directory, not a spec file"
+    assert str(caught.value) == "folder: is a folder, not a file"
 
 
 # --- overrides --------------------------------------------------------------------------

@@ -151,14 +151,16 @@ def _resolved_location(db_option: str | None) -> LibraryLocation:
 
 
 def _masked(text: str) -> str:
-    """A ``--db`` value safe to print: everything between ``://`` and the last ``@`` (the
-    user and password, whatever characters the password holds) and any ``password=`` in
-    the query become ``***``."""
+    """A ``--db`` value safe to print: the password — everything between the user name's
+    ``:`` and the last ``@``, whatever characters it holds — and any ``password=`` in the
+    query become ``***``."""
     import re
 
     scheme, separator, rest = text.partition("://")
     if separator and "@" in rest:
-        rest = "***@" + rest.rsplit("@", 1)[1]
+        userinfo, host = rest.rsplit("@", 1)
+        user, colon, _ = userinfo.partition(":")
+        rest = f"{user}:***@{host}" if colon else f"{userinfo}@{host}"
     rest = re.sub(r"(?i)(password=)[^&]*", r"\1***", rest)
     return f"{scheme}{separator}{rest}"
 

@@ -4,13 +4,15 @@ from __future__ import annotations
 
 import sys
 import time
+from pathlib import Path
 
 import click
 
 from selector.api import seek as seek_library
 from selector.cli.spec_options import SPEC_OPTIONS_EPILOG, spec_options
+from selector.files.output_files import write_atomically
 from selector.physics.design_cautions import NEAR_LIMIT_MARGIN
-from selector.spec.spec_summary import describe_spec
+from selector.spec.spec_summary import describe_spec, spec_toml
 from selector.spec.units import VOLTAGE, format_quantity, parse_quantity
 from selector.views.shortlist_view import (
     shortlist_json,
@@ -80,10 +82,13 @@ def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool
     finally:
         progress.close()
     frame, summary = result
+    spec_file = None
     if csv_path is not None:
         write_shortlist_csv(frame, csv_path)
+        if csv_path != "-":
+            spec_file = write_atomically(Path(csv_path).with_suffix(".spec.toml"), spec_toml(spec), "--csv")
     if as_json:
-        click.echo(shortlist_json(frame, summary.as_dict()))
+        click.echo(shortlist_json(frame, summary.as_dict(), _context(ctx.obj.library(), spec)))
         _exit_if_nothing_meets(frame, require_meeting)
         return
     for line in describe_spec(spec):
@@ -111,8 +116,23 @@ def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool
     for line in summary_lines(summary):
         click.echo(line)
     if csv_path is not None:
-        click.echo(f"Shortlist written to {csv_path} ({len(frame)} rows, best error {format_quantity(float(frame['error_v'].min()), 'V') if len(frame) else '—'}).")
+        click.echo(f"Shortlist written to {csv_path} ({len(frame)} rows, best error {format_quantity(float(frame['error_v'].min()), 'V') if len(frame) else '—'}); "
+                   + (f"the spec as run to {spec_file}." if spec_file else "the spec as run is in the summary above."))
     _exit_if_nothing_meets(frame, require_meeting)
+
+
+def _context(library, spec) -> dict:
+    """What a shortlist was computed from: the spec, the library's content hash, when, by
+    which version (kept in the JSON so the result can be traced and repeated)."""
+    import datetime
+
+    from selector import __version__
+    from selector.catalog.library_hash import library_content_hash
+    from selector.spec.spec_summary import spec_to_dict
+
+    return {"spec": spec_to_dict(spec), "library_sha256": library_content_hash(library),
+            "computed_at": datetime.datetime.now(datetime.UTC).isoformat(timespec="seconds"),
+            "railwright_version": __version__}  # fmt: skip
 
 
 def _exit_if_nothing_meets(frame, require_meeting: bool) -> None:

@@ -33,9 +33,13 @@ def write_shortlist_csv(frame: pd.DataFrame, destination: str | Path) -> int:
     return write_rows(destination, COLUMNS, frame_records(frame))
 
 
-def shortlist_json(frame: pd.DataFrame, summary: dict) -> str:
-    """JSON text: ``{"shortlist": [rows…], "summary": {…}}``."""
-    return json.dumps({"shortlist": frame_records(frame), "summary": summary}, indent=2, ensure_ascii=False)
+def shortlist_json(frame: pd.DataFrame, summary: dict, context: dict | None = None) -> str:
+    """JSON text: ``{"shortlist": [rows…], "summary": {…}}`` (DESIGN §4), then ``context``
+    (the spec, library hash, time and version) when given."""
+    document = {"shortlist": frame_records(frame), "summary": summary}
+    if context is not None:
+        document["context"] = context
+    return json.dumps(document, indent=2, ensure_ascii=False)
 
 
 _TABLE = (
