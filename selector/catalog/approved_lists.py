@@ -21,18 +21,22 @@ from __future__ import annotations
 from collections import Counter
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
-import numpy as np
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from selector.catalog import audit
 from selector.catalog.models import LIST_NAME_LENGTH, ApprovedList, ListEntry, Part
 from selector.errors import OptionError, RailwrightError, UnknownPartError
-from selector.physics.partset import PartSet
 from selector.spec.list_statuses import LIST_STATUSES, UNUSABLE_STATUSES
 from selector.spec.stack_notation import part_id_order
 from selector.spec.units import shown
+
+if TYPE_CHECKING:
+    import numpy as np
+
+    from selector.physics.partset import PartSet
 
 #: Statuses a search uses when it names a list but no statuses.
 DEFAULT_USABLE_STATUSES: tuple[str, ...] = ("approved", "conditional")
@@ -288,6 +292,8 @@ def list_view(library, parts: PartSet, list_name: str, statuses: Sequence[str] |
         ).all()
     by_part = {part: (status, condition, reason) for part, status, condition, reason in rows}
     looked_up = [by_part.get(str(part), ("", "", "")) for part in parts.part]
+    import numpy as np  # here: list commands that build no view load no numpy
+
     status = np.array([row[0] for row in looked_up], dtype=object)
     condition = np.array([row[1] if row[0] == "conditional" else "" for row in looked_up], dtype=object)
     reason = np.array([row[2] for row in looked_up], dtype=object)

@@ -30,7 +30,6 @@ from selector.catalog.models import (
 from selector.errors import InputDataError, OptionError
 from selector.files.csv_cells import format_number, restore_cell
 from selector.files.input_files import InputFileProblem, read_bounded
-from selector.physics.partset import PartSet
 from selector.spec import units
 from selector.spec.part_fields import (
     BREAKDOWN_FAMILIES,
@@ -449,6 +448,7 @@ def data_warnings(records: Sequence[Mapping[str, object]], label: str) -> list[s
     """``label: PART: warning`` for every valid record whose derived figures are suspect
     (:func:`selector.physics.part_checks.plausibility_warnings`)."""
     from selector.physics.part_checks import plausibility_warnings
+    from selector.physics.partset import PartSet
 
     parts = PartSet.from_records(records)
     return [f"{label}: {records[index]['part']}: {message}" for index, message in plausibility_warnings(parts)]
