@@ -57,6 +57,18 @@ class CheckResult:
     design: CheckedDesign
     list_warnings: list[str] = field(default_factory=list)
     list_conditions: list[str] = field(default_factory=list)
+    #: Per library part, whether the spec's families and list let a variant use it (None: all).
+    usable_parts: object = None
+
+    def what_if(self, limit: int = 12) -> list:
+        """Variants of the design from the library, each solved exactly, best first
+        (:func:`selector.search.what_if.what_if`): neighbouring and finer resistor values,
+        each part swapped for a usable part of its family within ±5 % of its voltage, one
+        forward element added."""
+        from selector.search.what_if import what_if
+
+        design = self.design
+        return what_if(design.parts, design.stack, design.resistor_ohm, design.spec, self.usable_parts, limit)
 
     @property
     def meets(self) -> bool:
@@ -263,9 +275,11 @@ def check(
     catalog = open_catalog(library)
     parts = catalog.load_partset()
     indices = parts.index_of(expand_stack(parse_stack(stack)))
-    warnings, conditions = [], []
+    warnings, conditions, usable = [], [], None
     if spec.list_name is not None:
-        warnings, conditions = stack_notes(list_view(catalog, parts, spec.list_name, spec.statuses), parts, indices)
+        view = list_view(catalog, parts, spec.list_name, spec.statuses)
+        warnings, conditions = stack_notes(view, parts, indices)
+        usable = view.usable
     fixed = resistor if resistor is not None else spec.resistor_fixed_ohm
     sweep = series_sweep(parts, indices, spec)
     picked = None if fixed is not None else sweep.pick(spec, pick)
@@ -292,7 +306,7 @@ def check(
         series_values_ohm=sweep.values_ohm,
         meeting_resistors_ohm=sweep.meeting_ohm,
     )
-    return CheckResult(design, warnings, conditions)
+    return CheckResult(design, warnings, conditions, usable)
 
 
 #: Keys of ``check --json`` a saved design keeps: the contract's figures (no corners) and

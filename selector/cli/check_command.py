@@ -9,7 +9,7 @@ import click
 from selector.api import check as check_design
 from selector.cli.spec_options import SPEC_OPTIONS_EPILOG, spec_options
 from selector.errors import NEGATIVE_VERDICT_EXIT, OptionError
-from selector.views.check_view import check_json, check_lines
+from selector.views.check_view import check_json, check_lines, fix_json, what_if_lines
 
 MAX_MONTE_CARLO_SAMPLES = 10_000_000
 
@@ -37,11 +37,14 @@ MAX_MONTE_CARLO_SAMPLES = 10_000_000
 @click.option("--pick", type=click.Choice(["error", "margin", "centre"]), default="error", show_default=True,
               help="Which meeting series value to take when R is chosen: least worst-case error (the contract's "
               "choice), most dissipation margin, or the rail centred in the window.")
+@click.option("--what-if", "what_if", is_flag=True,
+              help="List the library's variants of the design (resistor values, part swaps, an added element), "
+              "each solved at every corner; shown anyway when the design does not meet.")
 @click.option("--derating", type=float, default=1.0, show_default=True, metavar="FRACTION",
               help="Shop derating for the resistor rating advice: fraction of a rating that may be used, e.g. 0.5.")
 @spec_options
 @click.pass_obj
-def check(state, stack_text, as_json, samples, seed, pick, derating, spec):
+def check(state, stack_text, as_json, samples, seed, pick, what_if, derating, spec):
     """Solve one stack and series resistor at all 32 worst-case corners and report.
 
     Without --resistor the resistor is chosen from the spec's series by the least
@@ -58,8 +61,11 @@ def check(state, stack_text, as_json, samples, seed, pick, derating, spec):
     for warning in result.list_warnings:
         click.echo(f"Warning: {warning}", err=True)
     design, warnings, conditions = result.design, result.list_warnings, result.list_conditions
+    fixes = result.what_if() if (what_if or not design.meets) else None
     if as_json:
         document = check_json(design)
+        if fixes is not None:
+            document["what_if"] = [fix_json(fix) for fix in fixes]
         if spec.list_name is not None:
             document["approved_list"] = {"list": spec.list_name, "warnings": warnings, "conditions": conditions}
         click.echo(json.dumps(document, indent=2, ensure_ascii=False))
@@ -67,6 +73,8 @@ def check(state, stack_text, as_json, samples, seed, pick, derating, spec):
         click.echo("\n".join(check_lines(design)))
         for condition in conditions:
             click.echo(f"Condition of use (list '{spec.list_name}'): {condition}")
+        if fixes is not None:
+            click.echo("\n".join(what_if_lines(fixes)))
     if not design.meets:
         raise click.exceptions.Exit(NEGATIVE_VERDICT_EXIT)
 

@@ -311,6 +311,25 @@ def meeting_range_text(design: CheckedDesign) -> str:
     return f"meets for {value_ranges_text(values, meeting)} ({spec.resistor_series})"
 
 
+def what_if_lines(fixes) -> list[str]:
+    """The what-if list as a table (:class:`selector.search.what_if.Fix`), best first."""
+    if not fixes:
+        return ["", "What if: no variant in the library to try."]
+    rows = ["", "What if (variants from the library, each solved at every corner; best first, * meets):",
+            f"  {'':1} {'change':<28} {'stack':<24} {'R':>9} {'error [mV]':>10} {'P margin':>8}"]
+    for fix in fixes:
+        error = f"{1e3 * fix.error_v:.1f}" if np.isfinite(fix.error_v) else "infeasible"
+        rows.append(f"  {'*' if fix.meets else ' '} {fix.change:<28} {fix.stack:<24} "
+                    f"{format_quantity(fix.resistor_ohm, 'Ω'):>9} {error:>10} {_margin_text(fix.margin, '.1%'):>8}")
+    return rows
+
+
+def fix_json(fix) -> dict:
+    """One what-if variant as JSON."""
+    return {"change": fix.change, "stack": fix.stack, "resistor_ohm": fix.resistor_ohm, "error_v": _finite(fix.error_v),
+            "margin": _finite(fix.margin), "meets": fix.meets, "feasible": fix.feasible}
+
+
 def budget_lines(design: CheckedDesign) -> list[str]:
     """The error budget as a table: each source's exact shift below and above the nominal
     rail, its share of the worst-side deviation, and the linearised estimate beside it."""
