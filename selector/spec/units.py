@@ -239,6 +239,10 @@ _ENGINEERING = [
 ]
 
 
+#: Units written without an SI prefix.
+UNPREFIXED_SYMBOLS = frozenset({"K/W", "°C"})
+
+
 def format_quantity(value: float, symbol: str, digits: int = 4) -> str:
     """Write a value in engineering notation with an SI prefix, e.g. ``4.7 kΩ``.
 
@@ -260,6 +264,9 @@ def format_quantity(value: float, symbol: str, digits: int = 4) -> str:
         return f"{value} {symbol}".strip()
     if value == 0:
         return f"0 {symbol}".strip()
+    if symbol in UNPREFIXED_SYMBOLS:
+        # A prefix on a compound unit misleads ("1.5 kK/W"): the trade writes 1500 K/W.
+        return f"{value:.{digits}g} {symbol}" if abs(value) < 10**digits else f"{value:.0f} {symbol}"
     magnitude = abs(value)
     if magnitude < 1e-15 or magnitude >= 1e15:
         return f"{value:.{digits}g} {symbol}".strip()

@@ -375,7 +375,7 @@ def _corner_table(design: CheckedDesign, broken: list[Failure]) -> list[str]:
     for c in range(len(corners)):
         off = ev.corner_status[0, c] == STATUS_STACK_OFF
         mark = "!" if not solved[c] else "<" if c == low else ">" if c == high else "o" if off else " "
-        load = f"{corners.load_value[c]:.4g}" if resistive else f"{1e3 * corners.load_value[c]:.3f}"
+        load = format_quantity(float(corners.load_value[c]), "") if resistive else f"{1e3 * corners.load_value[c]:.3f}"
         cells = (
             f"{mark}{c + 1:>2}  {corners.supply_v[c]:>10.3f} {load:>10} "
             f"{corners.ambient_c[c]:>8.1f} {design.resistor_ohm * corners.resistor_factor[c]:>10.1f} "
