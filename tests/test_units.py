@@ -201,3 +201,11 @@ def test_numpy_scalars_are_numbers():
 
 def test_shown_leaves_printable_text_alone():
     assert units.shown("4.7 k\u03a9") == "4.7 k\u03a9"
+
+
+def test_compound_and_temperature_units_take_no_prefix():
+    from selector.spec.units import format_quantity
+
+    assert format_quantity(1500.0, "K/W") == "1500 K/W"
+    assert format_quantity(330.0, "K/W") == "330 K/W"
+    assert format_quantity(4.7e3, "Ω") == "4.7 kΩ"
