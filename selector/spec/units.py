@@ -266,7 +266,7 @@ def format_quantity(value: float, symbol: str, digits: int = 4) -> str:
         return f"0 {symbol}".strip()
     if symbol in UNPREFIXED_SYMBOLS:
         # A prefix on a compound unit misleads ("1.5 kK/W"): the trade writes 1500 K/W.
-        return f"{value:.{digits}g} {symbol}" if abs(value) < 10**digits else f"{value:.0f} {symbol}"
+        return f"{value:.{digits}g} {symbol}"
     magnitude = abs(value)
     if magnitude < 1e-15 or magnitude >= 1e15:
         return f"{value:.{digits}g} {symbol}".strip()
