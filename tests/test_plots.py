@@ -75,7 +75,8 @@ def test_each_sweep_is_one_solver_call(monkeypatch):
     monkeypatch.setattr(sweeps, "solve_operating_points", counting)
     sweeps.supply_sweep(PARTS, np.array([0, 1]), 330.0, spec())
     sweeps.ambient_sweep(PARTS, np.array([0, 1]), 330.0, spec())
-    assert calls == [4 * sweeps.SWEEP_POINTS, 4 * sweeps.SWEEP_POINTS]
+    # Four curves, each at nominal and at the band's four (parts, resistor) extremes.
+    assert calls == [5 * 4 * sweeps.SWEEP_POINTS, 5 * 4 * sweeps.SWEEP_POINTS]
 
 
 def test_unsolvable_points_are_gaps_not_zeros():

@@ -2,11 +2,15 @@
 
 Each sweep is one vectorised :func:`selector.physics.circuit.solve_operating_points` call
 (every curve and every point at once), with the design's exact resistor and every element
-at its nominal value (tolerance sign 0).
+at its nominal value (tolerance sign 0). The same call also solves every curve with the
+parts at either end of their tolerance and TC spread and the resistor at either end of its
+tolerance and TCR: the **worst-case band** around the curves, where a failing design
+shows how far outside the window it goes.
 """
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
@@ -14,6 +18,7 @@ import numpy as np
 from selector.physics.circuit import solve_operating_points
 from selector.physics.corners import load_terms, worst_case_corners
 from selector.physics.partset import PartSet
+from selector.physics.series_resistor import resistor_factor
 from selector.spec.rail_spec import AMBIENT_LIMITS_C, RailSpec
 from selector.spec.units import format_quantity
 
@@ -39,6 +44,9 @@ class Sweep:
         ``"supply"`` or ``"ambient"``.
     spec_range : tuple of float
         The spec's range of the swept quantity.
+    band_low_v, band_high_v : ndarray (points,) [V]
+        Lowest and highest rail over every curve with the parts and the resistor at their
+        tolerance extremes (the worst-case band); NaN where no such point has a solution.
     """
 
     x: np.ndarray
@@ -46,6 +54,13 @@ class Sweep:
     labels: tuple[str, ...]
     quantity: str
     spec_range: tuple[float, float]
+    band_low_v: np.ndarray | None = None
+    band_high_v: np.ndarray | None = None
+
+    def outside_window(self, spec: RailSpec) -> np.ndarray:
+        """Where the band leaves the window (bool per point)."""
+        with np.errstate(invalid="ignore"):
+            return (self.band_low_v < spec.rail_min_v) | (self.band_high_v > spec.rail_max_v)
 
 
 def _sweep_axis(low: float, high: float, floor: float, ceiling: float) -> np.ndarray:
@@ -57,20 +72,39 @@ def _load_text(spec: RailSpec, value: float) -> str:
     return format_quantity(value, "Ω" if spec.load_kind == "resistance" else "A", 3)
 
 
-def _solve_sweep(parts, stack, resistor_ohm, spec, supply_v, load_value, ambient_c) -> np.ndarray:
+#: (part sign, resistor sign) of the nominal curves and of the band's four extremes.
+_SIGNS = ((0.0, 0.0), (-1.0, -1.0), (-1.0, 1.0), (1.0, -1.0), (1.0, 1.0))
+
+
+def _solve_sweep(parts, stack, resistor_ohm, spec, supply_v, load_value, ambient_c):
+    """Nominal rail (count,) and the band's lowest and highest rail per point of the curves
+    (count,), all in one solve."""
     load_current, conductance = load_terms(spec, load_value)
     count = supply_v.size
+    part_sign = np.repeat([sign for sign, _ in _SIGNS], count)
+    resistor_sign = np.repeat([sign for _, sign in _SIGNS], count)
+    ambient = np.tile(ambient_c, len(_SIGNS))
     points = solve_operating_points(
         parts,
-        np.repeat(np.asarray(stack, dtype=np.intp).reshape(1, -1), count, axis=0),
-        supply_v,
-        np.full(count, float(resistor_ohm)),
-        ambient_c,
-        np.zeros(count),
-        load_current,
-        conductance,
+        np.repeat(np.asarray(stack, dtype=np.intp).reshape(1, -1), count * len(_SIGNS), axis=0),
+        np.tile(supply_v, len(_SIGNS)),
+        float(resistor_ohm) * resistor_factor(spec, ambient, resistor_sign),
+        ambient,
+        part_sign,
+        np.tile(load_current, len(_SIGNS)),
+        np.tile(conductance, len(_SIGNS)),
     )
-    return np.where(points.solved, points.vout_v, np.nan)
+    rail = np.where(points.solved, points.vout_v, np.nan).reshape(len(_SIGNS), count)
+    with np.errstate(all="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)  # an all-NaN column: no solution there
+        return rail[0], np.nanmin(rail[1:], axis=0), np.nanmax(rail[1:], axis=0)
+
+
+def _band(low: np.ndarray, high: np.ndarray, curves: int):
+    """Per swept point, the band over every curve."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        return np.nanmin(low.reshape(curves, -1), axis=0), np.nanmax(high.reshape(curves, -1), axis=0)
 
 
 def supply_sweep(parts: PartSet, stack: np.ndarray, resistor_ohm: float, spec: RailSpec) -> Sweep:
@@ -96,7 +130,7 @@ def supply_sweep(parts: PartSet, stack: np.ndarray, resistor_ohm: float, spec: R
     ambients = (corners.ambient_c[0], corners.ambient_c[4])
     fixed = [(load, ambient) for load in loads for ambient in ambients]
     x = _sweep_axis(spec.supply_min_v, spec.supply_max_v, 1e-3, np.inf)
-    vout = _solve_sweep(
+    vout, low, high = _solve_sweep(
         parts, stack, resistor_ohm, spec,
         np.tile(x, len(fixed)),
         np.repeat([load for load, _ in fixed], x.size),
@@ -106,7 +140,8 @@ def supply_sweep(parts: PartSet, stack: np.ndarray, resistor_ohm: float, spec: R
         f"load {'least' if i < 2 else 'most'} ({_load_text(spec, load)}), Ta {ambient:g} °C"
         for i, (load, ambient) in enumerate(fixed)
     )
-    return Sweep(x, vout.reshape(len(fixed), x.size), labels, "supply", (spec.supply_min_v, spec.supply_max_v))
+    return Sweep(x, vout.reshape(len(fixed), x.size), labels, "supply", (spec.supply_min_v, spec.supply_max_v),
+                 *_band(low, high, len(fixed)))
 
 
 def ambient_sweep(parts: PartSet, stack: np.ndarray, resistor_ohm: float, spec: RailSpec) -> Sweep:
@@ -120,7 +155,7 @@ def ambient_sweep(parts: PartSet, stack: np.ndarray, resistor_ohm: float, spec: 
     loads = (corners.load_value[0], corners.load_value[8])
     fixed = [(supply, load) for supply in supplies for load in loads]
     x = _sweep_axis(spec.ambient_min_c, spec.ambient_max_c, *AMBIENT_LIMITS_C)
-    vout = _solve_sweep(
+    vout, low, high = _solve_sweep(
         parts, stack, resistor_ohm, spec,
         np.repeat([supply for supply, _ in fixed], x.size),
         np.repeat([load for _, load in fixed], x.size),
@@ -130,4 +165,5 @@ def ambient_sweep(parts: PartSet, stack: np.ndarray, resistor_ohm: float, spec: 
         f"Vin {format_quantity(supply, 'V')}, load {'least' if i % 2 == 0 else 'most'} ({_load_text(spec, load)})"
         for i, (supply, load) in enumerate(fixed)
     )
-    return Sweep(x, vout.reshape(len(fixed), x.size), labels, "ambient", (spec.ambient_min_c, spec.ambient_max_c))
+    return Sweep(x, vout.reshape(len(fixed), x.size), labels, "ambient", (spec.ambient_min_c, spec.ambient_max_c),
+                 *_band(low, high, len(fixed)))

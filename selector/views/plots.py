@@ -61,6 +61,10 @@ STYLE: dict[str, object] = {
     "svg.hashsalt": "railwright-report",
 }
 
+#: The worst-case band of a sweep, and the part of it outside the window.
+BAND_TINT = "#9fb3c8"
+OUTSIDE_TINT = "#c0392b"
+
 #: Figure size [inch], and the axes' place in it [fraction of the figure].
 FIGURE_SIZE = (7.2, 3.8)
 FIGURE_MARGINS = dict(left=0.09, right=0.62, bottom=0.13, top=0.91)
@@ -111,6 +115,18 @@ def sweep_figure(sweep: Sweep, spec: RailSpec, title: str):
         figure, axes = _figure()
         _window(axes, spec)
         axes.axvspan(*sweep.spec_range, facecolor=RANGE_TINT, zorder=-1, linewidth=0.0, label="spec range")  # under the window
+        if sweep.band_low_v is not None:
+            axes.fill_between(sweep.x, sweep.band_low_v, sweep.band_high_v, color=BAND_TINT, alpha=0.45, linewidth=0.0,
+                              zorder=2, label="worst-case band (parts, R at tolerance)")  # fmt: skip
+            if sweep.outside_window(spec).any():
+                # Only what lies beyond the window is red: how far out, and where.
+                with np.errstate(invalid="ignore"):
+                    above, below = sweep.band_high_v > spec.rail_max_v, sweep.band_low_v < spec.rail_min_v
+                axes.fill_between(sweep.x, np.maximum(sweep.band_low_v, spec.rail_max_v), sweep.band_high_v,
+                                  where=above, color=OUTSIDE_TINT, alpha=0.7, linewidth=0.0, zorder=2,
+                                  label="band outside the window")  # fmt: skip
+                axes.fill_between(sweep.x, sweep.band_low_v, np.minimum(sweep.band_high_v, spec.rail_min_v),
+                                  where=below, color=OUTSIDE_TINT, alpha=0.7, linewidth=0.0, zorder=2)  # fmt: skip
         every = max(sweep.x.size // 8, 1)
         for i, (curve, label) in enumerate(zip(sweep.vout_v, sweep.labels, strict=True)):
             axes.plot(sweep.x, curve, color=INKS[i % 4], linestyle=LINE_STYLES[i % 4], marker=MARKERS[i % 4],

@@ -600,10 +600,13 @@ def _candidate_section(candidate: CandidateReview, svg: dict[str, str]) -> str:
         "<h3>Plots</h3>",
         "" if f"{key}-supply" in svg else "<p>Sweeps are drawn for the first designs only (--sweeps).</p>",
         _figure(svg, f"{key}-supply", "Rail against supply with the exact resistor and every element at nominal, one "
-                "curve per load extreme and ambient extreme; hatched: the tolerance window; tinted: the spec's "
-                "supply range."),
+                "curve per load extreme and ambient extreme; the shaded band is the rail over those curves with "
+                "every part at either end of its tolerance and TC spread and the resistor at either end of its "
+                "tolerance and TCR (red where it leaves the window); hatched: the tolerance window; tinted: the "
+                "spec's supply range."),
         _figure(svg, f"{key}-ambient", "Rail against ambient temperature (self-heating included), one curve per "
-                "supply extreme and load extreme; tinted: the spec's ambient range."),
+                "supply extreme and load extreme, with the same worst-case band (red outside the window); tinted: "
+                "the spec's ambient range."),
         _figure(svg, f"{key}-monte-carlo", _monte_carlo_caption(candidate.design)),
     ]
     cautions = document["cautions"]
