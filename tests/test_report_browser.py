@@ -56,3 +56,35 @@ def test_report_renders_in_headless_chromium(tmp_path):
         assert band.std() > 0.02
     dark = (pixels.mean(axis=2) < 0.35).mean()
     assert 0.005 < dark < 0.5  # some ink, not a black screen
+
+
+def _red_share(tmp_path, tolerance_v: float) -> float:
+    import numpy as np
+
+    from selector.physics.partset import PartSet
+    from selector.physics.sweeps import supply_sweep
+    from selector.spec.rail_spec import RailSpec
+    from selector.views import plots
+
+    zener = dict(part="BR-Z", family="zener", vz_v=5.1, izt_a=5e-3, zzt_ohm=10.0, izk_a=0.5e-3, zzk_ohm=200.0,
+                 vz_tol_pct=5.0, tc_v_per_k=1e-3, pd_w=0.5)  # invented
+    rail = RailSpec(target_v=5.1, tolerance_v=tolerance_v, supply_min_v=11.0, supply_max_v=13.0,
+                    supply_nominal_v=12.0, load_kind="current", load_min=0.0, load_max=1e-3, ambient_min_c=0.0,
+                    ambient_max_c=50.0)  # fmt: skip
+    figure = plots.sweep_figure(supply_sweep(PartSet.from_records([zener]), np.array([0]), 1000.0, rail), rail, "sweep")
+    folder = tmp_path / f"tol-{tolerance_v:g}"
+    folder.mkdir()
+    page = folder / "sweep.html"
+    page.write_text(f"<!doctype html><html><body>{plots.svg_markup(figure, 'sweep')}</body></html>", encoding="utf-8")
+    pixels = matplotlib.image.imread(screenshot(page, folder))[..., :3]
+    red = (pixels[..., 0] > 0.6) & (pixels[..., 1] < 0.45) & (pixels[..., 2] < 0.45)
+    return float(red.mean())
+
+
+def test_a_failing_designs_sweep_shows_its_band_outside_the_window_in_chromium(tmp_path):
+    if CHROMIUM is None:
+        print("skipped: Chromium is not installed (Debian package 'chromium')")
+        pytest.skip("Chromium is not installed (Debian package 'chromium')")
+    # 5 % of 5.1 V: outside a ±100 mV window at every supply, inside ±500 mV.
+    assert _red_share(tmp_path, 0.1) > 0.01
+    assert _red_share(tmp_path, 0.5) < 0.001
