@@ -168,3 +168,19 @@ def test_csv_gets_its_spec_sibling_and_json_its_context(tmp_path):
     context = document["context"]
     assert set(context) == {"spec", "library_sha256", "computed_at", "railwright_version"}
     assert len(context["library_sha256"]) == 64 and context["spec"]["target_v"] == 5.0
+
+
+def test_a_search_that_finds_nothing_says_which_end_of_the_resistor_range_fails(tmp_path):
+    db = str(tmp_path / "lib.sqlite")
+    assert run("--db", db, "init", "--demo").exit_code == 0
+    example = str(Path(__file__).parents[1] / "examples" / "rail-5v-from-12v.toml")
+    result = run("--db", db, "seek", "--spec", example, "--top", "3", "--tolerance", "50mV", "--load-max", "60mA")
+    lines = result.output.splitlines()
+    assert any(line.startswith("  pruned, too little current: even the lowest allowed R cannot give every corner its "
+                               "least current: ") for line in lines)
+    assert lines[-1] == ("  closest to having a resistor: Z2V7-B + Z3V3-A + Z5V1-A: enough current needs R ≤ 14.97 Ω; "
+                         "the parts' and the resistor's current and power limits need R ≥ 13.45 Ω (no E24 value lies "
+                         "between)")
+    summary = json.loads(run("--db", db, "seek", "--spec", example, "--top", "3", "--tolerance", "50mV", "--load-max",
+                             "60mA", "--json").output)["summary"]
+    assert summary["closest_resistor_conflict"].startswith("Z2V7-B + Z3V3-A + Z5V1-A: ")

@@ -74,6 +74,8 @@ from selector.search.stack_bounds import (
     separable_rail_bounds,
 )
 from selector.spec.rail_spec import RailSpec
+from selector.spec.stack_notation import format_stack
+from selector.spec.units import format_quantity
 
 #: Stacks solved per batch; the pruning threshold is updated between batches.
 BATCH_STACKS = 3000
@@ -84,6 +86,11 @@ PARALLEL_THRESHOLD = 4 * BATCH_STACKS
 
 REASON_WINDOW = "no current is both enough and within a part's power or current limit"
 REASON_RESISTOR = "no series-resistor value can give every corner enough current within limits"
+#: The two ends of that: even the lowest allowed R gives too little current, or even the
+#: highest allowed R lets a part or the resistor take too much current or power.
+REASON_TOO_LITTLE_CURRENT = "too little current: even the lowest allowed R cannot give every corner its least current"
+REASON_TOO_MUCH_POWER = ("too much current or dissipation: even the highest allowed R overloads a part or the "
+                         "resistor at some corner")
 REASON_RANK = "cannot rank above the shortlist (error bound)"
 REASON_DESIGN = "every series value proven short of current at some corner"
 REASON_SCREEN = "every series value proven infeasible at a screening corner"
@@ -131,6 +138,10 @@ class SearchSummary:
     spec: RailSpec | None = None
     elapsed_s: float = 0.0
     part_count: int = 0
+    #: The stack whose resistor limits came closest to overlapping, as one line (or None).
+    closest_resistor_conflict: str | None = None
+    _closest_ratio: float = field(default=np.inf, repr=False)
+    _part_names: tuple[str, ...] = field(default=(), repr=False)
 
     @property
     def main_rejection(self) -> str | None:
@@ -152,6 +163,7 @@ class SearchSummary:
             "meeting": self.meeting,
             "part_count": self.part_count,
             "main_rejection": self.main_rejection,
+            "closest_resistor_conflict": self.closest_resistor_conflict,
             "elapsed_s": self.elapsed_s,
             "spec": spec,
         }
@@ -283,6 +295,32 @@ def _reason_texts(evaluation) -> np.ndarray:
     return reason.astype(object)
 
 
+def _count_resistor_conflicts(no_resistor, bounds, values, chunk, summary: SearchSummary, pruned: Counter) -> None:
+    """Count the stacks no series value serves, by which end fails, and keep the one whose
+    limits came closest to overlapping (its R range for current and for power)."""
+    if not no_resistor.any():
+        return
+    high, low = bounds.resistor_high_ohm[no_resistor], bounds.resistor_low_ohm[no_resistor]
+    too_little = high < values[0]
+    too_much = ~too_little & (low > values[-1])
+    pruned[REASON_TOO_LITTLE_CURRENT] += int(too_little.sum())
+    pruned[REASON_TOO_MUCH_POWER] += int(too_much.sum())
+    both = ~too_little & ~too_much
+    pruned[REASON_RESISTOR] += int(both.sum())
+    if both.any():
+        ratio = low[both] / high[both]
+        best = int(np.argmin(ratio))
+        if ratio[best] < summary._closest_ratio:
+            row = np.flatnonzero(no_resistor)[np.flatnonzero(both)[best]]
+            summary._closest_ratio = float(ratio[best])
+            name = format_stack([summary._part_names[i] for i in chunk[row] if i >= 0])
+            most, least = format_quantity(float(high[both][best]), "Ω"), format_quantity(float(low[both][best]), "Ω")
+            summary.closest_resistor_conflict = (
+                f"{name}: enough current needs R ≤ {most}; the parts' and the resistor's current and power limits "
+                f"need R ≥ {least}" + (f" (no {summary.spec.resistor_series} value lies between)" if ratio[best] <= 1
+                                       else ""))  # fmt: skip
+
+
 def survey_candidates(spec: RailSpec, tables, chunks, summary: SearchSummary, pruned: Counter):
     """Bound every candidate of ``chunks``; returns the survivors and their error bounds.
 
@@ -298,7 +336,7 @@ def survey_candidates(spec: RailSpec, tables, chunks, summary: SearchSummary, pr
         window = bounds.window_empty
         no_resistor = ~window & (first > last) & (spec.resistor_fixed_ohm is None)
         pruned[REASON_WINDOW] += int(window.sum())
-        pruned[REASON_RESISTOR] += int(no_resistor.sum())
+        _count_resistor_conflicts(no_resistor, bounds, values, chunk, summary, pruned)
         keep = ~(window | no_resistor)
         kept_stacks.append(chunk[keep])
         kept_error.append(bounds.error_lower_v[keep])
@@ -465,7 +503,7 @@ def search_library(
     quantised_error(np.zeros(1), resolution_v)
     usable = usable_parts(library_parts, spec.families, usable_mask, conditions)
     parts = usable.parts
-    summary = SearchSummary(spec=spec, part_count=len(parts))
+    summary = SearchSummary(spec=spec, part_count=len(parts), _part_names=tuple(str(name) for name in parts.part))
     check_search_size(len(parts), spec.max_parts, force=force)
     tables = part_bound_tables(parts, spec)
     worker_count = workers if workers is not None else min(os.cpu_count() or 1, 2)

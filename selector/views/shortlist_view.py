@@ -93,4 +93,6 @@ def summary_lines(summary) -> list[str]:
     lines += [f"  pruned, {reason}: {count}" for reason, count in summary.pruned.items()]
     lines += [f"  infeasible after solving, {reason}: {count}" for reason, count in summary.infeasible.items()]
     lines.append(f"  feasible: {summary.feasible}, meeting the spec: {summary.meeting}")
+    if summary.closest_resistor_conflict and not summary.meeting:
+        lines.append(f"  closest to having a resistor: {summary.closest_resistor_conflict}")
     return lines
