@@ -155,15 +155,15 @@ def _library_parts(library, list_name, statuses, usable_mask):
                 f"the spec names the approved-parts list '{list_name}': pass the library "
                 "(not a PartSet), or a usable_mask"
             )
-        return library, usable_mask, None
+        return library, usable_mask, None, None
     library = open_catalog(library)
     parts = library.load_partset()
     if list_name is None or usable_mask is not None:
-        return parts, usable_mask, None
+        return parts, usable_mask, None, None
     from selector.catalog.approved_lists import list_view
 
     view = list_view(library, parts, list_name, statuses)
-    return parts, view.usable, view.condition
+    return parts, view.usable, view.condition, view.status
 
 
 def seek(
@@ -210,13 +210,16 @@ def seek(
     from selector.search.shortlist import shortlist_frame
 
     spec = as_spec(spec)
-    parts, usable_mask, list_conditions = _library_parts(library, spec.list_name, spec.statuses, usable_mask)
+    parts, usable_mask, list_conditions, list_status = _library_parts(library, spec.list_name, spec.statuses,
+                                                                      usable_mask)  # fmt: skip
     shortlist, usable, summary = search_library(
         parts, spec, top=top, rank_by=rank_by, resolution_v=resolution_v, usable_mask=usable_mask,
         conditions=conditions if conditions is not None else list_conditions,
         force=force, workers=workers, progress=progress,
     )
-    frame = shortlist_frame(usable.parts, shortlist.stacks, shortlist.resistor_ohm, shortlist.evaluation, usable.condition)
+    status = None if list_status is None else np.asarray(list_status, dtype=object)[usable.library_index]
+    frame = shortlist_frame(usable.parts, shortlist.stacks, shortlist.resistor_ohm, shortlist.evaluation, usable.condition,
+                            status)  # fmt: skip
     return SeekResult(frame, summary)
 
 

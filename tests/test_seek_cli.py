@@ -184,3 +184,20 @@ def test_a_search_that_finds_nothing_says_which_end_of_the_resistor_range_fails(
     summary = json.loads(run("--db", db, "seek", "--spec", example, "--top", "3", "--tolerance", "50mV", "--load-max",
                              "60mA", "--json").output)["summary"]
     assert summary["closest_resistor_conflict"].startswith("Z2V7-B + Z3V3-A + Z5V1-A: ")
+
+
+def test_rows_using_an_evaluating_part_say_so_in_table_csv_and_json(tmp_path):
+    db = str(tmp_path / "lib.sqlite")
+    assert run("--db", db, "init", "--demo").exit_code == 0
+    assert run("--db", db, "approved", "create", "line-a").exit_code == 0
+    for part in ("Z5V1-B", "Z4V7-B", "D-SCH3"):
+        assert run("--db", db, "approved", "set", "line-a", part, "approved", "--reason", "qualified").exit_code == 0
+    assert run("--db", db, "approved", "set", "line-a", "Z5V1-A", "evaluating", "--reason", "on trial").exit_code == 0
+    example = str(Path(__file__).parents[1] / "examples" / "rail-5v-from-12v.toml")
+    base = ("--db", db, "seek", "--spec", example, "--list", "line-a", "--statuses", "approved,evaluating", "--top", "4")
+    out = tmp_path / "short.csv"
+    assert "  #3 uses parts not approved on 'line-a': Z5V1-A: evaluating" in run(*base, "--csv", str(out)).output
+    rows = list(csv.DictReader(out.open(encoding="utf-8")))
+    assert [row["statuses"] for row in rows] == ["", "", "Z5V1-A: evaluating", ""]
+    shortlist = json.loads(run(*base, "--json").output)["shortlist"]
+    assert shortlist[2]["stack"] == "Z5V1-A" and shortlist[2]["statuses"] == "Z5V1-A: evaluating"

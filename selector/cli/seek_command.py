@@ -102,6 +102,9 @@ def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool
         for rank, conditions in zip(frame["rank"], frame["conditions"], strict=True):
             if conditions:
                 click.echo(f"  #{rank} conditions of use (list '{spec.list_name}'): {conditions}")
+        for rank, statuses in zip(frame["rank"], frame["statuses"], strict=True):
+            if statuses:
+                click.echo(f"  #{rank} uses parts not approved on '{spec.list_name}': {statuses}")
         near = int(frame["near_limit"].sum())
         if near:
             click.echo(

@@ -21,11 +21,12 @@ CONTRACT_COLUMNS: tuple[str, ...] = (
     "rank", "stack", "parts", "resistor_ohm", "vout_nom_v", "vout_low_v", "vout_high_v",
     "error_v", "margin", "meets",
 )  # fmt: skip
-EXTRA_COLUMNS: tuple[str, ...] = ("pareto", "i_min_a", "conditions", "near_limit", "cautions")
+EXTRA_COLUMNS: tuple[str, ...] = ("pareto", "i_min_a", "conditions", "near_limit", "cautions", "statuses")
 COLUMNS: tuple[str, ...] = CONTRACT_COLUMNS + EXTRA_COLUMNS
 
 
-def shortlist_frame(parts, stacks: np.ndarray, resistor_ohm: np.ndarray, evaluation, condition: np.ndarray) -> pd.DataFrame:
+def shortlist_frame(parts, stacks: np.ndarray, resistor_ohm: np.ndarray, evaluation, condition: np.ndarray,
+                    status: np.ndarray | None = None) -> pd.DataFrame:  # fmt: skip
     """Build the shortlist DataFrame from ranked designs (best first).
 
     Parameters
@@ -38,6 +39,9 @@ def shortlist_frame(parts, stacks: np.ndarray, resistor_ohm: np.ndarray, evaluat
         Of the same designs, in the same order (None: an empty shortlist).
     condition : array of str
         Per part, its condition of use (empty when none).
+    status : array of str, optional
+        Per part, its status on the spec's approved list: a row's ``statuses`` lists its
+        parts whose status is not ``approved`` (an evaluating part, say), empty otherwise.
     """
     if evaluation is None or len(resistor_ohm) == 0:
         return pd.DataFrame({column: pd.Series(dtype=object) for column in COLUMNS})
@@ -47,6 +51,8 @@ def shortlist_frame(parts, stacks: np.ndarray, resistor_ohm: np.ndarray, evaluat
         "; ".join(dict.fromkeys(f"{parts.part[i]}: {condition[i]}" for i in row if condition[i])) for row in rows
     ]
     cautions = [design_cautions(parts, stack, evaluation, design) for design, stack in enumerate(stacks)]
+    statuses = ["" if status is None else "; ".join(dict.fromkeys(
+        f"{parts.part[i]}: {status[i]}" for i in row if status[i] != "approved")) for row in rows]  # fmt: skip
     return pd.DataFrame({
         "rank": np.arange(1, len(rows) + 1),
         "stack": [format_stack(parts.part[row]) for row in rows],
@@ -63,4 +69,5 @@ def shortlist_frame(parts, stacks: np.ndarray, resistor_ohm: np.ndarray, evaluat
         "conditions": conditions,
         "near_limit": np.asarray(evaluation.margin, dtype=float) < NEAR_LIMIT_MARGIN,
         "cautions": ["; ".join(c.text for c in found) for found in cautions],
+        "statuses": statuses,
     })
