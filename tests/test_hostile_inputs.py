@@ -93,3 +93,20 @@ def test_devices_and_fifos_are_not_read(run_cli, db, tmp_path):
     os.mkfifo(fifo)
     _one_line_error(run_cli("--db", db, "seek", "--spec", fifo), 1,
                     f"{fifo}: is not a regular file (a device, FIFO or socket); give a file")
+
+
+def test_replace_into_cannot_forge_an_audit_event_on_sqlite(run_cli, db):
+    import sqlite3
+
+    assert run_cli("--db", db, "approved", "create", "line-a").exit_code == 0
+    assert run_cli("--db", db, "approved", "set", "line-a", "D-SIG1", "banned", "--reason",
+                   "failed qualification").exit_code == 0
+    before = run_cli("--db", db, "history").stdout
+    connection = sqlite3.connect(db)
+    last = connection.execute("SELECT max(id) FROM audit_events").fetchone()[0]
+    with pytest.raises(sqlite3.IntegrityError, match="append-only rows cannot be replaced"):
+        connection.execute("REPLACE INTO audit_events (id, occurred_at, actor, action, reason, list_name, part, "
+                           "old_value, new_value) SELECT id, occurred_at, actor, action, 'qualified', list_name, part, "
+                           "old_value, 'approved' FROM audit_events WHERE id = ?", (last,))  # fmt: skip
+    connection.close()
+    assert run_cli("--db", db, "history").stdout == before
