@@ -4,6 +4,7 @@ invented, with a tighter grade of the failing zener so that a fix is known to ex
 from __future__ import annotations
 
 import numpy as np
+import pytest
 
 from selector.physics.corners import evaluate_designs
 from selector.physics.partset import PartSet
@@ -58,3 +59,27 @@ def test_check_lists_the_variants_of_a_failing_design(run_cli, tmp_path):
     document = json.loads(run_cli("--db", db, "check", "--spec", example, "--stack", "Z5V1-B", "--what-if",
                                   "--json").stdout)
     assert {"change", "stack", "resistor_ohm", "error_v", "margin", "meets", "feasible"} == set(document["what_if"][0])
+
+
+def test_the_largest_supply_range_that_meets_is_found_by_bisection():
+    import dataclasses
+
+    from selector.search.what_if import largest_meeting_range
+
+    tight = GRADE_1 | {"vz_tol_pct": 0.5, "zzt_ohm": 40.0, "zzk_ohm": 400.0}
+    parts = PartSet.from_records([tight])
+    stack = np.array([0])
+    nominal = evaluate_designs(parts, stack[None, :], np.array([1000.0]), SPEC).vout_nom_v[0]
+    wide = dataclasses.replace(SPEC, target_v=float(nominal), supply_min_v=8.0, supply_max_v=16.0, tolerance_v=0.1)
+
+    def meets(spec):
+        return bool(evaluate_designs(parts, stack[None, :], np.array([1000.0]), spec).meets[0])
+
+    assert not meets(wide)
+    low, high = largest_meeting_range(parts, stack, 1000.0, wide, "supply")
+    assert 8.0 < low < 12.0 < high < 16.0
+    assert (12.0 - low) / 4.0 == pytest.approx((high - 12.0) / 4.0, rel=1e-9)  # shrunk about the nominal
+    assert meets(dataclasses.replace(wide, supply_min_v=low, supply_max_v=high))
+    wider = 1.001
+    assert not meets(dataclasses.replace(wide, supply_min_v=12.0 - wider * (12.0 - low),
+                                         supply_max_v=12.0 + wider * (high - 12.0)))

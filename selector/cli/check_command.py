@@ -9,7 +9,7 @@ import click
 from selector.api import check as check_design
 from selector.cli.spec_options import SPEC_OPTIONS_EPILOG, spec_options
 from selector.errors import NEGATIVE_VERDICT_EXIT, OptionError
-from selector.views.check_view import check_json, check_lines, fix_json, what_if_lines
+from selector.views.check_view import check_json, check_lines, fix_json, range_lines, what_if_lines
 
 MAX_MONTE_CARLO_SAMPLES = 10_000_000
 
@@ -75,6 +75,8 @@ def check(state, stack_text, as_json, samples, seed, pick, what_if, derating, sp
             click.echo(f"Condition of use (list '{spec.list_name}'): {condition}")
         if fixes is not None:
             click.echo("\n".join(what_if_lines(fixes)))
+            for line in range_lines(design):
+                click.echo(line)
     if not design.meets:
         raise click.exceptions.Exit(NEGATIVE_VERDICT_EXIT)
 

@@ -149,3 +149,50 @@ def _fix(parts, stack, resistor, evaluation, row, change) -> Fix:
     return Fix(change, format_stack([str(parts.part[i]) for i in stack if i >= 0]), resistor,
                float(evaluation.error_v[row]) if feasible else np.inf, float(evaluation.margin[row]),
                bool(evaluation.meets[row]), feasible)  # fmt: skip
+
+
+#: Bisection steps for the largest meeting range (the range is then known to 2⁻²⁰ of itself).
+RANGE_BISECTIONS = 20
+
+
+def largest_meeting_range(parts: PartSet, stack: np.ndarray, resistor_ohm: float, spec: RailSpec,
+                          quantity: str) -> tuple[float, float] | None:  # fmt: skip
+    """The widest supply (or ambient) range, shrunk symmetrically about its nominal, at
+    which the design meets the spec, by bisection on the exact 32-corner solve.
+
+    Parameters
+    ----------
+    quantity : str
+        ``"supply"`` (about the nominal supply) or ``"ambient"`` (about the range's middle).
+
+    Returns
+    -------
+    (low, high) [V or °C], or None when it does not meet even at the nominal point alone.
+    """
+    from dataclasses import replace
+
+    if quantity == "supply":
+        centre, low, high = spec.supply_nominal_v, spec.supply_min_v, spec.supply_max_v
+    else:
+        centre = (spec.ambient_min_c + spec.ambient_max_c) / 2.0
+        low, high = spec.ambient_min_c, spec.ambient_max_c
+    stack = np.asarray(stack, dtype=np.intp)[None, :]
+
+    def bounds(fraction: float) -> tuple[float, float]:
+        return centre - fraction * (centre - low), centre + fraction * (high - centre)
+
+    def meets(fraction: float) -> bool:
+        lo, hi = bounds(fraction)
+        changed = (replace(spec, supply_min_v=lo, supply_max_v=hi) if quantity == "supply"
+                   else replace(spec, ambient_min_c=lo, ambient_max_c=hi))  # fmt: skip
+        return bool(evaluate_designs(parts, stack, np.array([resistor_ohm]), changed).meets[0])
+
+    if meets(1.0):
+        return bounds(1.0)
+    if not meets(0.0):
+        return None
+    inside, outside = 0.0, 1.0
+    for _ in range(RANGE_BISECTIONS):
+        middle = 0.5 * (inside + outside)
+        inside, outside = (middle, outside) if meets(middle) else (inside, middle)
+    return bounds(inside)

@@ -324,6 +324,23 @@ def what_if_lines(fixes) -> list[str]:
     return rows
 
 
+def range_lines(design: CheckedDesign) -> list[str]:
+    """For a design whose largest error source is the supply or the ambient range: the
+    widest such range at which it would meet (:func:`selector.search.what_if.largest_meeting_range`)."""
+    from selector.search.what_if import largest_meeting_range
+
+    dominant = dominant_source(design.budget)
+    if design.meets or dominant is None or dominant.source not in ("supply", "ambient"):
+        return []
+    found = largest_meeting_range(design.parts, design.stack, design.resistor_ohm, design.spec, dominant.source)
+    if found is None:
+        return [f"  It does not meet even with the {dominant.source} held at its nominal value."]
+    low, high = found
+    text = (f"{format_quantity(low, 'V')} … {format_quantity(high, 'V')}" if dominant.source == "supply"
+            else f"{low:.1f} … {high:.1f} °C")  # fmt: skip
+    return [f"  It would meet with the {dominant.source} range narrowed to {text} (the rest of the spec as it is)."]
+
+
 def fix_json(fix) -> dict:
     """One what-if variant as JSON."""
     return {"change": fix.change, "stack": fix.stack, "resistor_ohm": fix.resistor_ohm, "error_v": _finite(fix.error_v),
