@@ -84,6 +84,8 @@ def test_a_wide_zener_grade_on_a_tight_supply_dominates():
 
 
 def test_the_sources_and_the_interaction_add_up_to_the_32_corner_deviation():
+    # The interaction is defined against the budget's own nominal solve; the sums match
+    # the 32-corner deviation only if that solve agrees with the evaluation's nominal point.
     lines, evaluation = budget_of([COOL_DIODE, ZENER_10], ["EB-D", "EB-Z10"], 680.0, spec())
     below = sum(line.low_v for line in lines)
     above = sum(line.high_v for line in lines)

@@ -10,7 +10,7 @@ fall back to the contract's choice.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -67,8 +67,6 @@ class SeriesSweep:
 
 def series_sweep(parts: PartSet, stack: np.ndarray, spec: RailSpec) -> SeriesSweep:
     """Evaluate one stack at every series value of the spec (its range, not a fixed R)."""
-    from dataclasses import replace
-
     values = candidate_resistors(replace(spec, resistor_fixed_ohm=None))
     stacks = np.repeat(np.asarray(stack, dtype=np.intp)[None, :], values.size, axis=0)
     return SeriesSweep(values, evaluate_designs(parts, stacks, values, spec))

@@ -18,7 +18,7 @@ first, then by worst-case error.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -169,8 +169,6 @@ def largest_meeting_range(parts: PartSet, stack: np.ndarray, resistor_ohm: float
     -------
     (low, high) [V or °C], or None when it does not meet even at the nominal point alone.
     """
-    from dataclasses import replace
-
     if quantity == "supply":
         centre, low, high = spec.supply_nominal_v, spec.supply_min_v, spec.supply_max_v
     else:
