@@ -83,3 +83,60 @@ def test_the_largest_supply_range_that_meets_is_found_by_bisection():
     wider = 1.001
     assert not meets(dataclasses.replace(wide, supply_min_v=12.0 - wider * (12.0 - low),
                                          supply_max_v=12.0 + wider * (high - 12.0)))
+
+
+def _what_if_rows(page: str) -> list[tuple[str, str]]:
+    """(change, data-meets) per row of the report's what-if table."""
+    from html.parser import HTMLParser
+
+    class Rows(HTMLParser):
+        def __init__(self):
+            super().__init__()
+            self.rows, self.inside, self.cell = [], False, None
+
+        def handle_starttag(self, tag, attrs):
+            attributes = dict(attrs)
+            if tag == "table" and attributes.get("class") == "what-if":
+                self.inside = True
+            elif self.inside and tag == "tr" and "data-meets" in attributes:
+                self.rows.append(["", attributes["data-meets"]])
+                self.cell = 0
+            elif self.inside and tag == "td" and self.cell is not None:
+                self.cell += 1
+
+        def handle_endtag(self, tag):
+            if tag == "table":
+                self.inside = False
+
+        def handle_data(self, data):
+            if self.inside and self.rows and self.cell == 1:
+                self.rows[-1][0] += data
+
+    parser = Rows()
+    parser.feed(page)
+    return [tuple(row) for row in parser.rows]
+
+
+def test_the_report_lists_the_variants_of_its_first_designs(run_cli, tmp_path):
+    from selector.catalog.store import open_library
+
+    db = str(tmp_path / "lib.sqlite")
+    library = open_library(db)
+    library.import_records([GRADE_5, GRADE_1, FAR, DIODE], kind="test", file_name="invented", file_sha256="0" * 64)
+    library.close()
+    window = ["--target", "5.1V", "--tolerance", "150mV", "--supply-min", "11.9V", "--supply-max", "12.1V",
+              "--load-min", "0", "--load-max", "1mA", "--ambient-min", "20", "--ambient-max", "30", "--max-parts", "2"]
+    out = tmp_path / "design.html"
+    result = run_cli("--db", db, "report", *window, "--stack", "WI-Z5", "--resistor", "1k", "--monte-carlo", "50",
+                     "--out", str(out))
+    assert result.exit_code == 0, result.output
+    rows = _what_if_rows(out.read_text(encoding="utf-8"))
+    assert rows[0] == ("WI-Z5 → WI-Z1", "true")
+    assert any(change == "add WI-D" for change, _ in rows)
+    assert not any("WI-Z9" in change for change, _ in rows)
+    # With no sweeps asked for, no design gets a what-if list either.
+    result = run_cli("--db", db, "report", *window, "--stack", "WI-Z5", "--resistor", "1k", "--monte-carlo", "50",
+                     "--sweeps", "0", "--out", str(out))
+    assert result.exit_code == 0, result.output
+    assert _what_if_rows(out.read_text(encoding="utf-8")) == []
+    assert "<h3>What if</h3>" not in out.read_text(encoding="utf-8")

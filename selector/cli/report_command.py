@@ -36,7 +36,8 @@ MAX_MONTE_CARLO_SAMPLES = 1_000_000
 @click.option("--scatter", "scatter_designs", type=click.IntRange(1, 100_000), default=100, show_default=True,
               help="Feasible designs the search returns for the error-against-margin plot (more is slower).")
 @click.option("--sweeps", "sweep_designs", type=click.IntRange(0, 100), default=3, show_default=True,
-              help="Designs, best first, that also get rail-against-supply and rail-against-ambient plots.")
+              help="Designs, best first, that also get their error budget, what-if list and rail-against-supply and "
+                   "rail-against-ambient plots.")
 @click.option("--monte-carlo", "samples", type=click.IntRange(1, MAX_MONTE_CARLO_SAMPLES), default=10_000,
               show_default=True, metavar="N", help="Monte Carlo samples per design.")
 @click.option("--seed", type=click.IntRange(min=0), default=0, show_default=True, help="Monte Carlo seed (0 or more).")

@@ -28,7 +28,7 @@ HOT_PART_HEADROOM_K = 25.0
 DEFER = "this tool is not a safety assessment; follow local codes and licensed practice"
 
 
-def _margin_text(margin: float, format_spec: str = ".1%") -> str:
+def margin_text(margin: float, format_spec: str = ".1%") -> str:
     """A margin as a percentage; an overload as how many times the allowed power it is
     (``margin = 1 − P/P_max``); or why there is none (no allowed dissipation)."""
     if margin == -np.inf:
@@ -247,7 +247,7 @@ def check_lines(design: CheckedDesign) -> list[str]:
             f"  rail {volts(ev.vout_nom_v[0]) if np.isfinite(ev.vout_nom_v[0]) else '— (no solution)'} nominal, "
             f"{volts(ev.vout_low_v[0])} … {volts(ev.vout_high_v[0])} "
             f"worst case; error {volts(ev.error_v[0])} (allowed {volts(spec.tolerance_v)})",
-            f"  least stack current {amps(ev.i_min_a[0])}; least margin {_margin_text(ev.margin[0])}",
+            f"  least stack current {amps(ev.i_min_a[0])}; least margin {margin_text(ev.margin[0])}",
         ]
     if design.series_values_ohm is not None:
         lines.append("  " + meeting_range_text(design))
@@ -272,7 +272,7 @@ def check_lines(design: CheckedDesign) -> list[str]:
             f"{design.elements[metrics.hottest_element]} (position {metrics.hottest_element + 1}) "
             f"at corner {metrics.hottest_corner + 1}",
             f"Series resistor: worst {format_quantity(metrics.resistor_worst_power_w, 'W', 3)}; "
-            f"{_margin_text(metrics.resistor_worst_margin, '.1%')} margin on "
+            f"{margin_text(metrics.resistor_worst_margin, '.1%')} margin on "
             f"{format_quantity(metrics.resistor_allowed_power_w, 'W', 3)} allowed at corner "
             f"{metrics.resistor_worst_corner + 1} ({format_quantity(spec.resistor_rating_w, 'W')} rating, derated "
             f"from {spec.resistor_full_power_ambient_c:g} °C to 0 at {spec.resistor_zero_power_ambient_c:g} °C); "
@@ -284,7 +284,7 @@ def check_lines(design: CheckedDesign) -> list[str]:
         for position, part in enumerate(design.elements):
             lines.append(
                 f"  {position + 1:>2}. {part:<16} {format_quantity(metrics.element_worst_power_w[position], 'W', 3):>10}"
-                f"   margin {_margin_text(metrics.element_worst_margin[position], '7.1%')}"
+                f"   margin {margin_text(metrics.element_worst_margin[position], '7.1%')}"
             )
     if design.monte_carlo is not None:
         mc = design.monte_carlo
@@ -320,7 +320,7 @@ def what_if_lines(fixes) -> list[str]:
     for fix in fixes:
         error = f"{1e3 * fix.error_v:.1f}" if np.isfinite(fix.error_v) else "infeasible"
         rows.append(f"  {'*' if fix.meets else ' '} {fix.change:<28} {fix.stack:<24} "
-                    f"{format_quantity(fix.resistor_ohm, 'Ω'):>9} {error:>10} {_margin_text(fix.margin, '.1%'):>8}")
+                    f"{format_quantity(fix.resistor_ohm, 'Ω'):>9} {error:>10} {margin_text(fix.margin, '.1%'):>8}")
     return rows
 
 

@@ -97,6 +97,9 @@ class ReviewReport:
         When the report was made (UTC).
     evidence : selector.views.report_evidence.ReportEvidence, optional
         Approvals, parts data, provenance and sign-off (see that module).
+    usable_parts : array of bool, optional
+        Per library part, whether the spec's approved list lets a what-if variant use it
+        (None: no list).
     """
 
     spec: RailSpec
@@ -108,6 +111,7 @@ class ReviewReport:
     schema_revision: str
     generated: datetime.datetime
     evidence: object | None = None
+    usable_parts: object = None
 
 
 # Gathering -------------------------------------------------------------------------------
@@ -220,7 +224,16 @@ def search_review(
     ]
     evidence = gather_evidence(library, spec, candidates, spec_source=spec_source, prepared_by=prepared_by)
     return ReviewReport(spec, candidates, shortlist, summary, found, library.location_text(),
-                        evidence.schema_revision, _now(), evidence=evidence)
+                        evidence.schema_revision, _now(), evidence=evidence,
+                        usable_parts=_usable_parts(library, parts, spec))
+
+
+def _usable_parts(library, parts: PartSet, spec: RailSpec):
+    if spec.list_name is None:
+        return None
+    from selector.catalog.approved_lists import list_view
+
+    return list_view(library, parts, spec.list_name, spec.statuses).usable
 
 
 def design_review(spec: RailSpec, library, stack_text: str, *, samples: int = DEFAULT_SAMPLES, seed: int = 0,
@@ -248,7 +261,7 @@ def design_review(spec: RailSpec, library, stack_text: str, *, samples: int = DE
                                 conditions="; ".join(result.list_conditions), list_warnings=tuple(result.list_warnings))
     evidence = gather_evidence(library, spec, [candidate], spec_source=spec_source, prepared_by=prepared_by)
     return ReviewReport(spec, [candidate], None, None, None, library.location_text(), evidence.schema_revision, _now(),
-                        evidence=evidence)
+                        evidence=evidence, usable_parts=result.usable_parts)
 
 
 # Figures ---------------------------------------------------------------------------------
@@ -301,7 +314,8 @@ def write_report(
 ) -> list[Path]:
     """Draw the figures, write the HTML file and, with ``png_dir``, one PNG per figure.
 
-    ``sweep_designs`` is as for :func:`report_figures`.
+    ``sweep_designs`` is as for :func:`report_figures`; those designs also get their
+    what-if list (:func:`selector.views.report_fixes.report_fixes`).
 
     Returns
     -------
@@ -314,8 +328,10 @@ def write_report(
         When ``--out`` or ``--png`` cannot be written, naming the option and the path.
     """
     from selector.views import plots
+    from selector.views.report_fixes import report_fixes
 
     figures = report_figures(report, sweep_designs)
+    fixes = report_fixes(report, sweep_designs)
     written = []
     checked_destination(out_path, "--out")
     if png_dir is not None:
@@ -329,7 +345,7 @@ def write_report(
         written = [write_atomically(folder / f"{name}.png", plots.png_bytes(figure), "--png")
                    for name, figure in figures.items()]  # fmt: skip
     svg = {name: plots.svg_markup(figure, name) for name, figure in figures.items()}
-    write_atomically(out_path, render_html(report, svg), "--out")
+    write_atomically(out_path, render_html(report, svg, fixes), "--out")
     return written
 
 
@@ -349,6 +365,7 @@ th, td { border: 1px solid #c9c4b8; padding: 3px 7px; text-align: left; vertical
 th { background: #ebe7dd; font-weight: 600; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
 tr.extreme td { font-weight: 700; }
+table.what-if tr.meets-yes td { background: #e7f0e1; }
 .verdict { font-weight: 700; }
 .meets-no { text-decoration: underline dotted; }
 ul.plain { padding-left: 18px; margin: 6px 0; }
@@ -570,8 +587,9 @@ def _monte_carlo_caption(design: CheckedDesign) -> str:
     )
 
 
-def _candidate_section(candidate: CandidateReview, svg: dict[str, str]) -> str:
+def _candidate_section(candidate: CandidateReview, svg: dict[str, str], fixes) -> str:
     from selector.views import report_evidence as evidence_sections
+    from selector.views.report_fixes import fixes_section
 
     key, document = candidate.key, candidate.document
     how = "chosen from the series" if candidate.design.resistor_chosen else "as given"
@@ -593,6 +611,7 @@ def _candidate_section(candidate: CandidateReview, svg: dict[str, str]) -> str:
         _figure(svg, f"{key}-budget", "Each source alone at its extremes with every other at nominal, solved exactly: "
                 "the bars are the rail's shift below and above the nominal rail; the marks are the small-signal "
                 "estimate; 'interaction' is what the 32 corners add beyond the sum of the single shifts."),
+        fixes_section(fixes),
         "<h3>Margin per part</h3>",
         '<p>Worst power over the corners and the rated power; the margin is taken against the power allowed '
         "at each corner's ambient, min(rated, (Tj max − Ta)/θ).</p>",
@@ -643,7 +662,7 @@ def _footer(report: ReviewReport) -> str:
     )
 
 
-def render_html(report: ReviewReport, svg: dict[str, str]) -> str:
+def render_html(report: ReviewReport, svg: dict[str, str], fixes: dict | None = None) -> str:
     """The report as one HTML page.
 
     Parameters
@@ -651,6 +670,9 @@ def render_html(report: ReviewReport, svg: dict[str, str]) -> str:
     report : ReviewReport
     svg : dict of str to str
         Inline SVG per figure name (see :func:`report_figures`); missing figures are left out.
+    fixes : dict, optional
+        The what-if lists by design key (:func:`selector.views.report_fixes.report_fixes`);
+        designs without one get no what-if section.
 
     Returns
     -------
@@ -673,7 +695,8 @@ def render_html(report: ReviewReport, svg: dict[str, str]) -> str:
             _spec_section(spec, evidence.requirement_lines(report))]
     if report.shortlist is not None:
         body += [_search_section(report, svg), _shortlist_section(report)]
-    body += [_candidate_section(candidate, svg) for candidate in report.candidates]
+    fixes = fixes or {}
+    body += [_candidate_section(candidate, svg, fixes.get(candidate.key)) for candidate in report.candidates]
     body += [evidence.approval_section(report), evidence.parameters_section(report), _cautions_section(report),
              evidence.provenance_section(report), evidence.signoff_section(report), _footer(report)]
     return (

@@ -41,7 +41,7 @@ def saved_design_review(library, name: str, *, samples: int = DEFAULT_SAMPLES, s
     evidence = gather_evidence(library, design.spec, [candidate], spec_source=verification.saved.content.spec_source,
                                prepared_by=prepared_by, verification=verification)
     return ReviewReport(design.spec, [candidate], None, None, None, library.location_text(),
-                        evidence.schema_revision, _now(), evidence=evidence)
+                        evidence.schema_revision, _now(), evidence=evidence, usable_parts=result.usable_parts)
 
 
 def _difference_rows(verification) -> list[str]:
