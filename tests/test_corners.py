@@ -230,3 +230,24 @@ def test_a_thermal_latch_takes_the_operating_point_from_zero_current_and_is_flag
     assert any(line.startswith("several operating points at corners 1–32 (a thermal latch)") for line in
                design_cautions(design))  # fmt: skip
     assert scan_operating_points(parts, np.array([0]), [4.0], [1.3], [25.0], [-1.0], [0.0], [0.0]).several().size == 1
+
+
+def test_a_microampere_design_keeps_its_regulation_and_efficiency():
+    # A design biased at about 1 µA: the load step of the linearisation scales with the
+    # stack current, so it stays conducting. Shunt relations as above, with r_d = n·Vt/I
+    # for a diode without series resistance (common practice, no source).
+    from selector.physics.devices import thermal_voltage_v
+
+    cool = PartSet.from_records([dict(part="INV-UA", family="signal", is_a=2e-12, n=1.5, rs_ohm=0.0, pd_w=1e6)])
+    spec = make_spec(target_v=0.4, tolerance_v=0.2, load_min=0.1e-6, load_max=0.3e-6, ambient_min_c=25.0,
+                     ambient_max_c=25.0)  # fmt: skip
+    resistor = 10e6
+    metrics = design_metrics(cool, np.array([0]), resistor, spec)
+    current = metrics.evaluation.nominal["stack_current_a"][0]
+    assert 0.5e-6 < current < 1.5e-6
+    r_d = 1.5 * thermal_voltage_v(25.0) / current
+    assert metrics.load_regulation_mv_per_ma == pytest.approx(-(r_d * resistor) / (r_d + resistor), rel=1e-3)
+    assert metrics.line_regulation_mv_per_v == pytest.approx(1e3 * r_d / (resistor + r_d), rel=1e-3)
+    vout = metrics.evaluation.vout_nom_v[0]
+    load = 0.2e-6
+    assert metrics.efficiency == pytest.approx(vout * load / (12.0 * (current + load)), rel=1e-6)
