@@ -8,6 +8,7 @@ import pytest
 from selector.errors import OptionError
 from selector.search.ranking import (
     beats_threshold,
+    key_columns,
     pareto_front,
     quantised_error,
     rank_order,
@@ -35,6 +36,16 @@ def test_rank_by_reorders_the_keys_after_meets():
         rank_order("cost")
     with pytest.raises(OptionError, match="given twice"):
         rank_order("error,error")
+
+
+def test_fill_rows_keep_the_error_order_whatever_rank_by_says():
+    # Issue: with --rank-by margin, a design far outside the window came first among the
+    # fill rows. Designs that meet follow rank_by; the rest are ordered by error.
+    meets = np.array([True, True, False, False, False])
+    error = np.array([0.010, 0.020, 1.500, 0.300, 0.200])
+    margin = np.array([0.1, 0.9, 0.95, 0.2, 0.5])
+    order = sort_designs(meets, error, margin, np.array([1, 1, 1, 1, 1]), order=rank_order("margin"))
+    assert list(order) == [1, 0, 4, 3, 2]
 
 
 def test_quantisation_and_bad_resolution():
@@ -69,12 +80,11 @@ def test_largest_unbeaten_error_is_beaten_above_and_only_error_decides(order):
         resolution = float(rng.choice([1e-3, 1e-4, 7e-3]))
         threshold_error = float(rng.uniform(0.0, 0.4))
         threshold_meets = bool(rng.random() < 0.5) and threshold_error <= spec.tolerance_v
-        threshold = [float(k[0]) for k in lower_bound_keys(np.array([threshold_error]), np.array([2]), spec, order, resolution)]
-        threshold[0] = 0.0 if threshold_meets else 1.0
+        # The key of a real last entry: the rank_by order if it meets, the default if not.
+        threshold = [float(k[0]) for k in key_columns(np.array([threshold_meets]), np.array([threshold_error]),
+                                                      np.array([rng.uniform(0.0, 1.0)]), np.array([2]), order, resolution)]
         limit = largest_unbeaten_error(threshold, order, spec.tolerance_v, resolution)
-        if not np.isfinite(limit):
-            assert order[0] != "error" and not threshold_meets
-            continue
+        assert np.isfinite(limit)
         above = limit + rng.uniform(1e-12, 0.3, size=50)
         for parts in (1, 2, 3):
             keys = lower_bound_keys(above, np.full(above.size, parts), spec, order, resolution)

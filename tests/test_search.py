@@ -134,6 +134,36 @@ def test_rank_pruning_is_counted_and_loses_nothing(monkeypatch):
     assert shortlist.evaluation.error_v[0] == pytest.approx(error.min(), abs=1e-12)
 
 
+@pytest.mark.parametrize("rank_by", ["margin", "parts,margin", "error"])
+def test_ranked_shortlist_with_fill_rows_equals_the_plain_sort_of_every_stack(monkeypatch, rank_by):
+    # Plain reference: every stack with the contract's resistor, sorted by the shortlist
+    # order (rank_by for the designs that meet, error for the fill rows), against the
+    # search with small batches so that rank pruning is exercised.
+    import selector.search.engine as search_module
+    from selector.search.ranking import rank_order, sort_designs
+    from selector.search.resistor_choice import choose_resistors
+
+    monkeypatch.setattr(search_module, "FIRST_BATCH_STACKS", 4)
+    monkeypatch.setattr(search_module, "BATCH_STACKS", 4)
+    parts, spec = invented_parts(), rail(max_parts=3, tolerance_v=0.5)
+    stacks = np.concatenate(list(iterate_multisets(len(parts), spec.max_parts)))
+    resistor, evaluation = choose_resistors(parts, stacks, spec)
+    feasible = np.flatnonzero(evaluation.feasible)
+    meets = evaluation.meets[feasible]
+    assert 0 < meets.sum() < 8  # some meet, and fill rows follow them in a shortlist of 8
+    chosen = stacks[feasible]
+    ties = [chosen[:, column] for column in range(chosen.shape[1])] + [resistor[feasible]]
+    order = sort_designs(meets, evaluation.error_v[feasible], evaluation.margin[feasible], (chosen >= 0).sum(axis=1),
+                         ties, order=rank_order(rank_by))
+    expected = chosen[order[:8]]
+    shortlist, _, summary = search_library(parts, spec, top=8, rank_by=rank_by, workers=1)
+    np.testing.assert_array_equal(shortlist.stacks, expected)
+    assert summary.pruned.get(REASON_RANK, 0) > 0
+    found_meets = shortlist.evaluation.meets
+    fill = shortlist.evaluation.error_v[~found_meets]
+    assert found_meets[: found_meets.sum()].all() and np.all(np.diff(fill) >= 0)
+
+
 def test_bad_inputs_raise_one_line_errors():
     parts = invented_parts()
     with pytest.raises(SearchError, match="^unknown family 'diac'"):

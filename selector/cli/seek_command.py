@@ -52,7 +52,8 @@ class DelayedProgress:
 @click.option("--top", type=click.IntRange(1, 10000), default=10, show_default=True, help="Shortlist length.")
 @click.option("--csv", "csv_path", metavar="FILE", default=None, help="Also write the shortlist as CSV to FILE.")
 @click.option("--json", "as_json", is_flag=True, help="Print the shortlist and summary as JSON instead of a table.")
-@click.option("--rank-by", metavar="KEYS", default=None, help="Key order after 'meets', e.g. 'margin,error' (keys: error, margin, parts).")
+@click.option("--rank-by", metavar="KEYS", default=None, help="Key order of the rows that meet, e.g. 'margin,error' (keys: error, margin, parts); "
+              "rows that do not meet are always ordered by error.")
 @click.option("--resolution", metavar="VOLTS", default="1 mV", show_default=True, help="Error step the ranking treats as equal, e.g. '5 mV'.")
 @click.option("--force", is_flag=True, help="Search even when the candidate count is above the sane limit.")
 @click.option("--require-meeting", is_flag=True,

@@ -54,6 +54,7 @@ from selector.search.ranking import (
     quantised_error,
     rank_order,
     sort_designs,
+    split_order_keys,
 )
 from selector.search.resistor_choice import (
     bounded_designs,
@@ -228,7 +229,7 @@ def lower_bound_keys(error_lower_v, parts, spec: RailSpec, order, resolution_v) 
         "margin": np.full(error_lower_v.shape, -1.0),
         "parts": parts.astype(float),
     }
-    return [(error_lower_v > spec.tolerance_v).astype(float)] + [by_name[name] for name in order]
+    return split_order_keys((error_lower_v > spec.tolerance_v).astype(float), by_name, order)
 
 
 def _solve_batch(parts: PartSet, spec: RailSpec, stacks: np.ndarray, threshold, order, resolution_v):

@@ -2,9 +2,11 @@
 
 Order (issue 4): designs that meet the spec first, then the worst-case error quantised to
 a resolution (default 1 mV), then dissipation margin (descending), then part count
-(ascending). ``rank_by`` reorders the last three keys; meeting the spec always leads, so
-that when fewer designs meet than the shortlist holds, the closest feasible ones fill it
-(DESIGN §4). Remaining ties fall to the caller's tie-breakers (the search uses the
+(ascending). ``rank_by`` reorders the last three keys of the designs that meet; meeting
+the spec always leads, so that when fewer designs meet than the shortlist holds, the
+closest feasible ones fill it (DESIGN §4), and those fill rows keep the default order,
+error first, whatever ``rank_by`` says: a design outside the window is ranked by how far
+outside it is. Remaining ties fall to the caller's tie-breakers (the search uses the
 stack's part indices and then the resistor), so the order is reproducible.
 """
 
@@ -60,13 +62,30 @@ def key_columns(
     order: Sequence[str],
     resolution_v: float,
 ) -> list[np.ndarray]:
-    """Numeric sort keys, most significant first, smaller is better."""
+    """Numeric sort keys, most significant first, smaller is better: ``order`` for the
+    designs that meet, the default order for the rest."""
     by_name = {
         "error": quantised_error(error_v, resolution_v),
         "margin": -np.asarray(margin, dtype=float),
         "parts": np.asarray(parts, dtype=float),
     }
-    return [(~np.asarray(meets, dtype=bool)).astype(float)] + [by_name[name] for name in order]
+    return split_order_keys(~np.asarray(meets, dtype=bool), by_name, order)
+
+
+def split_order_keys(misses: np.ndarray, by_name: dict[str, np.ndarray], order: Sequence[str]) -> list[np.ndarray]:
+    """The key columns ``[misses, ...]``: where ``misses`` is 0 the named keys in ``order``,
+    where it is 1 in the default order (:data:`RANK_KEYS`).
+
+    A lower bound of every key gives, through this, a lower bound of the key vector: with a
+    ``misses`` bound 1 the design certainly misses and takes the default order; with 0 it
+    either meets (and takes ``order``) or misses, and a missing design's key starts with 1,
+    above any key that starts with 0.
+    """
+    misses = np.asarray(misses, dtype=float)
+    columns = [misses]
+    for mine, default in zip(order, RANK_KEYS, strict=True):
+        columns.append(by_name[mine] if mine == default else np.where(misses == 0, by_name[mine], by_name[default]))
+    return columns
 
 
 def sort_designs(
@@ -130,20 +149,19 @@ def beats_threshold(lower_keys: list[np.ndarray], threshold: Sequence[float]) ->
 def largest_unbeaten_error(threshold: Sequence[float], order: Sequence[str], tolerance_v: float, resolution_v: float) -> float:
     """An error bound above which :func:`beats_threshold` holds whatever the other keys [V].
 
-    With the shortlist's last key ``threshold`` (meets flag first, then ``order``): when
-    that entry meets, a candidate whose error bound is above ``tolerance_v`` has the meets
-    bound 1 and is beaten. When the error is the first key after meets, a bound ``e`` with
-    ``floor(e/resolution) > threshold's error step q`` is beaten once its meets bound is no
-    better than the threshold's, which holds for ``e > tolerance`` if the entry does not
-    meet; ``e > (q + 1)·resolution`` (widened by a relative 1e−9 against rounding) gives
-    that floor. Returns inf when neither applies.
+    With the shortlist's last key ``threshold`` (meets flag first, then ``order`` if it
+    meets, else the default order, :func:`key_columns`): when that entry meets, a candidate
+    whose error bound is above ``tolerance_v`` has the meets bound 1 and is beaten. When
+    the error is the first key after meets (always so for an entry that does not meet), a
+    bound ``e`` with ``floor(e/resolution) > threshold's error step q`` is beaten once its
+    meets bound is no better than the threshold's, which holds for ``e > tolerance`` if
+    the entry does not meet; ``e > (q + 1)·resolution`` (widened by a relative 1e−9
+    against rounding) gives that floor.
     """
-    meets_flag = threshold[0]
-    limit = tolerance_v if meets_flag == 0 else np.inf
-    if order and order[0] == "error":
-        by_step = (threshold[1] + 1.0) * resolution_v * (1.0 + 1e-9)
-        limit = min(limit, by_step) if meets_flag == 0 else max(tolerance_v, by_step)
-    return float(limit)
+    by_step = (threshold[1] + 1.0) * resolution_v * (1.0 + 1e-9)
+    if threshold[0] != 0:
+        return float(max(tolerance_v, by_step))
+    return float(min(tolerance_v, by_step) if order and order[0] == "error" else tolerance_v)
 
 
 def pareto_front(error_v: np.ndarray, margin: np.ndarray, parts: np.ndarray) -> np.ndarray:
