@@ -178,6 +178,7 @@ def seek(
     force: bool = False,
     workers: int | None = None,
     progress: Callable[[int, int], None] | None = None,
+    pick: str = "error",
 ) -> SeekResult:
     """Search a library for the stacks and resistors that best hold a rail.
 
@@ -191,7 +192,7 @@ def seek(
         this needs a Library, a db path/URL or None.
     top : int
         Shortlist length; when fewer designs meet, the closest feasible ones fill it.
-    rank_by, resolution_v, usable_mask, conditions, force, workers, progress
+    rank_by, resolution_v, usable_mask, conditions, force, workers, progress, pick
         As for :func:`selector.search.engine.search_library`.
 
     Returns
@@ -215,7 +216,7 @@ def seek(
     shortlist, usable, summary = search_library(
         parts, spec, top=top, rank_by=rank_by, resolution_v=resolution_v, usable_mask=usable_mask,
         conditions=conditions if conditions is not None else list_conditions,
-        force=force, workers=workers, progress=progress,
+        force=force, workers=workers, progress=progress, pick=pick,
     )
     status = None if list_status is None else np.asarray(list_status, dtype=object)[usable.library_index]
     frame = shortlist_frame(usable.parts, shortlist.stacks, shortlist.resistor_ohm, shortlist.evaluation, usable.condition,

@@ -166,7 +166,7 @@ def test_csv_gets_its_spec_sibling_and_json_its_context(tmp_path):
     document = json.loads(run("--db", db, "seek", "--spec", example, "--top", "1", "--json").output)
     assert list(document) == ["shortlist", "summary", "context"]
     context = document["context"]
-    assert set(context) == {"spec", "library_sha256", "computed_at", "railwright_version"}
+    assert set(context) == {"spec", "library_sha256", "computed_at", "railwright_version", "pick"}
     assert len(context["library_sha256"]) == 64 and context["spec"]["target_v"] == 5.0
 
 

@@ -42,10 +42,20 @@ class DelayedProgress:
             click.echo("", err=True)
 
 
+#: What the table's R means with a --pick other than the contract's.
+PICK_NOTES = {
+    "margin": "R: each stack's meeting series value with the most dissipation margin (--pick margin); the stacks "
+              "listed are those the contract's least-error choice ranks best.",
+    "centre": "R: each stack's meeting series value whose worst-case rail is nearest the window's centre (--pick "
+              "centre); the stacks listed are those the contract's least-error choice ranks best.",
+}
+
+
 @click.command(
     "seek",
     epilog="\b\nExamples:\n  railwright seek --spec rail.toml --top 5 --csv shortlist.csv\n"
-    "  railwright seek --spec rail.toml --require-meeting   (exit 3 when nothing meets, for scripts)\n\n"
+    "  railwright seek --spec rail.toml --require-meeting   (exit 3 when nothing meets, for scripts)\n"
+    "  railwright seek --spec rail.toml --pick margin   (each stack's meeting R with the most margin)\n\n"
     + SPEC_OPTIONS_EPILOG,
 )
 @spec_options
@@ -56,11 +66,14 @@ class DelayedProgress:
               "rows that do not meet are always ordered by error.")
 @click.option("--resolution", metavar="VOLTS", default="1 mV", show_default=True, help="Error step the ranking treats as equal, e.g. '5 mV'.")
 @click.option("--force", is_flag=True, help="Search even when the candidate count is above the sane limit.")
+@click.option("--pick", type=click.Choice(["error", "margin", "centre"]), default="error", show_default=True,
+              help="Resistor of each listed stack among its meeting series values: least error (the contract's "
+                   "choice, by which the search ranks), most dissipation margin, or the rail centred in the window.")
 @click.option("--require-meeting", is_flag=True,
               help="Exit 3 when no design meets the spec (by default seek exits 0 and lists the closest).")
 @click.pass_context
 def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool, rank_by: str | None, resolution: str,
-         force: bool, require_meeting: bool) -> None:  # fmt: skip
+         force: bool, pick: str, require_meeting: bool) -> None:  # fmt: skip
     """Search every stack of up to max_parts library parts for the rail; list the best.
 
     Every candidate is either solved at all 32 worst-case corners with its series
@@ -79,7 +92,8 @@ def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool
         raise OptionError(f"--resolution: must be a positive voltage, not '{resolution}'")
     progress = DelayedProgress()
     try:
-        result = seek_library(spec, ctx.obj.library(), top=top, rank_by=rank_by, resolution_v=resolution_v, force=force, progress=progress)
+        result = seek_library(spec, ctx.obj.library(), top=top, rank_by=rank_by, resolution_v=resolution_v, force=force, progress=progress,
+                              pick=pick)
     finally:
         progress.close()
     frame, summary = result
@@ -89,7 +103,7 @@ def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool
         if csv_path != "-":
             spec_file = write_atomically(Path(csv_path).with_suffix(".spec.toml"), spec_toml(spec), "--csv")
     if as_json:
-        click.echo(shortlist_json(frame, summary.as_dict(), _context(ctx.obj.library(), spec)))
+        click.echo(shortlist_json(frame, summary.as_dict(), _context(ctx.obj.library(), spec) | {"pick": pick}))
         _exit_if_nothing_meets(frame, require_meeting)
         return
     for line in describe_spec(spec):
@@ -100,6 +114,8 @@ def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool
         click.echo(f"No feasible design. Most candidates were rejected because: {reason or 'no candidate'}.")
     else:
         click.echo(terminal_table(frame, spec.tolerance_v))
+        if pick != "error":
+            click.echo(PICK_NOTES[pick])
         for rank, conditions in zip(frame["rank"], frame["conditions"], strict=True):
             if conditions:
                 click.echo(f"  #{rank} conditions of use (list '{spec.list_name}'): {conditions}")

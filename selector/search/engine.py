@@ -474,6 +474,7 @@ def search_library(
     force: bool = False,
     workers: int | None = None,
     progress: Callable[[int, int], None] | None = None,
+    pick: str = "error",
 ):
     """Search every candidate stack; returns ``(shortlist, usable, summary)``.
 
@@ -496,10 +497,20 @@ def search_library(
         Processes for exact solving (default: the machine's cores, at most 2).
     progress : callable(done, total), optional
         Called as survivors are solved.
+    pick : str
+        Which meeting series value each listed stack gets
+        (:mod:`selector.search.series_sweep`): ``"error"``, the contract's choice, by which
+        the search ranks and prunes; ``"margin"`` or ``"centre"`` re-pick the resistor of
+        each listed stack among its meeting values, and the list is sorted again. Which
+        stacks are listed is still decided by the contract's choice.
     """
+    from selector.search.series_sweep import PICKS
+
     started = time.perf_counter()
     if top < 1:
         raise OptionError(f"--top: must be at least 1, not {top}")
+    if pick not in PICKS:
+        raise OptionError(f"--pick: '{pick}' is not one of {', '.join(PICKS)}")
     order = rank_order(rank_by)
     quantised_error(np.zeros(1), resolution_v)
     usable = usable_parts(library_parts, spec.families, usable_mask, conditions)
@@ -525,8 +536,23 @@ def search_library(
     finally:
         solver.close()
         _WORKER_TABLES.clear()
+    shortlist = _repicked(shortlist, parts, spec, pick)
     summary.pruned = {reason: count for reason, count in pruned.items() if count}
     infeasible = solver.infeasible
     summary.infeasible = dict(infeasible)
     summary.elapsed_s = time.perf_counter() - started
     return shortlist, usable, summary
+
+
+def _repicked(shortlist: Shortlist, parts: PartSet, spec: RailSpec, pick: str) -> Shortlist:
+    """The shortlist with each stack's resistor re-picked by ``pick``, sorted again."""
+    from selector.search.series_sweep import repicked_designs
+
+    if shortlist.evaluation is None:
+        return shortlist
+    resistor, evaluation = repicked_designs(parts, shortlist.stacks, shortlist.resistor_ohm, spec, pick)
+    if evaluation is None:
+        return shortlist
+    again = Shortlist(shortlist.top, shortlist.order, shortlist.resolution_v, shortlist.stacks[:0], resistor[:0])
+    again.merge(shortlist.stacks, resistor, evaluation)
+    return again
