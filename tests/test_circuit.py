@@ -8,14 +8,7 @@ from scipy.optimize import brentq
 from scipy.special import wrightomega
 
 from selector.physics import circuit, fast_newton
-from selector.physics.circuit import (
-    STATUS_RUNAWAY,
-    STATUS_SOLVED,
-    STATUS_STACK_OFF,
-    STATUS_SUPPLY_EXHAUSTED,
-    family_slots,
-    solve_operating_points,
-)
+from selector.physics.circuit import family_slots, solve_operating_points
 from selector.physics.devices import (
     JUNCTION_CEILING_C,
     self_heated_element,
@@ -23,6 +16,12 @@ from selector.physics.devices import (
     thermal_voltage_v,
 )
 from selector.physics.partset import PartSet
+from selector.physics.solver_settings import (
+    STATUS_RUNAWAY,
+    STATUS_SOLVED,
+    STATUS_STACK_OFF,
+    STATUS_SUPPLY_EXHAUSTED,
+)
 
 INVENTED_PARTS = [
     # invented: a diode with negligible self-heating, for closed-form checks

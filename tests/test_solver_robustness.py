@@ -15,16 +15,11 @@ import numpy as np
 from hypothesis import HealthCheck, Phase, example, given, settings
 from hypothesis import strategies as st
 
-from selector.physics.circuit import (
-    STATUS_NAMES,
-    STATUS_NOT_CONVERGED,
-    STATUS_SOLVED,
-    solve_operating_points,
-    solve_stack_corners,
-)
+from selector.physics.circuit import solve_operating_points, solve_stack_corners
 from selector.physics.devices import self_heated_element, stack_voltage
 from selector.physics.operating_point_scan import scan_operating_points
 from selector.physics.partset import PartSet
+from selector.physics.solver_settings import STATUS_NAMES, STATUS_NOT_CONVERGED, STATUS_SOLVED
 from selector.search.stack_bounds import voltage_range_fixed_current
 from selector.spec.part_fields import MAX_KNEE_EXPONENT as MAX_KNEE
 
