@@ -36,7 +36,7 @@ knee), so the current bracket is widened upward wherever ``F`` is still positive
 top; "load takes all the supply can give" means the load alone takes it all
 (``Vin ≤ R·I_Lc``). Points without a solution are flagged, never NaN: that; an element
 reaching electro-thermal loop gain ``θ·I·∂V/∂T ≥ 1``, or a junction that would settle
-above :data:`~selector.physics.devices.JUNCTION_CEILING_C` (thermal runaway); or the
+above :data:`~selector.physics.self_heating.JUNCTION_CEILING_C` (thermal runaway); or the
 iteration not converging.
 
 References
@@ -53,9 +53,9 @@ from dataclasses import dataclass, fields
 import numpy as np
 
 from selector.physics.bracketed_newton import solve_block
-from selector.physics.devices import JUNCTION_CEILING_C, ElementState, self_heated_element
 from selector.physics.fast_newton import Workspace, newton_block
 from selector.physics.partset import PartSet
+from selector.physics.self_heating import JUNCTION_CEILING_C, ElementState, self_heated_element
 from selector.physics.slot_constants import (
     block_constants,
     key_tables,
@@ -270,7 +270,7 @@ def _assembled(log_current, vout, status, worst_margin, hottest, supply, resisto
     load ``I_Lc + G_L·Vout``, resistor power ``R·(I + I_L)²`` and the KCL residual, with
     every point without a solution set to its flagged values, and every stack-off point to
     ``I = 0``, ``Vout = (Vin − R·I_Lc)/(1 + R·G_L)`` (DESIGN §3). A junction above
-    :data:`~selector.physics.devices.JUNCTION_CEILING_C` is no physical steady state: runaway."""
+    :data:`~selector.physics.self_heating.JUNCTION_CEILING_C` is no physical steady state: runaway."""
     status[(status == STATUS_SOLVED) & (hottest > JUNCTION_CEILING_C)] = STATUS_RUNAWAY
     # A slot with no allowed power (ambient at or past its Tjmax) carries NO_ALLOWED_POWER_W
     # in for 0 W, so its margin lands far below −1e250, where no real P/P_max can reach: −∞.

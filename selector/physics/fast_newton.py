@@ -8,7 +8,8 @@ import math
 
 import numpy as np
 
-from selector.physics.devices import KNEE_EXPONENT_CEILING, RUNAWAY_LOOP_GAIN, ZERO_CELSIUS_K
+from selector.physics.devices import KNEE_EXPONENT_CEILING, ZERO_CELSIUS_K
+from selector.physics.self_heating import RUNAWAY_LOOP_GAIN
 from selector.physics.slot_constants import (
     F_EG,
     F_EG_NKQ,
@@ -49,7 +50,7 @@ from selector.physics.solver_settings import (
 #: Newton evaluations the fast path spends on a point before handing it to the safeguarded solver.
 FAST_EVALUATIONS = 8
 #: How far below the ambient the fast path lets a forward junction go [K]. A negative
-#: tolerance can settle one a little colder (:func:`selector.physics.devices.forward_junction_floor_c`;
+#: tolerance can settle one a little colder (:func:`selector.physics.self_heating.forward_junction_floor_c`;
 #: by microkelvins at the small currents where it happens); a point colder still goes to
 #: the bracketed solver, which uses that floor itself.
 _FAST_BELOW_AMBIENT_K = 1.0

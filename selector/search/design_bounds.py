@@ -63,8 +63,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from selector.physics.devices import JUNCTION_CEILING_C
 from selector.physics.partset import PartSet
+from selector.physics.self_heating import JUNCTION_CEILING_C
 from selector.search.stack_bounds import (
     CLASS_SIGNS,
     CURRENT_FLOOR_A,

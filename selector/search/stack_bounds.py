@@ -12,7 +12,7 @@ Why the bounds hold
    ``Tj = Ta + θ·P`` is at most ``Ta + θ·(1 − m)·P_max(Ta)``. Below, ``Tj = Ta + θ·V·I``
    with a forward element's ``V ≥ −vf_tol − tc_tol·|Tj − tnom|`` (its log and ohmic terms
    are ≥ 0), which bounds how far below the ambient it can settle
-   (:func:`selector.physics.devices.forward_junction_floor_c`, at the least tolerance and
+   (:func:`selector.physics.self_heating.forward_junction_floor_c`, at the least tolerance and
    spread and, for a current range, at its top). A zener settles below the ambient only
    where its voltage is negative: with loop gain below 1 on the cold side of its
    junction, ``V(Ta) ≥ 0`` implies ``V(Tj) ≥ 0``, so its range starts at the ambient, and
@@ -74,11 +74,11 @@ import numpy as np
 from selector.physics.corners import part_current_limit
 from selector.physics.devices import (
     element_voltage_slopes,
-    forward_junction_floor_c,
     forward_log_saturation_current,
     thermal_voltage_v,
 )
 from selector.physics.partset import PartSet
+from selector.physics.self_heating import forward_junction_floor_c
 from selector.physics.series_resistor import resistor_allowed_power_w, resistor_factor
 from selector.spec.rail_spec import RailSpec
 
@@ -110,7 +110,7 @@ def class_resistor_factors(spec: RailSpec) -> tuple[np.ndarray, np.ndarray]:
 
 def lowest_junction_c(parts: PartSet, part_index, current_a, ambient_c):
     """Least junction an element can settle at (point 1): a forward element at its lowest
-    tolerance and TC spread (:func:`selector.physics.devices.forward_junction_floor_c`); a
+    tolerance and TC spread (:func:`selector.physics.self_heating.forward_junction_floor_c`); a
     zener at the ambient (below it only where its voltage is negative, which its bound
     then does not cover at all)."""
     forward_floor = forward_junction_floor_c(
