@@ -53,7 +53,8 @@ from dataclasses import dataclass, fields
 import numpy as np
 
 from selector.physics.bracketed_newton import solve_block
-from selector.physics.fast_newton import Workspace, newton_block
+from selector.physics.fast_iterate import Workspace
+from selector.physics.fast_newton import newton_block
 from selector.physics.partset import PartSet
 from selector.physics.self_heating import JUNCTION_CEILING_C, ElementState, self_heated_element
 from selector.physics.slot_constants import (
