@@ -192,7 +192,7 @@ def test_concurrent_imports_both_succeed(demo_library, library_path):
     """Two writers at once: the second waits for the first (busy timeout), none fails."""
     import threading
 
-    from selector.catalog.parts_import import RawRow, validate_rows
+    from selector.catalog.part_validation import RawRow, validate_rows
 
     def records(prefix: str):
         return validate_rows(

@@ -20,8 +20,8 @@ from datetime import UTC, date, datetime, time
 from sqlalchemy import insert, select
 from sqlalchemy.orm import Session
 
+from selector.catalog.import_plan import ImportPlan
 from selector.catalog.models import PERSON_LENGTH, AuditEvent
-from selector.catalog.parts_import import ImportPlan
 from selector.catalog.user_text import checked_name
 from selector.errors import OptionError
 from selector.files.csv_cells import format_number

@@ -30,6 +30,7 @@ from sqlalchemy.exc import DBAPIError, IntegrityError, SQLAlchemyError
 from sqlalchemy.orm import Session
 
 from selector.catalog import audit
+from selector.catalog.import_plan import ImportPlan, plan_changes
 from selector.catalog.library_engine import WRITE_OPTION, first_line, make_engine, worth_retrying
 from selector.catalog.library_location import (
     LibraryLocation,
@@ -45,13 +46,7 @@ from selector.catalog.models import (
     Part,
     utc_now,
 )
-from selector.catalog.parts_import import (
-    ImportPlan,
-    PartsFile,
-    load_parts_csv,
-    merged_records,
-    plan_changes,
-)
+from selector.catalog.parts_import import PartsFile, load_parts_csv, merged_records
 from selector.catalog.resources import demo_csv_path
 from selector.catalog.schema_revision import migrate, recorded_revision
 from selector.errors import LibraryError, OptionError, UnknownPartError
@@ -235,7 +230,7 @@ class Library:
         Parameters
         ----------
         records : iterable of dict
-            Validated records (see :func:`selector.catalog.parts_import.validate_rows`).
+            Validated records (see :func:`selector.catalog.part_validation.validate_rows`).
         kind : str
             What is imported, for the log: ``parts csv``, ``model cards``, ``datasheet fit``.
         file_name, file_sha256 : str
