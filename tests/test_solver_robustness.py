@@ -20,7 +20,7 @@ from selector.physics.operating_point_scan import scan_operating_points
 from selector.physics.partset import PartSet
 from selector.physics.self_heating import self_heated_element, stack_voltage
 from selector.physics.solver_settings import STATUS_NAMES, STATUS_NOT_CONVERGED, STATUS_SOLVED
-from selector.search.stack_bounds import voltage_range_fixed_current
+from selector.search.element_bounds import voltage_range_fixed_current
 from selector.spec.part_fields import MAX_KNEE_EXPONENT as MAX_KNEE
 
 CASES = settings(max_examples=2000, deadline=None, suppress_health_check=[HealthCheck.too_slow],
