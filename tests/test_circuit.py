@@ -8,10 +8,11 @@ from scipy.optimize import brentq
 from scipy.special import wrightomega
 
 from selector.physics import circuit, fast_newton
-from selector.physics.circuit import family_slots, solve_operating_points
+from selector.physics.circuit import solve_operating_points
 from selector.physics.devices import thermal_voltage_v
 from selector.physics.partset import PartSet
 from selector.physics.self_heating import JUNCTION_CEILING_C, self_heated_element, stack_voltage
+from selector.physics.slot_layout import family_slots
 from selector.physics.solver_settings import (
     STATUS_RUNAWAY,
     STATUS_SOLVED,
