@@ -20,8 +20,8 @@ import time
 import numpy as np
 
 from selector.physics.corners import allowed_power_w, worst_case_corners
-from selector.physics.devices import self_heated_element, stack_voltage
 from selector.physics.partset import PartSet
+from selector.physics.self_heating import self_heated_element, stack_voltage
 from selector.search.candidates import iterate_multisets
 from selector.search.engine import search_library
 from selector.spec.eseries import series_values

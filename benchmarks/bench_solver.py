@@ -14,7 +14,7 @@ best run's, in wall time and in CPU time of the process (CPU time is less affect
 other work on the machine, but a busy neighbour core still slows the shared caches).
 
 The reference solves a subsample of the random points one at a time with
-``scipy.optimize.brentq`` on the same model (``selector.physics.devices.stack_voltage``).
+``scipy.optimize.brentq`` on the same model (``selector.physics.self_heating.stack_voltage``).
 
 Run:  python benchmarks/bench_solver.py [--points N] [--stacks S] [--reference M] [--repeat K]
 """
@@ -29,8 +29,8 @@ from scipy.optimize import brentq
 
 from selector.physics.circuit import solve_operating_points, solve_stack_corners
 from selector.physics.corners import CORNER_COUNT, evaluate_designs, worst_case_corners
-from selector.physics.devices import stack_voltage
 from selector.physics.partset import PartSet
+from selector.physics.self_heating import stack_voltage
 from selector.spec.rail_spec import RailSpec
 
 INVENTED_PARTS = [

@@ -1,6 +1,6 @@
 """Alembic environment of the parts library: the only way its schema is made.
 
-The store (``selector.catalog.store``) runs Alembic programmatically and hands over an
+The library (``selector.catalog.schema_revision``) runs Alembic programmatically and hands over an
 open connection in ``config.attributes["connection"]``; the ``alembic`` command line may
 instead give ``sqlalchemy.url``. ``render_as_batch=True`` lets SQLite alter tables by
 copy-and-move, which it needs for most schema changes.

@@ -23,7 +23,8 @@ from selector.catalog.audit import history
 from selector.catalog.models import ImportLog, Part
 from selector.catalog.parts_import import load_parts_csv
 from selector.catalog.resources import demo_csv_path
-from selector.catalog.store import alembic_config, head_revision, open_library
+from selector.catalog.schema_revision import alembic_config, head_revision
+from selector.catalog.store import open_library
 from selector.errors import InputDataError, LibraryError, OptionError, UnknownPartError
 
 

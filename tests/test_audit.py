@@ -11,7 +11,7 @@ from sqlalchemy import text
 
 from selector.catalog import list_changes as changes
 from selector.catalog.audit import HISTORY_COLUMNS, history, parse_since
-from selector.catalog.parts_import import RawRow, validate_rows
+from selector.catalog.part_validation import RawRow, validate_rows
 from selector.catalog.store import open_library
 from selector.errors import LibraryError, OptionError
 

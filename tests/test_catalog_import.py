@@ -9,8 +9,9 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from selector.catalog.part_validation import RULES
 from selector.catalog.parts_export import EXPORT_COLUMNS, write_parts_csv
-from selector.catalog.parts_import import RULES, load_parts_csv, parse_column_settings
+from selector.catalog.parts_import import load_parts_csv, parse_column_settings
 from selector.errors import InputDataError, OptionError
 
 HEADER = "part,family,description,is_a,n,rs_ohm,pd_w,vz_v,izt_a,zzt_ohm,izk_a,zzk_ohm,tc_v_per_k\n"

@@ -19,7 +19,8 @@ from selector.catalog import models
 from selector.catalog.parts_export import write_parts_csv
 from selector.catalog.parts_import import load_parts_csv
 from selector.catalog.resources import demo_csv_path
-from selector.catalog.store import alembic_config, head_revision, open_library
+from selector.catalog.schema_revision import alembic_config, head_revision
+from selector.catalog.store import open_library
 from selector.errors import LibraryError
 
 PG_URL = os.environ.get("RAILWRIGHT_TEST_PG_URL")

@@ -9,8 +9,11 @@ import numpy as np
 import pytest
 from sqlalchemy import text
 
-from selector.catalog import resources, store
-from selector.catalog.store import default_library_path, open_library, resolve_location
+from selector.catalog import resources, schema_revision
+from selector.catalog.library_engine import BUSY_TIMEOUT_MS
+from selector.catalog.library_location import default_library_path, resolve_location
+from selector.catalog.schema_revision import head_revision
+from selector.catalog.store import open_library
 from selector.errors import LibraryError, OptionError, UnknownPartError
 from selector.spec.part_fields import FAMILIES
 
@@ -35,7 +38,7 @@ def test_missing_library_at_an_explicit_path_is_created_empty(library_path):
     library = open_library(str(library_path), notify=told.append)
     assert library.part_records() == []
     assert told == [f"created an empty library {library_path}"]
-    assert library.schema_revision() == store.head_revision()
+    assert library.schema_revision() == head_revision()
     assert library.location_text() == str(library_path)
 
 
@@ -85,7 +88,7 @@ def test_an_older_schema_is_upgraded_and_says_so(tmp_path, demo_library, library
     """Add a throwaway second revision to a copy of the migrations, then reopen."""
     copied = tmp_path / "migrations"
     shutil.copytree(resources.migrations_folder(), copied)
-    head = store.head_revision()
+    head = head_revision()
     (copied / "versions" / "9001_test_note_column.py").write_text(
         "import sqlalchemy as sa\nfrom alembic import op\n"
         f"revision = '9001'\ndown_revision = {head!r}\nbranch_labels = None\ndepends_on = None\n"
@@ -93,7 +96,7 @@ def test_an_older_schema_is_upgraded_and_says_so(tmp_path, demo_library, library
         "def downgrade():\n    op.drop_table('test_note')\n"
     )
     demo_library.close()
-    monkeypatch.setattr(store, "migrations_folder", lambda: copied)
+    monkeypatch.setattr(schema_revision, "migrations_folder", lambda: copied)
     told: list[str] = []
     library = open_library(str(library_path), notify=told.append)
     assert told == [f"upgraded the library {library_path} from schema revision {head} to 9001"]
@@ -105,7 +108,7 @@ def test_sqlite_runs_with_foreign_keys_wal_and_busy_timeout(empty_library):
     with empty_library.engine.connect() as connection:
         assert connection.exec_driver_sql("PRAGMA foreign_keys").scalar() == 1
         assert connection.exec_driver_sql("PRAGMA journal_mode").scalar() == "wal"
-        assert connection.exec_driver_sql("PRAGMA busy_timeout").scalar() == store.BUSY_TIMEOUT_MS
+        assert connection.exec_driver_sql("PRAGMA busy_timeout").scalar() == BUSY_TIMEOUT_MS
 
 
 def test_urls_are_shown_with_the_password_masked():
@@ -189,7 +192,7 @@ def test_concurrent_imports_both_succeed(demo_library, library_path):
     """Two writers at once: the second waits for the first (busy timeout), none fails."""
     import threading
 
-    from selector.catalog.parts_import import RawRow, validate_rows
+    from selector.catalog.part_validation import RawRow, validate_rows
 
     def records(prefix: str):
         return validate_rows(

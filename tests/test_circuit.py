@@ -8,21 +8,17 @@ from scipy.optimize import brentq
 from scipy.special import wrightomega
 
 from selector.physics import circuit, fast_newton
-from selector.physics.circuit import (
+from selector.physics.circuit import solve_operating_points
+from selector.physics.devices import thermal_voltage_v
+from selector.physics.partset import PartSet
+from selector.physics.self_heating import JUNCTION_CEILING_C, self_heated_element, stack_voltage
+from selector.physics.slot_layout import family_slots
+from selector.physics.solver_settings import (
     STATUS_RUNAWAY,
     STATUS_SOLVED,
     STATUS_STACK_OFF,
     STATUS_SUPPLY_EXHAUSTED,
-    family_slots,
-    solve_operating_points,
 )
-from selector.physics.devices import (
-    JUNCTION_CEILING_C,
-    self_heated_element,
-    stack_voltage,
-    thermal_voltage_v,
-)
-from selector.physics.partset import PartSet
 
 INVENTED_PARTS = [
     # invented: a diode with negligible self-heating, for closed-form checks
@@ -145,7 +141,7 @@ def test_extremes_of_current_and_temperature_are_safe(parts):
         op = solve_operating_points(parts, stacks, supply, resistor, ambient, 1.0, detail=True)
     assert np.all(np.isfinite(op.vout_v)) and np.all(np.isfinite(op.junction_c))
     # Amperes through a signal diode (points 1 and 3) would settle its junction past
-    # devices.JUNCTION_CEILING_C (near 21,000 °C and 9,000 °C): no physical steady state.
+    # self_heating.JUNCTION_CEILING_C (near 21,000 °C and 9,000 °C): no physical steady state.
     assert op.status.tolist() == [STATUS_SOLVED, STATUS_RUNAWAY, STATUS_SOLVED, STATUS_RUNAWAY]
     assert 1e-13 < op.stack_current_a[0] < 1e-9  # picoamps
     assert op.worst_element_margin[2] < 0  # an ambient of 200 °C leaves the parts no allowed power

@@ -218,7 +218,7 @@ def test_a_thermal_latch_takes_the_operating_point_from_zero_current_and_is_flag
         assert metrics.evaluation.stack_current_a[0, corner] == pytest.approx(low, rel=1e-6)
         assert 0.03 < low < 0.05 and high > 1.0 and scan.unstable_a[0].size == 1
     # Both points satisfy KCL (DESIGN §3 circuit equation), each element at its own junction.
-    from selector.physics.devices import stack_voltage
+    from selector.physics.self_heating import stack_voltage
 
     for current in scan.roots_a[0]:
         voltage, _ = stack_voltage(parts, np.array([[0]]), current, 25.0, -1.0)

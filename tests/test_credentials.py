@@ -11,7 +11,7 @@ import logging
 import pytest
 from click.testing import CliRunner
 
-from selector.catalog.store import resolve_location
+from selector.catalog.library_location import resolve_location
 from selector.cli import main
 
 SECRET = "secret"

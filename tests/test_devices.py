@@ -8,14 +8,12 @@ from scipy import constants
 
 from selector.physics.corners import allowed_power_w
 from selector.physics.devices import (
-    JUNCTION_CEILING_C,
     element_voltage_slopes,
     forward_log_saturation_current,
-    self_heated_element,
-    stack_voltage,
     thermal_voltage_v,
 )
 from selector.physics.partset import PartSet
+from selector.physics.self_heating import JUNCTION_CEILING_C, self_heated_element, stack_voltage
 
 INVENTED_PARTS = [
     # invented: a small-signal silicon diode

@@ -194,9 +194,9 @@ def test_immutable_library_gives_one_clear_line_even_to_root(tmp_path, parts_csv
 
 
 def test_locked_library_gives_one_clear_line(tmp_path, parts_csv, monkeypatch):
-    from selector.catalog import store
+    from selector.catalog import library_engine
 
-    monkeypatch.setattr(store, "BUSY_TIMEOUT_MS", 200)
+    monkeypatch.setattr(library_engine, "BUSY_TIMEOUT_MS", 200)
     path = tmp_path / "library.sqlite"
     open_library(str(path)).close()
     holder = sqlite3.connect(path, isolation_level=None)

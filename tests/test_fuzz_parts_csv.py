@@ -19,8 +19,9 @@ from csv_fuzzing import assert_located_errors, spoiled_csv_bytes
 from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
+from selector.catalog.part_validation import KNOWN_COLUMNS, RULES
 from selector.catalog.parts_export import write_parts_csv
-from selector.catalog.parts_import import KNOWN_COLUMNS, RULES, load_parts_csv
+from selector.catalog.parts_import import load_parts_csv
 from selector.catalog.store import open_library
 from selector.cli import main
 

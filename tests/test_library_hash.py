@@ -8,7 +8,7 @@ import hashlib
 from selector.api import save_design
 from selector.catalog import list_changes as changes
 from selector.catalog.library_hash import canonical_lines, library_content_hash
-from selector.catalog.parts_import import RawRow, validate_rows
+from selector.catalog.part_validation import RawRow, validate_rows
 from selector.catalog.store import open_library
 from selector.spec.spec_source import SpecSource
 

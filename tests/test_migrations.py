@@ -14,7 +14,8 @@ from sqlalchemy import create_engine, inspect, text
 from selector.catalog import models
 from selector.catalog.parts_import import load_parts_csv
 from selector.catalog.resources import demo_csv_path, migrations_folder
-from selector.catalog.store import alembic_config, head_revision, open_library
+from selector.catalog.schema_revision import alembic_config, head_revision
+from selector.catalog.store import open_library
 from selector.spec.part_fields import FAMILIES, NUMERIC_COLUMNS
 
 

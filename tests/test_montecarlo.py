@@ -64,7 +64,7 @@ def _plain_corner_passes(parts, elements, spec, supply, load, ambient, resistor,
     and the DESIGN §3 pass rule checked by hand."""
     from scipy.optimize import brentq
 
-    from selector.physics.devices import self_heated_element
+    from selector.physics.self_heating import self_heated_element
 
     def stack(current):
         return self_heated_element(parts, elements, np.log(current), ambient, tolerance, tc_spread_sign=spread)

@@ -5,7 +5,9 @@ from __future__ import annotations
 import click
 import pytest
 
-from selector.catalog.store import default_library_path, head_revision, open_library
+from selector.catalog.library_location import default_library_path
+from selector.catalog.schema_revision import head_revision
+from selector.catalog.store import open_library
 from selector.cli import main
 from selector.spec.stack_notation import part_id_order
 

@@ -12,7 +12,8 @@ from sqlalchemy import text
 
 from selector.catalog import list_changes as changes
 from selector.catalog.audit import history
-from selector.catalog.store import head_revision, open_library
+from selector.catalog.schema_revision import head_revision
+from selector.catalog.store import open_library
 from selector.errors import LibraryError
 
 

@@ -26,7 +26,7 @@ from selector.catalog.saved_designs import (
     saved_revision,
     where_used,
 )
-from selector.catalog.store import head_revision
+from selector.catalog.schema_revision import head_revision
 from selector.errors import LibraryError, OptionError
 from selector.spec.spec_source import read_spec_source
 
@@ -206,7 +206,7 @@ def test_revision_0005_steps_down_and_up_with_its_guard(backend_library, spec_fi
     from alembic import command
     from sqlalchemy import inspect
 
-    from selector.catalog.store import alembic_config
+    from selector.catalog.schema_revision import alembic_config
 
     save_design(spec_file, backend_library, "bias-5v", "Z5V1-B", reason="first build")
     parts = backend_library.part_records()

@@ -15,17 +15,12 @@ import numpy as np
 from hypothesis import HealthCheck, Phase, example, given, settings
 from hypothesis import strategies as st
 
-from selector.physics.circuit import (
-    STATUS_NAMES,
-    STATUS_NOT_CONVERGED,
-    STATUS_SOLVED,
-    solve_operating_points,
-    solve_stack_corners,
-)
-from selector.physics.devices import self_heated_element, stack_voltage
+from selector.physics.circuit import solve_operating_points, solve_stack_corners
 from selector.physics.operating_point_scan import scan_operating_points
 from selector.physics.partset import PartSet
-from selector.search.stack_bounds import voltage_range_fixed_current
+from selector.physics.self_heating import self_heated_element, stack_voltage
+from selector.physics.solver_settings import STATUS_NAMES, STATUS_NOT_CONVERGED, STATUS_SOLVED
+from selector.search.element_bounds import voltage_range_fixed_current
 from selector.spec.part_fields import MAX_KNEE_EXPONENT as MAX_KNEE
 
 CASES = settings(max_examples=2000, deadline=None, suppress_health_check=[HealthCheck.too_slow],
@@ -73,7 +68,7 @@ def problems(draw):
 
 # Regression corpus: cases this property found, replayed on every run.
 #: The safeguarded solver once overflowed in a division (junction iterates grew without
-#: bound; now capped at devices.JUNCTION_CEILING_C).
+#: bound; now capped at self_heating.JUNCTION_CEILING_C).
 _OVERFLOW_CASE = ([{"part": "RB-0", "family": "signal", "is_a": 1e-08, "n": 1.0, "rs_ohm": 0.0, "eg_ev": 1.0,
                     "xti": -5.0, "tnom_c": 0.0, "vf_tol_v": 0.0, "pd_w": 0.01, "tj_max_c": 127.0}], 0)  # fmt: skip
 #: The margin of a zener at an ambient above its Tjmax (no allowed power) once overflowed
@@ -152,7 +147,7 @@ def test_random_valid_points_are_solved_within_1_nV_or_flagged_with_a_reason(pro
     assert all(STATUS_NAMES[code] for code in points.status[~solved])
     assert not np.isnan(points.worst_element_margin[solved]).any()
     # The reported hottest junction is the hottest element's, each element solved on its own
-    # (selector.physics.devices.self_heated_element).
+    # (selector.physics.self_heating.self_heated_element).
     hottest = np.where(stacks >= 0, points.junction_c, -np.inf).max(axis=1)
     np.testing.assert_allclose(points.hottest_junction_c[solved], hottest[solved], rtol=0, atol=1e-3)
 

@@ -16,7 +16,8 @@ import click
 import pytest
 from alembic.script import ScriptDirectory
 
-from selector.catalog.store import alembic_config, head_revision, open_library
+from selector.catalog.schema_revision import alembic_config, head_revision
+from selector.catalog.store import open_library
 from selector.cli import COMMAND_MODULES, COMMAND_SUMMARIES, main
 
 #: Runs ``railwright ARGS…`` and, at exit, writes every loaded module's name to OUT_FILE.

@@ -28,6 +28,7 @@ from sqlalchemy.orm import Session
 
 from selector.catalog import audit
 from selector.catalog.models import LIST_NAME_LENGTH, ApprovedList, ListEntry, Part
+from selector.catalog.user_text import checked_name
 from selector.errors import OptionError, RailwrightError, UnknownPartError
 from selector.spec.list_statuses import LIST_STATUSES, UNUSABLE_STATUSES
 from selector.spec.stack_notation import part_id_order
@@ -67,15 +68,8 @@ class Entry:
 
 def check_list_name(name: str, place: str = "LIST") -> str:
     """A list name stripped; :class:`OptionError` naming ``place`` when unusable."""
-    cleaned = name.strip()
-    if not cleaned:
-        raise OptionError(f"{place}: empty; give the name of an approved-parts list")
-    if len(cleaned) > LIST_NAME_LENGTH or not cleaned.isprintable():
-        raise OptionError(
-            f"{place}: '{shown(cleaned[:40])}' is not a usable list name "
-            f"(one line, at most {LIST_NAME_LENGTH} characters)"
-        )
-    return cleaned
+    return checked_name(name, place, kind="list name", longest=LIST_NAME_LENGTH,
+                        missing="give the name of an approved-parts list")  # fmt: skip
 
 
 def status_problem(status: str) -> str | None:

@@ -20,8 +20,9 @@ from datetime import UTC, date, datetime, time
 from sqlalchemy import insert, select
 from sqlalchemy.orm import Session
 
+from selector.catalog.import_plan import ImportPlan
 from selector.catalog.models import PERSON_LENGTH, AuditEvent
-from selector.catalog.parts_import import ImportPlan
+from selector.catalog.user_text import checked_name
 from selector.errors import OptionError
 from selector.files.csv_cells import format_number
 from selector.spec.units import shown
@@ -68,12 +69,8 @@ def person(by: str | None, option: str = "--by") -> str:
     """Who makes a change: ``by`` checked (one printable line), or the OS user."""
     if by is None:
         return current_user()
-    name = by.strip()
-    if not name:
-        raise OptionError(f"{option}: empty; give the name of the person making the change")
-    if len(name) > PERSON_LENGTH or not name.isprintable():
-        raise OptionError(f"{option}: '{shown(name[:40])}' is not a usable name (one line, at most {PERSON_LENGTH} characters)")
-    return name
+    return checked_name(by, option, kind="name", longest=PERSON_LENGTH,
+                        missing="give the name of the person making the change")  # fmt: skip
 
 
 @dataclass(frozen=True)

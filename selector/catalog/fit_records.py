@@ -13,7 +13,8 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 
-from selector.catalog.parts_import import PartsFile, RawRow, data_warnings, validate_rows
+from selector.catalog.part_validation import RawRow, validate_rows
+from selector.catalog.parts_import import PartsFile, data_warnings
 from selector.errors import OptionError
 from selector.spec import units
 from selector.spec.part_fields import BREAKDOWN_FAMILIES

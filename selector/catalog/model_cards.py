@@ -50,15 +50,14 @@ from dataclasses import dataclass, field
 from decimal import Decimal, DecimalException
 from pathlib import Path
 
+from selector.catalog.part_validation import RawRow, validate_rows
 from selector.catalog.parts_import import (
     PartsFile,
-    RawRow,
     data_warnings,
     decode_text,
     file_digest,
     read_csv_rows,
     read_input_bytes,
-    validate_rows,
 )
 from selector.errors import InputDataError
 from selector.physics.devices import thermal_voltage_v

@@ -26,6 +26,7 @@ from selector.catalog import audit
 from selector.catalog.design_snapshot import part_snapshot
 from selector.catalog.library_hash import content_hash
 from selector.catalog.models import DESIGN_NAME_LENGTH, DesignRevision, SavedDesign, utc_now
+from selector.catalog.user_text import checked_name
 from selector.errors import LibraryError, OptionError, RailwrightError
 from selector.spec.spec_source import SpecSource
 from selector.spec.units import format_quantity, shown
@@ -44,15 +45,8 @@ class UnknownDesignError(RailwrightError):
 
 def check_design_name(name: str, place: str = "NAME") -> str:
     """A design name stripped; :class:`OptionError` naming ``place`` when unusable."""
-    cleaned = name.strip()
-    if not cleaned:
-        raise OptionError(f"{place}: empty; give the saved design a name")
-    if len(cleaned) > DESIGN_NAME_LENGTH or not cleaned.isprintable():
-        raise OptionError(
-            f"{place}: '{shown(cleaned[:40])}' is not a usable design name "
-            f"(one line, at most {DESIGN_NAME_LENGTH} characters)"
-        )
-    return cleaned
+    return checked_name(name, place, kind="design name", longest=DESIGN_NAME_LENGTH,
+                        missing="give the saved design a name")  # fmt: skip
 
 
 def check_reason(reason: str | None, place: str = "--reason") -> str:

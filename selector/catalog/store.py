@@ -1,4 +1,4 @@
-"""The parts library store: where it lives, opening it, migrating it, reading and writing.
+"""The parts library store: opening a library, reading it and writing to it.
 
 A library is an SQLite file (default) or a database URL such as PostgreSQL for a shared
 team library. Its schema is made only by the Alembic migrations; opening a library at an
@@ -11,7 +11,9 @@ Every write goes through :meth:`Library.write`: SQLite's write lock is taken at 
 on PostgreSQL, a serialisation failure or deadlock) is run again, a bounded number of
 times with growing randomised pauses, so concurrent users queue instead of failing.
 Every change to a part is recorded in the audit trail (:mod:`selector.catalog.audit`) in
-the same transaction.
+the same transaction. Where a library lives is :mod:`selector.catalog.library_location`,
+its engine :mod:`selector.catalog.library_engine`, its schema
+:mod:`selector.catalog.schema_revision`.
 """
 
 from __future__ import annotations
@@ -20,19 +22,22 @@ import random
 import time
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from contextlib import contextmanager
-from dataclasses import dataclass
 from functools import partial
-from pathlib import Path
-from typing import TYPE_CHECKING, TypeVar
+from typing import TypeVar
 
-import platformdirs
-from sqlalchemy import Engine, create_engine, delete, event, insert, inspect, select, update
-from sqlalchemy.engine import URL, make_url
-from sqlalchemy.exc import ArgumentError, DBAPIError, IntegrityError, SQLAlchemyError
+from sqlalchemy import Engine, delete, insert, select, update
+from sqlalchemy.exc import DBAPIError, IntegrityError, SQLAlchemyError
 from sqlalchemy.orm import Session
-from sqlalchemy.pool import StaticPool
 
 from selector.catalog import audit
+from selector.catalog.import_plan import ImportPlan, plan_changes
+from selector.catalog.library_engine import WRITE_OPTION, first_line, make_engine, worth_retrying
+from selector.catalog.library_location import (
+    LibraryLocation,
+    check_sqlite_file,
+    prepare_folder,
+    resolve_location,
+)
 from selector.catalog.models import (
     RECORD_COLUMNS,
     ApprovedList,
@@ -41,251 +46,23 @@ from selector.catalog.models import (
     Part,
     utc_now,
 )
-from selector.catalog.parts_import import (
-    ImportPlan,
-    PartsFile,
-    load_parts_csv,
-    merged_records,
-    plan_changes,
-)
-from selector.catalog.resources import demo_csv_path, migrations_folder
+from selector.catalog.parts_import import PartsFile, load_parts_csv, merged_records
+from selector.catalog.resources import demo_csv_path
+from selector.catalog.schema_revision import migrate, recorded_revision
 from selector.errors import LibraryError, OptionError, UnknownPartError
 from selector.files import output_files
 from selector.physics.partset import PartSet
 from selector.spec.part_fields import FAMILIES
 from selector.spec.stack_notation import part_id_order
 
-if TYPE_CHECKING:
-    from alembic.config import Config
-    from alembic.script import ScriptDirectory
-
-#: File name of the default library inside the per-user data directory.
-DEFAULT_LIBRARY_FILE = "library.sqlite"
-#: How long SQLite waits for another writer before giving up [ms].
-BUSY_TIMEOUT_MS = 30_000
-
-_SQLITE_MAGIC = b"SQLite format 3\x00"
-#: Execution option that marks a transaction as a writer.
-_WRITE_OPTION = "railwright_write"
 #: Tries of a write transaction that meets a busy database, and the first pause [s]
 #: (doubled each time, randomised ±50 % so that waiting writers do not collide again).
 WRITE_ATTEMPTS = 8
 FIRST_RETRY_PAUSE_S = 0.05
-#: Database backends the migrations (and the audit trail's guard) support.
-SUPPORTED_BACKENDS: tuple[str, ...] = ("sqlite", "postgresql")
-#: PostgreSQL advisory-lock key that serialises concurrent schema upgrades.
-_MIGRATION_LOCK_KEY = 7_302_551
-#: SQLSTATEs after which PostgreSQL asks for the transaction to be run again.
-_RETRY_SQLSTATES = frozenset({"40001", "40P01", "55P03"})
 
 T = TypeVar("T")
 
 Notify = Callable[[str], None]
-
-
-def default_library_path() -> Path:
-    """The per-user library file (platformdirs' user data directory for railwright)."""
-    return platformdirs.user_data_path("railwright", appauthor=False) / DEFAULT_LIBRARY_FILE
-
-
-@dataclass(frozen=True)
-class LibraryLocation:
-    """Where a library lives: its URL, its file (SQLite) and whether it is the default."""
-
-    url: URL
-    path: Path | None
-    is_default: bool
-
-    def text(self) -> str:
-        """The file path, or the URL with any password shown as ``***``."""
-        if self.path is not None:
-            return str(self.path)
-        return _masked(self.url.render_as_string(hide_password=False))
-
-
-#: Longest ``--db`` value read [characters] (far past any real path or URL).
-MAX_DB_OPTION_LENGTH = 1024
-
-
-def resolve_location(db_option: str | None) -> LibraryLocation:
-    """Read the ``--db`` value: None (default), a file path, or an SQLAlchemy URL."""
-    if db_option is not None and len(db_option) > MAX_DB_OPTION_LENGTH:
-        raise OptionError(f"--db: {len(db_option)} characters is too long for a path or URL (at most "
-                          f"{MAX_DB_OPTION_LENGTH})")  # fmt: skip
-    try:
-        return _resolved_location(db_option)
-    except (ValueError, OSError) as error:  # a port that is no number, a bracket left open, an unusable path
-        detail = error.strerror if isinstance(error, OSError) and error.strerror else "not a usable path or URL"
-        raise OptionError(f"--db: '{_masked(db_option or '')}': {detail}") from None
-
-
-def _resolved_location(db_option: str | None) -> LibraryLocation:
-    if db_option is None:
-        path = default_library_path()
-        return LibraryLocation(URL.create("sqlite", database=str(path)), path, True)
-    text = db_option.strip()
-    if not text:
-        raise OptionError("--db: empty; give a library file path or a database URL")
-    if "://" in text:
-        if text.partition("://")[2].split("/", 1)[0].count("@") > 1:
-            # An '@' in the password, not encoded: the driver would take part of the
-            # password for the host name and print it in its error.
-            raise OptionError(f"--db: '{_masked(text)}': more than one '@' before the host; write an '@' in the "
-                              "password as %40")  # fmt: skip
-        try:
-            url = make_url(text)
-            url.port  # noqa: B018 - SQLAlchemy reads the port only when asked
-        except ArgumentError:
-            raise OptionError(f"--db: '{_masked(text)}' is not a database URL") from None
-        if url.get_backend_name() not in SUPPORTED_BACKENDS:
-            raise OptionError(
-                f"--db: '{_masked(text)}': {url.get_backend_name()} is not supported; "
-                "use an SQLite file or a postgresql+psycopg:// URL"
-            )
-        if url.get_backend_name() == "sqlite" and url.database not in (None, "", ":memory:"):
-            path = Path(url.database).expanduser().resolve()
-            return LibraryLocation(url.set(database=str(path)), path, False)
-        return LibraryLocation(url, None, False)
-    path = Path(text).expanduser().resolve()
-    return LibraryLocation(URL.create("sqlite", database=str(path)), path, False)
-
-
-def _masked(text: str) -> str:
-    """A ``--db`` value safe to print: the password — everything between the user name's
-    ``:`` and the last ``@``, whatever characters it holds — and any ``password=`` in the
-    query become ``***``."""
-    import re
-
-    scheme, separator, rest = text.partition("://")
-    if separator and "@" in rest:
-        userinfo, host = rest.rsplit("@", 1)
-        user, colon, _ = userinfo.partition(":")
-        rest = f"{user}:***@{host}" if colon else f"{userinfo}@{host}"
-    rest = re.sub(r"(?i)(password=)[^&]*", r"\1***", rest)
-    return f"{scheme}{separator}{rest}"
-
-
-def _configure_sqlite(engine: Engine) -> None:
-    """Foreign keys, WAL and a busy timeout on every connection; real transactions.
-
-    The driver's own implicit transactions are switched off so that SQLAlchemy's BEGIN
-    also covers schema changes (pysqlite otherwise commits before DDL).
-    """
-
-    @event.listens_for(engine, "connect")
-    def _on_connect(dbapi_connection, _record) -> None:
-        dbapi_connection.isolation_level = None
-        cursor = dbapi_connection.cursor()
-        cursor.execute("PRAGMA foreign_keys=ON")
-        cursor.execute(f"PRAGMA busy_timeout={BUSY_TIMEOUT_MS}")
-        cursor.execute("PRAGMA journal_mode=WAL")
-        cursor.close()
-
-    @event.listens_for(engine, "begin")
-    def _on_begin(connection) -> None:
-        # A writer takes the write lock at BEGIN, so two imports queue on the busy
-        # timeout instead of one failing when it upgrades a read lock.
-        writing = connection.get_execution_options().get(_WRITE_OPTION, False)
-        connection.exec_driver_sql("BEGIN IMMEDIATE" if writing else "BEGIN")
-
-
-def _make_engine(location: LibraryLocation) -> Engine:
-    try:
-        if location.url.get_backend_name() == "sqlite":
-            in_memory = location.path is None
-            engine = create_engine(
-                location.url,
-                poolclass=StaticPool if in_memory else None,
-                connect_args={"timeout": BUSY_TIMEOUT_MS / 1000, "check_same_thread": not in_memory},
-            )
-            _configure_sqlite(engine)
-            return engine
-        return create_engine(location.url, pool_pre_ping=True)
-    except ImportError as error:
-        raise LibraryError(
-            f"{location.text()}: cannot use this database: its driver is not installed "
-            f"({_first_line(error)}); install it with: pip install 'railwright[postgres]'"
-        ) from None
-    except (ArgumentError, SQLAlchemyError) as error:
-        raise LibraryError(f"{location.text()}: cannot use this database ({_first_line(error)})") from None
-
-
-def _first_line(error: BaseException) -> str:
-    text = str(getattr(error, "orig", None) or error)
-    return text.strip().splitlines()[0] if text.strip() else type(error).__name__
-
-
-def alembic_config(connection=None) -> Config:
-    """An Alembic configuration for the packaged migrations, bound to ``connection``."""
-    from alembic.config import Config
-
-    config = Config()
-    config.set_main_option("script_location", str(migrations_folder()))
-    if connection is not None:
-        config.attributes["connection"] = connection
-    return config
-
-
-def head_revision() -> str:
-    """The newest schema revision this installation knows, read without Alembic.
-
-    Revision files are named ``NNNN_what_it_does.py`` with revision id ``NNNN`` and each
-    revises the one before, so the head is the prefix of the greatest file name
-    (``tests/test_startup.py`` checks that Alembic finds the same head).
-    """
-    names = sorted(path.name for path in (migrations_folder() / "versions").glob("[0-9]*_*.py"))
-    if not names:
-        raise LibraryError("the installation is incomplete: no schema revisions found; reinstall railwright")
-    return names[-1].split("_", 1)[0]
-
-
-def _recorded_revision(connection) -> str | None:
-    """The one revision in the library's ``alembic_version`` table, by one query.
-
-    None when it cannot be read that way (no such table yet, none or several rows, not a
-    database): the caller then asks Alembic, which tells those cases apart.
-    """
-    try:
-        rows = connection.exec_driver_sql("SELECT version_num FROM alembic_version").scalars().all()
-    except DBAPIError:
-        return None
-    return rows[0] if len(rows) == 1 else None
-
-
-def _check_sqlite_file(path: Path) -> bool:
-    """Whether ``path`` is a new library; refuse a folder or a file that is not SQLite."""
-    if path.is_dir():
-        raise LibraryError(f"{path}: is a folder, not a library file")
-    if not path.exists():
-        return True
-    if path.stat().st_size == 0:
-        # An empty file may be a library truncated by a failed copy: never start afresh in it.
-        raise LibraryError(f"{path}: not a railwright library (an empty file)")
-    try:
-        with path.open("rb") as handle:
-            magic = handle.read(len(_SQLITE_MAGIC))
-    except OSError as error:
-        raise LibraryError(f"{path}: cannot read ({error.strerror or error})") from None
-    if magic != _SQLITE_MAGIC:
-        raise LibraryError(f"{path}: not a railwright library (not an SQLite database file)")
-    _refuse_foreign_database(path)
-    return False
-
-
-def _refuse_foreign_database(path: Path) -> None:
-    """Refuse another program's SQLite file before our connection settings (WAL) touch it."""
-    import sqlite3
-
-    try:
-        connection = sqlite3.connect(f"{path.resolve().as_uri()}?mode=ro", uri=True)
-        try:
-            tables = {row[0] for row in connection.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
-        finally:
-            connection.close()
-    except sqlite3.DatabaseError as error:
-        raise LibraryError(f"{path}: not a railwright library ({error})") from None
-    if tables and "alembic_version" not in tables:
-        raise LibraryError(f"{path}: holds a database, but not a railwright library")
 
 
 class Library:
@@ -304,7 +81,7 @@ class Library:
     def schema_revision(self) -> str:
         """The schema revision the library is at (e.g. ``"0001"``); empty if none."""
         with self._connect() as connection:
-            return _recorded_revision(connection) or ""
+            return recorded_revision(connection) or ""
 
     @contextmanager
     def _connect(self):
@@ -312,7 +89,7 @@ class Library:
             with self.engine.connect() as connection:
                 yield connection
         except SQLAlchemyError as error:
-            raise LibraryError(f"{self.location_text()}: {_first_line(error)}") from None
+            raise LibraryError(f"{self.location_text()}: {first_line(error)}") from None
 
     @contextmanager
     def session(self) -> Iterator[Session]:
@@ -339,13 +116,13 @@ class Library:
         session. A domain error raised by ``work`` rolls the transaction back and
         propagates; database failures surface as :class:`LibraryError`.
         """
-        engine = self.engine.execution_options(**{_WRITE_OPTION: True})
+        engine = self.engine.execution_options(**{WRITE_OPTION: True})
         for attempt in range(WRITE_ATTEMPTS):
             try:
                 with Session(engine, expire_on_commit=False) as session, session.begin():
                     return work(session)
             except DBAPIError as error:
-                if not _worth_retrying(error) or attempt == WRITE_ATTEMPTS - 1:
+                if not worth_retrying(error) or attempt == WRITE_ATTEMPTS - 1:
                     raise self._library_error(error) from None
             except SQLAlchemyError as error:
                 raise self._library_error(error) from None
@@ -354,13 +131,13 @@ class Library:
 
     def _library_error(self, error: SQLAlchemyError) -> LibraryError:
         if isinstance(error, IntegrityError):
-            return LibraryError(f"{self.location_text()}: refused by the database ({_first_line(error)})")
-        if _worth_retrying(error):
+            return LibraryError(f"{self.location_text()}: refused by the database ({first_line(error)})")
+        if worth_retrying(error):
             return LibraryError(
                 f"{self.location_text()}: still busy with other writers after {WRITE_ATTEMPTS} tries; "
                 "try again in a moment"
             )
-        return LibraryError(f"{self.location_text()}: {_first_line(error)}")
+        return LibraryError(f"{self.location_text()}: {first_line(error)}")
 
     def close(self) -> None:
         """Release the library's connections."""
@@ -453,7 +230,7 @@ class Library:
         Parameters
         ----------
         records : iterable of dict
-            Validated records (see :func:`selector.catalog.parts_import.validate_rows`).
+            Validated records (see :func:`selector.catalog.part_validation.validate_rows`).
         kind : str
             What is imported, for the log: ``parts csv``, ``model cards``, ``datasheet fit``.
         file_name, file_sha256 : str
@@ -627,15 +404,6 @@ def _plan_import(session: Session, records: list[dict[str, object]], complete=No
     return plan_changes(current, records), existing
 
 
-def _worth_retrying(error: BaseException) -> bool:
-    """Whether a database error means "busy, run the transaction again"."""
-    original = getattr(error, "orig", None)
-    if getattr(original, "sqlstate", None) in _RETRY_SQLSTATES:
-        return True
-    message = str(original or error).lower()
-    return "database is locked" in message or "database is busy" in message
-
-
 def _chunks(items: Sequence[str], size: int) -> Iterator[Sequence[str]]:
     for start in range(0, len(items), size):
         yield items[start : start + size]
@@ -675,15 +443,15 @@ def open_library(
         # No output of this process may be written over the library's files.
         output_files.protect(location.path)
         try:
-            creating = _check_sqlite_file(location.path)
+            creating = check_sqlite_file(location.path)
         except OSError as error:  # e.g. a name longer than the file system allows
             raise OptionError(f"--db: '{location.path}': {error.strerror or error}") from None
         if creating:
-            _prepare_folder(location)
-    engine = _make_engine(location)
+            prepare_folder(location)
+    engine = make_engine(location)
     library = Library(engine, location)
     try:
-        library.created = _migrate(library, notify)
+        library.created = migrate(engine, location.text(), notify)
         if library.created:
             seed = location.is_default if create_with_demo is None else create_with_demo
             if seed:
@@ -698,76 +466,3 @@ def open_library(
         library.close()
         raise
     return library
-
-
-def _prepare_folder(location: LibraryLocation) -> None:
-    folder = location.path.parent
-    if folder.is_dir():
-        return
-    if not location.is_default:
-        raise LibraryError(f"{location.path}: cannot create the library; folder {folder} does not exist")
-    try:
-        folder.mkdir(parents=True, exist_ok=True)
-    except OSError as error:
-        raise LibraryError(f"{folder}: cannot create the library folder ({error.strerror or error})") from None
-
-
-def _current_revision(connection, script: ScriptDirectory, text: str) -> str | None:
-    """The library's revision; refuses a foreign database and a newer schema."""
-    from alembic.runtime.migration import MigrationContext
-
-    current = MigrationContext.configure(connection).get_current_revision()
-    if current is None and inspect(connection).get_table_names():
-        raise LibraryError(f"{text}: holds a database, but not a railwright library")
-    if current is not None:
-        try:
-            script.get_revision(current)
-        except Exception:
-            raise LibraryError(
-                f"{text}: written by a newer railwright (schema revision {current}); "
-                "upgrade railwright to open it"
-            ) from None
-    return current
-
-
-def _migrate(library: Library, notify: Notify) -> bool:
-    """Bring the schema to head; True when the library was created just now.
-
-    A library already at head costs one query and no Alembic import; anything else
-    (new, older, newer or foreign) goes through Alembic.
-    """
-    text = library.location_text()
-    head = head_revision()
-    try:
-        with library.engine.connect() as connection:
-            if _recorded_revision(connection) == head:
-                return False
-        from alembic import command
-        from alembic.script import ScriptDirectory
-
-        script = ScriptDirectory.from_config(alembic_config())
-        head = script.get_current_head()
-        with library.engine.begin() as connection:
-            current = _current_revision(connection, script, text)
-        if current != head:
-            # As a writer: people opening an old (or new) library at the same moment
-            # queue here and each reads the revision again, so exactly one upgrades.
-            writer = library.engine.execution_options(**{_WRITE_OPTION: True})
-            with writer.begin() as connection:
-                if connection.dialect.name == "postgresql":
-                    connection.exec_driver_sql(f"SELECT pg_advisory_xact_lock({_MIGRATION_LOCK_KEY})")
-                current = _current_revision(connection, script, text)
-                if current != head:
-                    command.upgrade(alembic_config(connection), "head")
-    except LibraryError:
-        raise
-    except SQLAlchemyError as error:
-        message = _first_line(error)
-        if "not a database" in message or "malformed" in message:
-            raise LibraryError(f"{text}: not a railwright library ({message})") from None
-        raise LibraryError(f"{text}: cannot open the library ({message})") from None
-    if current is None:
-        return True
-    if current != head:
-        notify(f"upgraded the library {text} from schema revision {current} to {head}")
-    return False

@@ -23,10 +23,12 @@ import numpy as np
 
 from selector.physics.devices import (
     BOLTZMANN_OVER_CHARGE_V_PER_K,
-    JUNCTION_CEILING_C,
-    RUNAWAY_LOOP_GAIN,
     ZERO_CELSIUS_K,
     breakdown_curve_terms,
+)
+from selector.physics.self_heating import (
+    JUNCTION_CEILING_C,
+    RUNAWAY_LOOP_GAIN,
     breakdown_junction_side,
     forward_junction_floor_c,
 )

@@ -36,7 +36,7 @@ knee), so the current bracket is widened upward wherever ``F`` is still positive
 top; "load takes all the supply can give" means the load alone takes it all
 (``Vin ≤ R·I_Lc``). Points without a solution are flagged, never NaN: that; an element
 reaching electro-thermal loop gain ``θ·I·∂V/∂T ≥ 1``, or a junction that would settle
-above :data:`~selector.physics.devices.JUNCTION_CEILING_C` (thermal runaway); or the
+above :data:`~selector.physics.self_heating.JUNCTION_CEILING_C` (thermal runaway); or the
 iteration not converging.
 
 References
@@ -53,9 +53,10 @@ from dataclasses import dataclass, fields
 import numpy as np
 
 from selector.physics.bracketed_newton import solve_block
-from selector.physics.devices import JUNCTION_CEILING_C, ElementState, self_heated_element
-from selector.physics.fast_newton import Workspace, newton_block
+from selector.physics.fast_iterate import Workspace
+from selector.physics.fast_newton import newton_block
 from selector.physics.partset import PartSet
+from selector.physics.self_heating import JUNCTION_CEILING_C, ElementState, self_heated_element
 from selector.physics.slot_constants import (
     block_constants,
     key_tables,
@@ -63,20 +64,16 @@ from selector.physics.slot_constants import (
     stack_constants,
 )
 from selector.physics.slot_layout import decode_layout, layout_groups, stack_layout
-from selector.physics.solver_settings import (  # noqa: F401  (the solver's public names)
+from selector.physics.solver_settings import (
     DEFAULT_CHUNK_POINTS,
     KCL_TOLERANCE_V,
-    LEAST_CURRENT_A,
     NO_ALLOWED_POWER_MARGIN,
     SOLUTION_STATUSES,
     STACK_CORNER_CHUNK_POINTS,
-    STATUS_NAMES,
-    STATUS_NOT_CONVERGED,
+    STATUS_NAMES,  # noqa: F401  (re-exported: the names OperatingPoints.status indexes)
     STATUS_RUNAWAY,
     STATUS_SOLVED,
     STATUS_STACK_OFF,
-    STATUS_SUPPLY_EXHAUSTED,
-    THERMAL_TOLERANCE_K,
 )
 
 
@@ -211,46 +208,34 @@ def solve_operating_points(
     point_sign = None if per_element else np.broadcast_to(tolerance_sign.reshape(-1), (count,))
     point_spread = None if per_element else np.broadcast_to(spread_sign.reshape(-1), (count,))
     keys, signature = stack_layout(parts, stacks, merge)
-    tables: dict[int, tuple[np.ndarray, np.ndarray]] = {}
     work = Workspace(min(chunk_points, count))
-    # Points of one layout have their distinct parts in the same columns with the same
-    # multiplicities, so each block computes no empty slot.
-    for layout, group in layout_groups(signature):
-        slots = decode_layout(layout, width, merge)
-        for multiplicity in {m for family in slots for _, m in family} - tables.keys():
-            tables[multiplicity] = key_tables(parts, multiplicity)
-        size = count if isinstance(group, slice) else group.size
-        for start in range(0, size, chunk_points):
-            if isinstance(group, slice):
-                chosen = slice(start, min(start + chunk_points, size))
-            else:
-                chosen = group[start : start + chunk_points]
-            block = [c[chosen] for c in conditions]
-            if per_element:
-                signs = [[element_sign[chosen, column] for column, _ in family] for family in slots]
-                spreads = [[element_spread[chosen, column] for column, _ in family] for family in slots]
-            else:
-                chunk_sign, chunk_spread = point_sign[chosen], point_spread[chosen]
-                signs = [[chunk_sign] * len(family) for family in slots]
-                spreads = [[chunk_spread] * len(family) for family in slots]
-            part_keys = [[keys[column][chosen] for column, _ in family] for family in slots]
-            forward, breakdown = block_constants(tables, slots, part_keys, signs, spreads, block[2])
-            outcome = newton_block(forward, breakdown, *block, work)
-            hard = outcome[2] < 0
-            if hard.any():
-                arrays = slot_arrays(len(parts), slots, part_keys, signs, spreads, hard)
-                *rescued, rescued_tolerance = solve_block(parts, *arrays, *(value[hard] for value in block))
-                for value, fallback in zip(outcome, rescued, strict=True):
-                    value[hard] = fallback
-                block_tolerance = tolerance[chosen]
-                block_tolerance[hard] = rescued_tolerance
-                tolerance[chosen] = block_tolerance
-            block_u, block_v, block_status, block_margin, block_hottest = outcome
-            log_current[chosen], vout[chosen], worst_margin[chosen], hottest[chosen] = (
-                block_u, block_v, block_margin, block_hottest
-            )
-            if block_status.any():  # status starts at STATUS_SOLVED (0)
-                status[chosen] = block_status
+    for slots, tables, chosen in _layout_blocks(parts, signature, width, merge, chunk_points):
+        block = [c[chosen] for c in conditions]
+        if per_element:
+            signs = [[element_sign[chosen, column] for column, _ in family] for family in slots]
+            spreads = [[element_spread[chosen, column] for column, _ in family] for family in slots]
+        else:
+            chunk_sign, chunk_spread = point_sign[chosen], point_spread[chosen]
+            signs = [[chunk_sign] * len(family) for family in slots]
+            spreads = [[chunk_spread] * len(family) for family in slots]
+        part_keys = [[keys[column][chosen] for column, _ in family] for family in slots]
+        forward, breakdown = block_constants(tables, slots, part_keys, signs, spreads, block[2])
+        outcome = newton_block(forward, breakdown, *block, work)
+        hard = outcome[2] < 0
+        if hard.any():
+            arrays = slot_arrays(len(parts), slots, part_keys, signs, spreads, hard)
+            *rescued, rescued_tolerance = solve_block(parts, *arrays, *(value[hard] for value in block))
+            for value, fallback in zip(outcome, rescued, strict=True):
+                value[hard] = fallback
+            block_tolerance = tolerance[chosen]
+            block_tolerance[hard] = rescued_tolerance
+            tolerance[chosen] = block_tolerance
+        block_u, block_v, block_status, block_margin, block_hottest = outcome
+        log_current[chosen], vout[chosen], worst_margin[chosen], hottest[chosen] = (
+            block_u, block_v, block_margin, block_hottest
+        )
+        if block_status.any():  # status starts at STATUS_SOLVED (0)
+            status[chosen] = block_status
     result = _assembled(log_current, vout, status, worst_margin, hottest, *conditions)
     result["kcl_tolerance_v"] = tolerance
     if detail:
@@ -260,12 +245,33 @@ def solve_operating_points(
     return OperatingPoints(**result)
 
 
+def _layout_blocks(parts: PartSet, signature: np.ndarray, width: int, merge: bool, block_size: int):
+    """Yield ``(slots, tables, points)`` for every block of at most ``block_size`` points of
+    one layout: its slots (:func:`~selector.physics.slot_layout.decode_layout`), the per-key
+    constant tables by multiplicity (made once, when a layout first needs them) and the
+    block's points (a slice or an index array).
+
+    Points of one layout have their distinct parts in the same columns with the same
+    multiplicities, so each block computes no empty slot."""
+    tables: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+    for layout, group in layout_groups(signature):
+        slots = decode_layout(layout, width, merge)
+        for multiplicity in {m for family in slots for _, m in family} - tables.keys():
+            tables[multiplicity] = key_tables(parts, multiplicity)
+        if isinstance(group, slice):
+            for start in range(group.start, group.stop, block_size):
+                yield slots, tables, slice(start, min(start + block_size, group.stop))
+        else:
+            for start in range(0, group.size, block_size):
+                yield slots, tables, group[start : start + block_size]
+
+
 def _assembled(log_current, vout, status, worst_margin, hottest, supply, resistor, ambient, load_fixed, load_conductance):
     """The fields of :class:`OperatingPoints` from the solved state (in place; any shape):
     load ``I_Lc + G_L·Vout``, resistor power ``R·(I + I_L)²`` and the KCL residual, with
     every point without a solution set to its flagged values, and every stack-off point to
     ``I = 0``, ``Vout = (Vin − R·I_Lc)/(1 + R·G_L)`` (DESIGN §3). A junction above
-    :data:`~selector.physics.devices.JUNCTION_CEILING_C` is no physical steady state: runaway."""
+    :data:`~selector.physics.self_heating.JUNCTION_CEILING_C` is no physical steady state: runaway."""
     status[(status == STATUS_SOLVED) & (hottest > JUNCTION_CEILING_C)] = STATUS_RUNAWAY
     # A slot with no allowed power (ambient at or past its Tjmax) carries NO_ALLOWED_POWER_W
     # in for 0 W, so its margin lands far below −1e250, where no real P/P_max can reach: −∞.
@@ -372,47 +378,38 @@ def solve_stack_corners(
     status = np.zeros((count, corners), dtype=np.int8)
     tolerance = np.full((count, corners), KCL_TOLERANCE_V)
     keys, signature = stack_layout(parts, stacks, True)
-    tables: dict[int, tuple[np.ndarray, np.ndarray]] = {}
     stacks_per_block = max(1, chunk_points // max(corners, 1))
     work = Workspace(min(stacks_per_block, count) * corners)
-    for layout, group in layout_groups(signature if corners else signature[:0]):
-        slots = decode_layout(layout, width, True)
-        for multiplicity in {m for family in slots for _, m in family} - tables.keys():
-            tables[multiplicity] = key_tables(parts, multiplicity)
-        size = count if isinstance(group, slice) else group.size
-        for start in range(0, size, stacks_per_block):
-            if isinstance(group, slice):
-                chosen = slice(start, min(start + stacks_per_block, size))
-            else:
-                chosen = group[start : start + stacks_per_block]
-            grid = (corners, chosen.stop - chosen.start if isinstance(chosen, slice) else chosen.size)
-            # Corner-major (corners, stacks); a condition shared by every stack stays (corners, 1).
-            block = [np.ascontiguousarray(v[chosen].T) if own else v.T for v, own in zip(values, per_stack, strict=True)]
-            # The resistor spans the block, so every point array of the Newton block does too.
-            block[1] = np.broadcast_to(block[1], grid)
-            supply, resistor, ambient, load_fixed, load_conductance, sign, spread = block
-            part_keys = [[keys[column][chosen] for column, _ in family] for family in slots]
-            forward, breakdown = stack_constants(tables, slots, part_keys, sign, spread, ambient)
-            outcome = newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load_conductance, work,
-                                    heated_start=True)  # fmt: skip
-            hard = np.flatnonzero(outcome[2] < 0)
-            if hard.size:
-                corner_of, stack_of = np.unravel_index(hard, grid)
-                point_keys = [[key[stack_of] for key in family] for family in part_keys]
-                point_sign = np.broadcast_to(sign, grid)[corner_of, stack_of]
-                point_spread = np.broadcast_to(spread, grid)[corner_of, stack_of]
-                signs = [[point_sign] * len(family) for family in slots]
-                spreads = [[point_spread] * len(family) for family in slots]
-                arrays = slot_arrays(len(parts), slots, point_keys, signs, spreads, np.ones(hard.size, dtype=bool))
-                conditions = (np.broadcast_to(v, grid)[corner_of, stack_of] for v in block[:5])
-                *rescued, rescued_tolerance = solve_block(parts, *arrays, *conditions)
-                for value, fallback in zip(outcome, rescued, strict=True):
-                    value[hard] = fallback
-                block_tolerance = np.full(grid, KCL_TOLERANCE_V)
-                block_tolerance.reshape(-1)[hard] = rescued_tolerance
-                tolerance[chosen] = block_tolerance.T
-            for output, value in zip((log_current, vout, status, worst_margin, hottest), outcome, strict=True):
-                output[chosen] = value.reshape(grid).T
+    for slots, tables, chosen in _layout_blocks(parts, signature if corners else signature[:0], width, True,
+                                                stacks_per_block):  # fmt: skip
+        grid = (corners, chosen.stop - chosen.start if isinstance(chosen, slice) else chosen.size)
+        # Corner-major (corners, stacks); a condition shared by every stack stays (corners, 1).
+        block = [np.ascontiguousarray(v[chosen].T) if own else v.T for v, own in zip(values, per_stack, strict=True)]
+        # The resistor spans the block, so every point array of the Newton block does too.
+        block[1] = np.broadcast_to(block[1], grid)
+        supply, resistor, ambient, load_fixed, load_conductance, sign, spread = block
+        part_keys = [[keys[column][chosen] for column, _ in family] for family in slots]
+        forward, breakdown = stack_constants(tables, slots, part_keys, sign, spread, ambient)
+        outcome = newton_block(forward, breakdown, supply, resistor, ambient, load_fixed, load_conductance, work,
+                                heated_start=True)  # fmt: skip
+        hard = np.flatnonzero(outcome[2] < 0)
+        if hard.size:
+            corner_of, stack_of = np.unravel_index(hard, grid)
+            point_keys = [[key[stack_of] for key in family] for family in part_keys]
+            point_sign = np.broadcast_to(sign, grid)[corner_of, stack_of]
+            point_spread = np.broadcast_to(spread, grid)[corner_of, stack_of]
+            signs = [[point_sign] * len(family) for family in slots]
+            spreads = [[point_spread] * len(family) for family in slots]
+            arrays = slot_arrays(len(parts), slots, point_keys, signs, spreads, np.ones(hard.size, dtype=bool))
+            conditions = (np.broadcast_to(v, grid)[corner_of, stack_of] for v in block[:5])
+            *rescued, rescued_tolerance = solve_block(parts, *arrays, *conditions)
+            for value, fallback in zip(outcome, rescued, strict=True):
+                value[hard] = fallback
+            block_tolerance = np.full(grid, KCL_TOLERANCE_V)
+            block_tolerance.reshape(-1)[hard] = rescued_tolerance
+            tolerance[chosen] = block_tolerance.T
+        for output, value in zip((log_current, vout, status, worst_margin, hottest), outcome, strict=True):
+            output[chosen] = value.reshape(grid).T
     full = (count, corners)
     conditions = [np.broadcast_to(v, full) for v in values[:5]]
     result = _assembled(log_current, vout, status, worst_margin, hottest, *conditions)
@@ -468,42 +465,3 @@ def _replaced(values: np.ndarray, replacements: np.ndarray, where: np.ndarray) -
     values = values.copy()
     values[where] = replacements
     return values
-
-
-def family_slots(parts: PartSet, stacks: np.ndarray, element_sign: np.ndarray | None = None) -> tuple[np.ndarray, ...]:
-    """Forward and breakdown parts of each stack in separate slot rows, with multiplicities.
-
-    Equal parts in one stack carry one current at one ambient, so they share one junction
-    temperature and one voltage: solving each distinct part once is exact. With
-    per-element tolerance signs (``element_sign``) equal parts differ and are kept apart.
-    This is the solver's own layout (:func:`stack_layout`), spelled out per row.
-
-    Parameters
-    ----------
-    parts : PartSet
-    stacks : int array (n, max_len), padded with −1
-
-    Returns
-    -------
-    forward_part, forward_count, forward_sign : arrays (n, max_len)
-        Distinct forward parts first in each row, their multiplicity (0 = empty slot), and
-        their tolerance sign (0 unless ``element_sign`` is given).
-    breakdown_part, breakdown_count, breakdown_sign : arrays (n, max_len)
-        The same for breakdown parts.
-    """
-    stacks = np.atleast_2d(np.asarray(stacks, dtype=np.intp))
-    merge = element_sign is None
-    keys, signature = stack_layout(parts, stacks, merge)
-    sign = None if merge else np.broadcast_to(np.asarray(element_sign, dtype=float), stacks.shape)
-    result = []
-    for _ in range(2):
-        result += [np.zeros(stacks.shape, dtype=np.intp), np.zeros(stacks.shape, dtype=np.intp), np.zeros(stacks.shape)]
-    for layout, rows in layout_groups(signature):
-        for family, slots in enumerate(decode_layout(layout, stacks.shape[1], merge)):
-            part_out, count_out, sign_out = result[3 * family : 3 * family + 3]
-            for slot, (column, multiplicity) in enumerate(slots):
-                part_out[rows, slot] = keys[column][rows] - family * len(parts)
-                count_out[rows, slot] = multiplicity
-                if sign is not None:
-                    sign_out[rows, slot] = sign[rows, column]
-    return tuple(result)

@@ -101,11 +101,8 @@ def error_budget(parts: PartSet, stack: np.ndarray, resistor_ohm: float, spec: R
 
     Parameters
     ----------
-    parts : PartSet
-    stack : int array (max_len,)
-        Part indices, padded with −1.
-    resistor_ohm : float [Ω]
-    spec : RailSpec
+    parts, stack, resistor_ohm, spec
+        The design and its rail, as for :func:`~selector.physics.design_metrics.design_metrics`.
     evaluation : DesignEvaluation
         The design's 32-corner evaluation (row 0): its nominal, lowest and highest rail.
 

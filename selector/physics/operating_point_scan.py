@@ -7,7 +7,7 @@ one operating point can be pushed to another at far more current. DESIGN §3 tak
 reached from zero current — the lowest root — and puts a caution on the corner.
 
 :func:`scan_operating_points` evaluates ``F`` with every element at its own self-heated
-junction (:func:`selector.physics.devices.stack_voltage`) on a logarithmic grid of
+junction (:func:`selector.physics.self_heating.stack_voltage`) on a logarithmic grid of
 currents from 1 fA to the most the supply can drive, for all corners of a design in one
 call, and brackets each sign change; bisection then pins every root. A root the grid
 cannot separate (two within one grid step) is missed, so the scan is a check, not a proof;
@@ -20,8 +20,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from selector.physics.devices import stack_voltage
 from selector.physics.partset import PartSet
+from selector.physics.self_heating import stack_voltage
 
 #: Grid points per decade of current.
 SCAN_POINTS_PER_DECADE = 24

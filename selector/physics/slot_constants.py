@@ -177,7 +177,7 @@ def stack_constants(tables, slots, part_keys, sign, spread_sign, ambient_c):
 
 
 def slot_arrays(part_count, slots, part_keys, signs, spread_signs, chosen):
-    """The chosen points' slots as :func:`selector.physics.circuit.family_slots` rows (part,
+    """The chosen points' slots as :func:`selector.physics.slot_layout.family_slots` rows (part,
     multiplicity, tolerance sign, TC-spread sign per family), for the bracketed solver."""
     arrays = []
     rows = int(np.count_nonzero(chosen))

@@ -69,7 +69,6 @@ def decode_layout(signature: int, width: int, merge: bool) -> tuple[list[tuple[i
     return slots[0], slots[1]
 
 
-
 def layout_groups(signature: np.ndarray):
     """Yield ``(signature, points)`` for each layout; ``points`` is a slice when all share one."""
     if signature.size == 0:
@@ -98,3 +97,42 @@ def _sort_columns(columns: list[np.ndarray]) -> None:
             low = np.minimum(columns[i], columns[i + 1], out=spare)
             np.maximum(columns[i], columns[i + 1], out=columns[i + 1])
             spare, columns[i] = columns[i], low
+
+
+def family_slots(parts: PartSet, stacks: np.ndarray, element_sign: np.ndarray | None = None) -> tuple[np.ndarray, ...]:
+    """Forward and breakdown parts of each stack in separate slot rows, with multiplicities.
+
+    Equal parts in one stack carry one current at one ambient, so they share one junction
+    temperature and one voltage: solving each distinct part once is exact. With
+    per-element tolerance signs (``element_sign``) equal parts differ and are kept apart.
+    This is the solver's own layout (:func:`stack_layout`), spelled out per row.
+
+    Parameters
+    ----------
+    parts : PartSet
+    stacks : int array (n, max_len), padded with −1
+
+    Returns
+    -------
+    forward_part, forward_count, forward_sign : arrays (n, max_len)
+        Distinct forward parts first in each row, their multiplicity (0 = empty slot), and
+        their tolerance sign (0 unless ``element_sign`` is given).
+    breakdown_part, breakdown_count, breakdown_sign : arrays (n, max_len)
+        The same for breakdown parts.
+    """
+    stacks = np.atleast_2d(np.asarray(stacks, dtype=np.intp))
+    merge = element_sign is None
+    keys, signature = stack_layout(parts, stacks, merge)
+    sign = None if merge else np.broadcast_to(np.asarray(element_sign, dtype=float), stacks.shape)
+    result = []
+    for _ in range(2):
+        result += [np.zeros(stacks.shape, dtype=np.intp), np.zeros(stacks.shape, dtype=np.intp), np.zeros(stacks.shape)]
+    for layout, rows in layout_groups(signature):
+        for family, slots in enumerate(decode_layout(layout, stacks.shape[1], merge)):
+            part_out, count_out, sign_out = result[3 * family : 3 * family + 3]
+            for slot, (column, multiplicity) in enumerate(slots):
+                part_out[rows, slot] = keys[column][rows] - family * len(parts)
+                count_out[rows, slot] = multiplicity
+                if sign is not None:
+                    sign_out[rows, slot] = sign[rows, column]
+    return tuple(result)

@@ -19,7 +19,8 @@ from selector.physics.circuit import solve_operating_points
 from selector.physics.corners import load_terms, worst_case_corners
 from selector.physics.partset import PartSet
 from selector.physics.series_resistor import resistor_factor
-from selector.spec.rail_spec import AMBIENT_LIMITS_C, RailSpec
+from selector.spec.rail_spec import RailSpec
+from selector.spec.spec_sections import AMBIENT_LIMITS_C
 from selector.spec.units import format_quantity
 
 #: Points per sweep curve.
@@ -148,7 +149,7 @@ def ambient_sweep(parts: PartSet, stack: np.ndarray, resistor_ohm: float, spec: 
     """Rail voltage against ambient temperature, one curve per supply extreme × load extreme.
 
     Parameters and result as for :func:`supply_sweep`; the sweep stays within the
-    ambient range the tool accepts (:data:`selector.spec.rail_spec.AMBIENT_LIMITS_C`).
+    ambient range the tool accepts (:data:`selector.spec.spec_sections.AMBIENT_LIMITS_C`).
     """
     corners = worst_case_corners(spec)
     supplies = (corners.supply_v[0], corners.supply_v[16])

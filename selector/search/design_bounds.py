@@ -63,18 +63,17 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from selector.physics.devices import JUNCTION_CEILING_C
 from selector.physics.partset import PartSet
+from selector.physics.self_heating import JUNCTION_CEILING_C
+from selector.search.element_bounds import lowest_junction_c, voltage_range_fixed_current
 from selector.search.stack_bounds import (
     CLASS_SIGNS,
     CURRENT_FLOOR_A,
     VOLTAGE_SLACK_V,
     _junction_ranges,
     class_resistor_factors,
-    lowest_junction_c,
     may_be_off,
     off_error_floor,
-    voltage_range_fixed_current,
 )
 from selector.spec.rail_spec import RailSpec
 

@@ -79,11 +79,8 @@ def what_if(parts: PartSet, stack: np.ndarray, resistor_ohm: float, spec: RailSp
 
     Parameters
     ----------
-    parts : PartSet
-    stack : int array (max_len,)
-        Part indices, padded with −1.
-    resistor_ohm : float [Ω]
-    spec : RailSpec
+    parts, stack, resistor_ohm, spec
+        The design and its rail, as for :func:`~selector.physics.design_metrics.design_metrics`.
     usable : array of bool, optional
         Per part, whether a variant may use it (the spec's families and approved list); None: all.
     limit : int
