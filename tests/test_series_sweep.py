@@ -66,21 +66,20 @@ def test_check_states_where_the_stack_meets_and_takes_pick(run_cli, tmp_path):
     assert run_cli(*base, "--pick", "centre").stdout.startswith("Design: D-SCH3 + Z4V7-B with 330 Ω")
 
 
-@pytest.mark.parametrize("pick", ["margin"])
-def test_seek_pick_gives_each_listed_stack_the_value_check_picks(pick):
+def test_seek_pick_gives_each_listed_stack_the_value_check_picks():
     # The search lists the same stacks as with the contract's choice; each meeting stack's
     # resistor is then the value the one-stack sweep picks, and the list is sorted again.
     from selector.search.engine import search_library
 
     parts, spec = invented_parts(), rail(tolerance_v=0.5, max_parts=2, resistor_series="E48")
     contract, _, _ = search_library(parts, spec, top=8, workers=1)
-    picked, _, _ = search_library(parts, spec, top=8, workers=1, pick=pick)
+    picked, _, _ = search_library(parts, spec, top=8, workers=1, pick="margin")
     assert {tuple(row) for row in picked.stacks} == {tuple(row) for row in contract.stacks}
     assert picked.evaluation.meets.any()
     changed = 0
     for row, stack in enumerate(picked.stacks):
         sweep = series_sweep(parts, stack, spec)
-        assert picked.resistor_ohm[row] == sweep.pick(spec, pick)
+        assert picked.resistor_ohm[row] == sweep.pick(spec, "margin")
         index = int(np.flatnonzero(sweep.values_ohm == picked.resistor_ohm[row])[0])
         assert picked.evaluation.error_v[row] == sweep.evaluation.error_v[index]
         contract_row = next(i for i, other in enumerate(contract.stacks) if (other == stack).all())
