@@ -60,15 +60,45 @@ def test_too_little_current_names_the_part_its_knee_the_corners_and_what_they_sh
 def test_too_much_dissipation_reads_as_an_overload_not_a_negative_percentage(db):
     result = check(db, "--stack", "Z5V1-B", "--resistor", "100")
     assert result.exit_code == 3
-    assert "  fails: resistor overload: 2.64 × allowed power at corners 1–32" in result.output
+    assert "  fails: resistor overload: 2.64 × the power allowed at 50 °C ambient, corners 1–32" in result.output
     assert "least margin overload: 2.64 × allowed power" in result.output
-    assert "-163" not in result.output and "−163" not in result.output
+    assert "Series resistor: worst 659 mW; overload: 2.64 × the 250 mW allowed at corner 29 " in result.output
+    assert ("Caution: series resistor is in overload: 2.64 × allowed power (corners 1–32); this tool is not a "
+            "safety assessment; follow local codes and licensed practice") in result.output
+    assert "-163" not in result.output and "−163" not in result.output and "-164" not in result.output
+
+
+def test_an_overloaded_part_reads_as_an_overload_in_every_line(db):
+    result = check(db, "--stack", "Z5V1-A", "--resistor", "20")
+    assert result.exit_code == 3
+    assert "  fails: Z5V1-A overload: 5.37 × the power allowed at 50 °C ambient, corners 1–32" in result.output
+    assert "   1. Z5V1-A               2.04 W   overload: 5.37 × allowed power" in result.output
+    assert "Caution: Z5V1-A (position 1) is in overload: 5.37 × allowed power (corners 1–32); " in result.output
+    assert ("Caution: hot part: a junction is past its Tjmax 175 °C (721 °C by the model) at corner 22; "
+            in result.output)
+    assert "%" not in "".join(line for line in result.output.splitlines() if "overload" in line)
 
 
 def test_resistor_power_names_the_watts_and_its_derated_allowance(db):
     result = check(db, "--stack", "Z5V1-B", "--resistor", "330", "--resistor-rating", "0.125W")
     assert result.exit_code == 3
-    assert "  fails: resistor 204 mW above 125 mW allowed at corners 17–32 (Vin max)" in result.output
+    assert "  fails: resistor 204 mW above 125 mW allowed at 50 °C ambient, corners 17–32 (Vin max)" in result.output
+    failure = json.loads(check(db, "--stack", "Z5V1-B", "--resistor", "330", "--resistor-rating", "0.125W",
+                               "--json").output)["failures"][-1]
+    assert failure["limit"] == "resistor power" and failure["allowed"] == pytest.approx(0.125, rel=1e-12)
+
+
+def test_the_worst_power_corner_is_the_one_furthest_past_its_derated_allowance(db):
+    # Above 70 °C the resistor is derated (DESIGN §3): at 100 °C it may carry
+    # 0.25 W · (155 − 100)/(155 − 70) = 161.8 mW, so a hot corner can be the worst one even
+    # where a cold one dissipates more.
+    result = check(db, "--stack", "Z5V1-B", "--resistor", "330", "--ambient-max", "100")
+    assert result.exit_code == 3
+    failure = json.loads(check(db, "--stack", "Z5V1-B", "--resistor", "330", "--ambient-max", "100",
+                               "--json").output)["failures"]
+    power = [f for f in failure if f["limit"] == "resistor power"][0]
+    assert power["allowed"] == pytest.approx(0.25 * 55 / 85, rel=1e-12)
+    assert f"  fails: {power['text']}" in result.output and "allowed at 100 °C ambient" in power["text"]
 
 
 def test_a_forward_part_past_its_current_limit_and_its_tjmax(db):

@@ -105,6 +105,26 @@ def _exact_parts(parts: PartSet, names, elements) -> list[Caution]:
     return cautions
 
 
+def margin_words(margin: float, format_spec: str = ".0%") -> str:
+    """A dissipation margin for a person: ``"7%"``; an overload as how many times the
+    allowed power it is (``margin = 1 − P/P_max``, so ``P/P_max = 1 − margin``):
+    ``"overload: 5.37 × allowed power"``; ``"none (no allowed dissipation at the ambient)"``
+    where nothing is allowed."""
+    if margin == -np.inf:
+        return "none (no allowed dissipation at the ambient)"
+    if margin < 0:
+        return f"overload: {1.0 - margin:.3g} × allowed power"
+    return format(margin, format_spec)
+
+
+def _near_limit_text(who: str, margin: float, what: str, near: np.ndarray) -> str:
+    """``"Z5V1-B (position 1) has 7% dissipation margin (corners 1–8), under 20%"``, or
+    ``"… is in overload: 5.37 × allowed power (corners 1–32)"``."""
+    if -np.inf < margin < 0:
+        return f"{who} is in {margin_words(margin)} ({corner_list(near)})"
+    return f"{who} has {margin_words(margin)} {what} ({corner_list(near)}), under {NEAR_LIMIT_MARGIN:.0%}"
+
+
 def design_cautions(parts: PartSet, stack: np.ndarray, evaluation: DesignEvaluation, design: int = 0) -> list[Caution]:
     """Every caution of one design of an evaluation (see the module docstring).
 
@@ -129,18 +149,17 @@ def design_cautions(parts: PartSet, stack: np.ndarray, evaluation: DesignEvaluat
             near = np.flatnonzero(margin[:, position] < NEAR_LIMIT_MARGIN) + 1
             if near.size:
                 least = margin[:, position].min()
-                shown = "none" if least == -np.inf else f"{least:.0%}"
-                cautions.append(Caution("near limit", names[index], tuple(near.tolist()),
-                                        f"{names[index]} (position {position + 1}) has {shown} dissipation margin "
-                                        f"({corner_list(near)}), under {NEAR_LIMIT_MARGIN:.0%}"))  # fmt: skip
+                cautions.append(Caution("near limit", names[index], tuple(near.tolist()), _near_limit_text(
+                    f"{names[index]} (position {position + 1})", least, "dissipation margin", near)))
         resistor = evaluation.resistor_margin[design]
         near = np.flatnonzero(resistor < NEAR_LIMIT_MARGIN) + 1
         if near.size:
-            cautions.append(Caution("near limit", None, tuple(near.tolist()),
-                                    f"series resistor has {resistor.min():.0%} margin on its allowed power "
-                                    f"({corner_list(near)}), under {NEAR_LIMIT_MARGIN:.0%}"))  # fmt: skip
+            cautions.append(Caution("near limit", None, tuple(near.tolist()), _near_limit_text(
+                "series resistor", resistor.min(), "margin on its allowed power", near)))
     elif evaluation.margin[design] < NEAR_LIMIT_MARGIN:
-        cautions.append(Caution("near limit", None, (), f"a part or the resistor has {evaluation.margin[design]:.0%} "
+        least = evaluation.margin[design]
+        cautions.append(Caution("near limit", None, (), f"a part or the resistor is in {margin_words(least)}"
+                                if -np.inf < least < 0 else f"a part or the resistor has {margin_words(least)} "
                                 f"dissipation margin, under {NEAR_LIMIT_MARGIN:.0%}"))  # fmt: skip
     cautions += _zener_range(parts, names, elements, current)
     cautions += _exact_parts(parts, names, elements)

@@ -110,22 +110,25 @@ def design_failures(parts: PartSet, stack: np.ndarray, spec: RailSpec, evaluatio
     current = np.where(solved, evaluation.stack_current_a[design, :count], np.nan)
     failures: list[Failure] = []
 
-    def add(limit, part, broken, values, allowed, worst_is_high, describe):
+    def add(limit, part, broken, values, allowed, worst_is_high, describe, severity=None):
+        # The worst corner is the one furthest past its limit: by value, or by ``severity``
+        # where the limit itself varies between corners (allowed power falls with ambient).
         where = np.flatnonzero(broken)
         if not where.size:
             return
-        pick = where[np.argmax(values[where]) if worst_is_high else np.argmin(values[where])]
+        score = values if severity is None else severity
+        pick = where[np.argmax(score[where]) if worst_is_high or severity is not None else np.argmin(score[where])]
         value, limit_value = float(values[pick]), float(np.broadcast_to(allowed, values.shape)[pick])
         failures.append(Failure(limit, part, tuple(int(c) + 1 for c in where), value, limit_value,
-                                describe(value, limit_value, _where(labels, where))))  # fmt: skip
+                                describe(value, limit_value, _where(labels, where), float(corners.ambient_c[pick]))))  # fmt: skip
 
     volts = lambda v: format_quantity(v, "V")  # noqa: E731
     amps = lambda v: format_quantity(v, "A", 3)  # noqa: E731
     with np.errstate(invalid="ignore"):
         add("rail below window", None, vout < spec.rail_min_v, vout, spec.rail_min_v, False,
-            lambda v, a, w: f"rail {volts(v)} below the window's {volts(a)} at {w}")
+            lambda v, a, w, _: f"rail {volts(v)} below the window's {volts(a)} at {w}")
         add("rail above window", None, vout > spec.rail_max_v, vout, spec.rail_max_v, True,
-            lambda v, a, w: f"rail {volts(v)} above the window's {volts(a)} at {w}")
+            lambda v, a, w, _: f"rail {volts(v)} above the window's {volts(a)} at {w}")
         elements = [int(i) for i in stack if i >= 0]
         limits = part_current_limit(parts, spec)
         for index in dict.fromkeys(elements):
@@ -134,9 +137,9 @@ def design_failures(parts: PartSet, stack: np.ndarray, spec: RailSpec, evaluatio
             what = "the spec's least current" if spec.min_current_a >= parts.i_min_a[index] else (
                 "its knee" if parts.is_zener[index] else "its least current")
             add("least current", name if what != "the spec's least current" else None, current < need, current, need,
-                False, lambda v, a, w, n=name, t=what: f"{n} current {amps(v)} below {t} {amps(a)} at {w}")
+                False, lambda v, a, w, _, n=name, t=what: f"{n} current {amps(v)} below {t} {amps(a)} at {w}")
             add("most current", name, current > limits[index], current, limits[index], True,
-                lambda v, a, w, n=name: f"{n} current {amps(v)} above its limit {amps(a)} at {w}")
+                lambda v, a, w, _, n=name: f"{n} current {amps(v)} above its limit {amps(a)} at {w}")
         headroom = 1.0 - spec.min_margin
         if evaluation.element_power_w is not None:
             for position, index in enumerate(elements):
@@ -144,11 +147,11 @@ def design_failures(parts: PartSet, stack: np.ndarray, spec: RailSpec, evaluatio
                 power = np.where(solved, evaluation.element_power_w[design, :count, position], np.nan)
                 allowed = headroom * allowed_power_w(parts, np.full(count, index), corners.ambient_c)
                 add("part power", name, power > allowed, power, allowed, True,
-                    lambda v, a, w, n=name: _power_text(n, v, a, w, spec))
+                    lambda v, a, w, t, n=name: _power_text(n, v, a, w, t, spec), _excess(power, allowed))
         resistor_power = np.where(solved, evaluation.resistor_power_w[design, :count], np.nan)
         allowed_r = headroom * resistor_allowed_power_w(spec, corners.ambient_c)
         add("resistor power", "resistor", resistor_power > allowed_r, resistor_power, allowed_r, True,
-            lambda v, a, w: _power_text("resistor", v, a, w, spec))
+            lambda v, a, w, t: _power_text("resistor", v, a, w, t, spec), _excess(resistor_power, allowed_r))
     unsolved = np.flatnonzero(~solved)
     if unsolved.size:
         statuses = sorted({STATUS_NAMES[evaluation.corner_status[design, c]] for c in unsolved})
@@ -157,11 +160,20 @@ def design_failures(parts: PartSet, stack: np.ndarray, spec: RailSpec, evaluatio
     return failures
 
 
-def _power_text(name: str, value: float, allowed: float, where: str, spec: RailSpec) -> str:
+def _excess(power_w: np.ndarray, allowed_w: np.ndarray) -> np.ndarray:
+    """How far past its allowance each corner's power is (P/P_allowed; inf where nothing is allowed)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(allowed_w > 0, power_w / np.where(allowed_w > 0, allowed_w, 1.0), np.inf)
+
+
+def _power_text(name: str, value: float, allowed: float, where: str, ambient_c: float, spec: RailSpec) -> str:
+    """``"resistor 204 mW above 125 mW allowed at 50 °C ambient, corners 17–32 (Vin max)"``:
+    the worst corner's power against what that corner's ambient allows."""
     watts = lambda v: format_quantity(v, "W", 3)  # noqa: E731
+    at = f"at {ambient_c:g} °C ambient"
     if allowed <= 0:
-        return f"{name} dissipates {watts(value)} where nothing is allowed, at {where}"
-    if value >= 2.0 * allowed:
-        return f"{name} overload: {value / allowed:.3g} × allowed power at {where}"
+        return f"{name} dissipates {watts(value)} where nothing is allowed {at}, {where}"
     margin = f" (less the {spec.min_margin:.0%} margin)" if spec.min_margin > 0 else ""
-    return f"{name} {watts(value)} above {watts(allowed)} allowed{margin} at {where}"
+    if value >= 2.0 * allowed:
+        return f"{name} overload: {value / allowed:.3g} × the power allowed{margin} {at}, {where}"
+    return f"{name} {watts(value)} above {watts(allowed)} allowed{margin} {at}, {where}"

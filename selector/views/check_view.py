@@ -14,7 +14,7 @@ import numpy as np
 from selector.physics.checked_design import CheckedDesign
 from selector.physics.circuit import STATUS_NAMES, STATUS_SOLVED, STATUS_STACK_OFF
 from selector.physics.corners import CornerSet, worst_case_corners
-from selector.physics.design_cautions import Caution, corner_list
+from selector.physics.design_cautions import Caution, corner_list, margin_words
 from selector.physics.design_cautions import design_cautions as physics_cautions
 from selector.physics.design_failures import LIMIT_MARKS, Failure, design_failures
 from selector.physics.error_budget import dominant_source
@@ -28,14 +28,6 @@ HOT_PART_HEADROOM_K = 25.0
 DEFER = "this tool is not a safety assessment; follow local codes and licensed practice"
 
 
-def margin_text(margin: float, format_spec: str = ".1%") -> str:
-    """A margin as a percentage; an overload as how many times the allowed power it is
-    (``margin = 1 − P/P_max``); or why there is none (no allowed dissipation)."""
-    if margin == -np.inf:
-        return "none (no allowed dissipation at the ambient)"
-    if margin < 0:
-        return f"overload: {1.0 - margin:.3g} × allowed power"
-    return format(margin, format_spec)
 
 
 def _finite(value) -> float | None:
@@ -64,10 +56,10 @@ def design_cautions(design: CheckedDesign) -> list[str]:
         )
     tj_max = design.parts.tj_max_c[design.stack[metrics.hottest_element]]
     if metrics.evaluation.solved[0] and metrics.hottest_junction_c > tj_max - HOT_PART_HEADROOM_K:
-        lines.append(
-            f"hot part: a junction reaches {metrics.hottest_junction_c:.0f} °C "
-            f"(limit {tj_max:.0f} °C) at corner {metrics.hottest_corner + 1}; {DEFER}"
-        )
+        reaches = (f"is past its Tjmax {tj_max:.0f} °C ({metrics.hottest_junction_c:.0f} °C by the model)"
+                   if metrics.hottest_junction_c > tj_max
+                   else f"reaches {metrics.hottest_junction_c:.0f} °C (limit {tj_max:.0f} °C)")
+        lines.append(f"hot part: a junction {reaches} at corner {metrics.hottest_corner + 1}; {DEFER}")
     return lines
 
 
@@ -247,7 +239,7 @@ def check_lines(design: CheckedDesign) -> list[str]:
             f"  rail {volts(ev.vout_nom_v[0]) if np.isfinite(ev.vout_nom_v[0]) else '— (no solution)'} nominal, "
             f"{volts(ev.vout_low_v[0])} … {volts(ev.vout_high_v[0])} "
             f"worst case; error {volts(ev.error_v[0])} (allowed {volts(spec.tolerance_v)})",
-            f"  least stack current {amps(ev.i_min_a[0])}; least margin {margin_text(ev.margin[0])}",
+            f"  least stack current {amps(ev.i_min_a[0])}; least margin {margin_words(ev.margin[0], '.1%')}",
         ]
     if design.series_values_ohm is not None:
         lines.append("  " + meeting_range_text(design))
@@ -272,8 +264,9 @@ def check_lines(design: CheckedDesign) -> list[str]:
             f"{design.elements[metrics.hottest_element]} (position {metrics.hottest_element + 1}) "
             f"at corner {metrics.hottest_corner + 1}",
             f"Series resistor: worst {format_quantity(metrics.resistor_worst_power_w, 'W', 3)}; "
-            f"{margin_text(metrics.resistor_worst_margin, '.1%')} margin on "
-            f"{format_quantity(metrics.resistor_allowed_power_w, 'W', 3)} allowed at corner "
+            + (f"overload: {1.0 - metrics.resistor_worst_margin:.3g} × the " if metrics.resistor_worst_margin < 0
+               else f"{margin_words(metrics.resistor_worst_margin, '.1%')} margin on ")
+            + f"{format_quantity(metrics.resistor_allowed_power_w, 'W', 3)} allowed at corner "
             f"{metrics.resistor_worst_corner + 1} ({format_quantity(spec.resistor_rating_w, 'W')} rating, derated "
             f"from {spec.resistor_full_power_ambient_c:g} °C to 0 at {spec.resistor_zero_power_ambient_c:g} °C); "
             "smallest standard rating that carries every corner: "
@@ -284,7 +277,8 @@ def check_lines(design: CheckedDesign) -> list[str]:
         for position, part in enumerate(design.elements):
             lines.append(
                 f"  {position + 1:>2}. {part:<16} {format_quantity(metrics.element_worst_power_w[position], 'W', 3):>10}"
-                f"   margin {margin_text(metrics.element_worst_margin[position], '7.1%')}"
+                f"   {'' if metrics.element_worst_margin[position] < 0 else 'margin '}"
+                f"{margin_words(metrics.element_worst_margin[position], '7.1%')}"
             )
     if design.monte_carlo is not None:
         mc = design.monte_carlo
@@ -320,7 +314,7 @@ def what_if_lines(fixes) -> list[str]:
     for fix in fixes:
         error = f"{1e3 * fix.error_v:.1f}" if np.isfinite(fix.error_v) else "infeasible"
         rows.append(f"  {'*' if fix.meets else ' '} {fix.change:<28} {fix.stack:<24} "
-                    f"{format_quantity(fix.resistor_ohm, 'Ω'):>9} {error:>10} {margin_text(fix.margin, '.1%'):>8}")
+                    f"{format_quantity(fix.resistor_ohm, 'Ω'):>9} {error:>10} {margin_words(fix.margin, '.1%'):>8}")
     return rows
 
 

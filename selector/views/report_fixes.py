@@ -12,8 +12,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from selector.physics.design_cautions import margin_words
 from selector.spec.units import format_quantity
-from selector.views.check_view import margin_text, range_lines
+from selector.views.check_view import range_lines
 from selector.views.report_html import _e, _number_cell, _table
 
 #: Variants listed per design.
@@ -60,7 +61,7 @@ def fixes_section(found: DesignFixes | None) -> str:
             f'<tr{klass} data-meets="{str(fix.meets).lower()}"><td>{_e(fix.change)}</td><td>{_e(fix.stack)}</td>'
             + _number_cell(fix.resistor_ohm, format_quantity(fix.resistor_ohm, "Ω"))
             + _number_cell(fix.error_v if np.isfinite(fix.error_v) else None, error)
-            + _number_cell(fix.margin if np.isfinite(fix.margin) else None, margin_text(fix.margin))
+            + _number_cell(fix.margin if np.isfinite(fix.margin) else None, margin_words(fix.margin, '.1%'))
             + f"<td>{'yes' if fix.meets else 'no'}</td></tr>"
         )
     table = _table(["change", "stack", "R", "worst error", "P margin", "meets"], rows, "what-if")
