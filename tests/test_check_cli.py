@@ -122,6 +122,17 @@ def test_help_has_an_example():
     assert "3 sigma at the limit" in result.output
 
 
+def test_help_lists_what_affects_check_and_says_how():
+    text = " ".join(CliRunner().invoke(main, ["check", "--help"]).output.split())
+    # The search's own options are not check's.
+    for seek_only in ("--top", "--rank-by", "--resolution", "--csv", "--force", "--require-meeting"):
+        assert seek_only not in text
+    # The spec keys of the search tell what they do here: bound the what-if variants.
+    assert "--max-parts N Most elements a what-if variant may have (adding one forward element)" in text
+    assert "--families LIST Families a what-if variant may swap in or add" in text
+    assert "--list NAME Approved-parts list to check the stack against: a part it does not allow is warned" in text
+
+
 def test_a_design_without_a_solution_says_why_at_each_corner(setup):
     # 11–13 V through 1 Ω into one signal diode: amperes, a junction far past any survival.
     result = run(setup, "--stack", "D-SIG1", "--resistor", "1")

@@ -120,6 +120,10 @@ def test_verify_exits_3_after_a_data_change(run_cli, db, spec, tmp_path):
     assert "  data: Z5V1-B: description 5.1 V zener, 1.2 W plastic class \u2192 5.1 V zener; 1.2 W class" in lines
     assert "  data: Z5V1-B: vz_tol_pct 5.0 \u2192 10.0" in lines
     assert "  verdict: meets the spec at every corner \u2192 not feasible (bias)" in lines
+    # The verdict names what fails, as check does.
+    fails = lines.index("  verdict: meets the spec at every corner \u2192 not feasible (bias)") + 1
+    assert lines[fails].startswith("  fails: ") and any(line.startswith("  fails: Z5V1-B current ") and
+                                                       " below its knee 1.2 mA at corners " in line for line in lines)
     assert any(line.startswith("  figure: error_v ") for line in lines)
 
 

@@ -81,4 +81,17 @@ def check(state, stack_text, as_json, samples, seed, pick, what_if, derating, sp
         raise click.exceptions.Exit(NEGATIVE_VERDICT_EXIT)
 
 
+#: The spec options whose part in ``check`` is not the search's: the stack is given, so they
+#: only bound the what-if variants.
+_CHECK_HELP = {
+    "--max-parts": "Most elements a what-if variant may have (adding one forward element), 1 … 12 (default 3).",
+    "--families": "Families a what-if variant may swap in or add, comma-separated, e.g. 'zener,signal' "
+                  "(default: all).",
+    "--list": "Approved-parts list to check the stack against: a part it does not allow is warned about, "
+              "conditions of use are shown, and what-if variants use only its usable parts.",
+}
+for _parameter in check.params:
+    if _parameter.opts[0] in _CHECK_HELP:
+        _parameter.help = _CHECK_HELP[_parameter.opts[0]]
+
 COMMANDS = [check]

@@ -31,7 +31,9 @@ def figure_text(key: str, value) -> str:
     if key in _FIGURE_UNITS:
         return format_quantity(float(value), _FIGURE_UNITS[key], 5)
     if key == "margin":
-        return f"{100 * float(value):.2f} %"
+        from selector.physics.design_cautions import margin_words
+
+        return f"{100 * float(value):.2f} %" if float(value) >= 0 else margin_words(float(value))
     return str(value)
 
 
@@ -106,6 +108,8 @@ def verification_lines(verification) -> list[str]:
              f"{saved.saved_by}): {state}, {news}"]
     then, now = saved.content.verdict, verification.verdict
     lines.append(f"  verdict: {now}" if then == now else f"  verdict: {then} \u2192 {now}")
+    if verification.result is not None and not verification.result.meets:
+        lines += [f"  fails: {failure.text}" for failure in verification.result.failures]
     lines += [f"  data: {change.text()}" for change in verification.field_changes]
     own_list = saved.content.list_name
     lines += [f"  status: {change.text()}" + ("" if change.list_name == own_list else " (not this design's list)")
