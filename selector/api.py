@@ -33,6 +33,10 @@ if TYPE_CHECKING:
     from selector.search.engine import SearchSummary
 
 
+#: Most nearly feasible designs a search that meets nothing names.
+NEARLY_ROWS = 5
+
+
 class SeekResult(NamedTuple):
     """What :func:`seek` returns: the shortlist DataFrame and the search summary."""
 
@@ -208,7 +212,7 @@ def seek(
     """
     # Imported here: 'check' shares this module but runs no search and builds no DataFrame.
     from selector.search.engine import search_library
-    from selector.search.shortlist import shortlist_frame
+    from selector.search.shortlist import nearly_feasible_rows, shortlist_frame
 
     spec = as_spec(spec)
     parts, usable_mask, list_conditions, list_status = _library_parts(library, spec.list_name, spec.statuses,
@@ -221,6 +225,11 @@ def seek(
     status = None if list_status is None else np.asarray(list_status, dtype=object)[usable.library_index]
     frame = shortlist_frame(usable.parts, shortlist.stacks, shortlist.resistor_ohm, shortlist.evaluation, usable.condition,
                             status)  # fmt: skip
+    if not summary.meeting:  # why nothing meets: designs closer than any feasible one that break a limit, named
+        best = float(frame["error_v"].min()) if len(frame) else np.inf
+        summary.nearly_feasible = [row for row in nearly_feasible_rows(usable.parts, summary.nearly_feasible_designs,
+                                                                       spec, NEARLY_ROWS)
+                                   if not len(frame) or (row["error_v"] is not None and row["error_v"] < best)]  # fmt: skip
     return SeekResult(frame, summary)
 
 

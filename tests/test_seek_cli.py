@@ -178,12 +178,13 @@ def test_a_search_that_finds_nothing_says_which_end_of_the_resistor_range_fails(
     lines = result.output.splitlines()
     assert any(line.startswith("  pruned, too little current: even the lowest allowed R cannot give every corner its "
                                "least current: ") for line in lines)
-    assert lines[-1] == ("  closest to having a resistor: Z2V7-B + Z3V3-A + Z5V1-A: enough current needs R ≤ 14.97 Ω; "
-                         "the parts' and the resistor's current and power limits need R ≥ 13.45 Ω (no E24 value lies "
+    # The closest is the stack whose rail bound lies nearest the window, then the narrowest gap.
+    assert lines[-1] == ("  closest to having a resistor: D-SIG1 + 2*Z3V0-A: enough current needs R ≤ 98.98 Ω; "
+                         "the parts' and the resistor's current and power limits need R ≥ 91.15 Ω (no E24 value lies "
                          "between)")
     summary = json.loads(run("--db", db, "seek", "--spec", example, "--top", "3", "--tolerance", "50mV", "--load-max",
                              "60mA", "--json").output)["summary"]
-    assert summary["closest_resistor_conflict"].startswith("Z2V7-B + Z3V3-A + Z5V1-A: ")
+    assert summary["closest_resistor_conflict"].startswith("D-SIG1 + 2*Z3V0-A: ")
 
 
 def test_rows_using_an_evaluating_part_say_so_in_table_csv_and_json(tmp_path):
@@ -196,7 +197,12 @@ def test_rows_using_an_evaluating_part_say_so_in_table_csv_and_json(tmp_path):
     example = str(Path(__file__).parents[1] / "examples" / "rail-5v-from-12v.toml")
     base = ("--db", db, "seek", "--spec", example, "--list", "line-a", "--statuses", "approved,evaluating", "--top", "4")
     out = tmp_path / "short.csv"
-    assert "  #3 uses parts not approved on 'line-a': Z5V1-A: evaluating" in run(*base, "--csv", str(out)).output
+    output = run(*base, "--csv", str(out)).output
+    assert "  #3 uses parts not approved on 'line-a': Z5V1-A: evaluating" in output
+    # The legend under the table points to those lines.
+    assert any(line.startswith("window: tolerance minus worst-case error") and line.endswith(
+        "; #N lines under the table: the list's conditions of use and parts not approved on it (statuses)")
+        for line in output.splitlines())
     rows = list(csv.DictReader(out.open(encoding="utf-8")))
     assert [row["statuses"] for row in rows] == ["", "", "Z5V1-A: evaluating", ""]
     shortlist = json.loads(run(*base, "--json").output)["shortlist"]

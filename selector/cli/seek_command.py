@@ -15,6 +15,8 @@ from selector.physics.design_cautions import NEAR_LIMIT_MARGIN
 from selector.spec.spec_summary import describe_spec, spec_toml
 from selector.spec.units import VOLTAGE, format_quantity, parse_quantity
 from selector.views.shortlist_view import (
+    nothing_meets_lines,
+    rejection_line,
     shortlist_json,
     summary_lines,
     terminal_table,
@@ -110,8 +112,7 @@ def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool
         click.echo(line)
     click.echo("")
     if frame.empty:
-        reason = summary.main_rejection
-        click.echo(f"No feasible design. Most candidates were rejected because: {reason or 'no candidate'}.")
+        click.echo(rejection_line(summary))
     else:
         click.echo(terminal_table(frame, spec.tolerance_v))
         if pick != "error":
@@ -132,6 +133,8 @@ def seek(ctx: click.Context, spec, top: int, csv_path: str | None, as_json: bool
         for rank, cautions in zip(frame["rank"], frame["cautions"], strict=True):
             if cautions:
                 click.echo(f"  #{rank}: {cautions}")
+    for line in nothing_meets_lines(frame, summary, spec.tolerance_v):
+        click.echo(line)
     click.echo("")
     for line in summary_lines(summary):
         click.echo(line)

@@ -54,7 +54,7 @@ _HELP: dict[str, tuple[str, str]] = {
 }
 
 SPEC_OPTIONS_EPILOG = (
-    "Every spec key has an option that overrides the --spec file, so a quick search needs "
+    "Every spec key has an option that overrides the --spec file, so a quick run needs "
     "no file, e.g.: --target 5V --tolerance 3% --supply-min 11V --supply-max 13V "
     "--load-min 0 --load-max 10mA --ambient-min 0 --ambient-max 50"
 )

@@ -123,7 +123,6 @@ def design_failures(parts: PartSet, stack: np.ndarray, spec: RailSpec, evaluatio
                                 describe(value, limit_value, _where(labels, where), float(corners.ambient_c[pick]))))  # fmt: skip
 
     volts = lambda v: format_quantity(v, "V")  # noqa: E731
-    amps = lambda v: format_quantity(v, "A", 3)  # noqa: E731
     with np.errstate(invalid="ignore"):
         add("rail below window", None, vout < spec.rail_min_v, vout, spec.rail_min_v, False,
             lambda v, a, w, _: f"rail {volts(v)} below the window's {volts(a)} at {w}")
@@ -131,15 +130,21 @@ def design_failures(parts: PartSet, stack: np.ndarray, spec: RailSpec, evaluatio
             lambda v, a, w, _: f"rail {volts(v)} above the window's {volts(a)} at {w}")
         elements = [int(i) for i in stack if i >= 0]
         limits = part_current_limit(parts, spec)
+        if spec.min_current_a > 0:  # the spec's own floor, once for the whole stack
+            add("least current", None, current < spec.min_current_a, current, spec.min_current_a, False,
+                lambda v, a, w, _: f"stack current {_apart(v, a, 'A')} below the spec's least current "
+                                   f"{_apart(a, v, 'A')} at {w}")
         for index in dict.fromkeys(elements):
             name = str(parts.part[index])
-            need = max(float(parts.i_min_a[index]), spec.min_current_a)
-            what = "the spec's least current" if spec.min_current_a >= parts.i_min_a[index] else (
-                "its knee" if parts.is_zener[index] else "its least current")
-            add("least current", name if what != "the spec's least current" else None, current < need, current, need,
-                False, lambda v, a, w, _, n=name, t=what: f"{n} current {amps(v)} below {t} {amps(a)} at {w}")
+            need = float(parts.i_min_a[index])
+            what = "its knee" if parts.is_zener[index] else "its least current"
+            if need > spec.min_current_a:  # a part's floor above the spec's is named with the part
+                add("least current", name, current < need, current, need, False,
+                    lambda v, a, w, _, n=name, t=what: f"{n} current {_apart(v, a, 'A')} below {t} "
+                                                       f"{_apart(a, v, 'A')} at {w}")
             add("most current", name, current > limits[index], current, limits[index], True,
-                lambda v, a, w, _, n=name: f"{n} current {amps(v)} above its limit {amps(a)} at {w}")
+                lambda v, a, w, _, n=name: f"{n} current {_apart(v, a, 'A')} above its limit {_apart(a, v, 'A')} "
+                                           f"at {w}")
         headroom = 1.0 - spec.min_margin
         if evaluation.element_power_w is not None:
             for position, index in enumerate(elements):
@@ -158,6 +163,16 @@ def design_failures(parts: PartSet, stack: np.ndarray, spec: RailSpec, evaluatio
         failures.append(Failure("no solution", None, tuple(int(c) + 1 for c in unsolved), float("nan"), float("nan"),
                                 f"no solution at {_where(labels, unsolved)}: {'; '.join(statuses)}"))  # fmt: skip
     return failures
+
+
+def _apart(value: float, other: float, unit: str) -> str:
+    """``value`` in engineering form with enough digits (3 to 6) to read apart from ``other``
+    ("14.98 mA below 15 mA", not "15 mA below 15 mA")."""
+    for digits in (3, 4, 5, 6):
+        text = format_quantity(value, unit, digits)
+        if text != format_quantity(other, unit, digits):
+            return text
+    return text
 
 
 def _excess(power_w: np.ndarray, allowed_w: np.ndarray) -> np.ndarray:

@@ -86,7 +86,8 @@ FIRST_BATCH_STACKS = 128
 PARALLEL_THRESHOLD = 4 * BATCH_STACKS
 
 REASON_WINDOW = "no current is both enough and within a part's power or current limit"
-REASON_RESISTOR = "no series-resistor value can give every corner enough current within limits"
+REASON_RESISTOR = ("no series value fits between the limits: enough current needs a lower R than the current "
+                   "and power limits allow")
 #: The two ends of that: even the lowest allowed R gives too little current, or even the
 #: highest allowed R lets a part or the resistor take too much current or power.
 REASON_TOO_LITTLE_CURRENT = "too little current: even the lowest allowed R cannot give every corner its least current"
@@ -96,6 +97,8 @@ REASON_RANK = "cannot rank above the shortlist (error bound)"
 REASON_DESIGN = "every series value proven short of current at some corner"
 REASON_SCREEN = "every series value proven infeasible at a screening corner"
 
+#: Stacks no series value serves kept as nearly feasible (closest limits first).
+CLOSEST_CONFLICTS = 5
 #: Below this many parts the cell tables are built in one process.
 PARALLEL_TABLE_PARTS = 64
 #: Widening of the separable skip's voltage limit [V] (rounding of the sums).
@@ -141,7 +144,13 @@ class SearchSummary:
     part_count: int = 0
     #: The stack whose resistor limits came closest to overlapping, as one line (or None).
     closest_resistor_conflict: str | None = None
-    _closest_ratio: float = field(default=np.inf, repr=False)
+    #: Designs that break a limit but come close, for telling why nothing meets: the
+    #: solved ones with the least error and the stacks whose R limits came closest to
+    #: overlapping (:func:`conflict_designs`), as ``(stacks, resistor_ohm)``; the API
+    #: turns them into the ``nearly_feasible`` rows, each naming what it breaks.
+    nearly_feasible_designs: tuple | None = field(default=None, repr=False)
+    nearly_feasible: list = field(default_factory=list)
+    _conflicts: list = field(default_factory=list, repr=False)
     _part_names: tuple[str, ...] = field(default=(), repr=False)
 
     @property
@@ -165,6 +174,7 @@ class SearchSummary:
             "part_count": self.part_count,
             "main_rejection": self.main_rejection,
             "closest_resistor_conflict": self.closest_resistor_conflict,
+            "nearly_feasible": list(self.nearly_feasible),
             "elapsed_s": self.elapsed_s,
             "spec": spec,
         }
@@ -297,8 +307,10 @@ def _reason_texts(evaluation) -> np.ndarray:
 
 
 def _count_resistor_conflicts(no_resistor, bounds, values, chunk, summary: SearchSummary, pruned: Counter) -> None:
-    """Count the stacks no series value serves, by which end fails, and keep the one whose
-    limits came closest to overlapping (its R range for current and for power)."""
+    """Count the stacks no series value serves, by which end fails, and keep the few whose
+    limits came closest to overlapping (their R range for current and for power): first
+    those whose error bound is nearest the tolerance (any within it alike), then the
+    narrowest gap."""
     if not no_resistor.any():
         return
     high, low = bounds.resistor_high_ohm[no_resistor], bounds.resistor_low_ohm[no_resistor]
@@ -309,17 +321,31 @@ def _count_resistor_conflicts(no_resistor, bounds, values, chunk, summary: Searc
     both = ~too_little & ~too_much
     pruned[REASON_RESISTOR] += int(both.sum())
     if both.any():
-        ratio = low[both] / high[both]
-        best = int(np.argmin(ratio))
-        if ratio[best] < summary._closest_ratio:
-            row = np.flatnonzero(no_resistor)[np.flatnonzero(both)[best]]
-            summary._closest_ratio = float(ratio[best])
-            name = format_stack([summary._part_names[i] for i in chunk[row] if i >= 0])
-            most, least = format_quantity(float(high[both][best]), "Ω"), format_quantity(float(low[both][best]), "Ω")
-            summary.closest_resistor_conflict = (
-                f"{name}: enough current needs R ≤ {most}; the parts' and the resistor's current and power limits "
-                f"need R ≥ {least}" + (f" (no {summary.spec.resistor_series} value lies between)" if ratio[best] <= 1
-                                       else ""))  # fmt: skip
+        rows = np.flatnonzero(no_resistor)[np.flatnonzero(both)]
+        outside = np.maximum(bounds.error_lower_v[rows] - summary.spec.tolerance_v, 0.0)
+        found = [(float(o), float(lo / hi), tuple(int(i) for i in chunk[row] if i >= 0), float(hi), float(lo))
+                 for o, lo, hi, row in zip(outside, low[both], high[both], rows, strict=True)]  # fmt: skip
+        summary._conflicts = sorted(summary._conflicts + found)[:CLOSEST_CONFLICTS]
+        _, ratio, stack, most, least = summary._conflicts[0]
+        name = format_stack([summary._part_names[i] for i in stack])
+        need = (f"the current and power limits with the spec's {summary.spec.min_margin:.0%} margin"
+                if summary.spec.min_margin > 0 else "the parts' and the resistor's current and power limits")
+        summary.closest_resistor_conflict = (
+            f"{name}: enough current needs R ≤ {format_quantity(most, 'Ω')}; {need} need R ≥ "
+            f"{format_quantity(least, 'Ω')}"
+            + (f" (no {summary.spec.resistor_series} value lies between)" if ratio <= 1 else ""))  # fmt: skip
+
+
+def conflict_designs(summary: SearchSummary, values: np.ndarray, max_parts: int) -> tuple[np.ndarray, np.ndarray]:
+    """The stacks kept by :func:`_count_resistor_conflicts`, each at the series value
+    nearest the geometric middle of the gap between its two R limits (padded stacks, [Ω])."""
+    stacks = np.full((len(summary._conflicts), max_parts), -1, dtype=np.int32)
+    middle = np.zeros(len(summary._conflicts))
+    for row, (_, _, stack, most, least) in enumerate(summary._conflicts):
+        stacks[row, : len(stack)] = stack
+        middle[row] = np.sqrt(most * least)
+    nearest = np.abs(np.log(values[None, :]) - np.log(middle[:, None])).argmin(axis=1) if len(middle) else []
+    return stacks, values[nearest]
 
 
 def survey_candidates(spec: RailSpec, tables, chunks, summary: SearchSummary, pruned: Counter):
@@ -404,6 +430,8 @@ class _Solver:
         self.shortlist, self.summary, self.pruned = shortlist, summary, pruned
         self.worker_count, self.progress = worker_count, progress
         self.infeasible = Counter()
+        self.nearly = Shortlist(shortlist.top, order, resolution_v, np.zeros((0, spec.max_parts), dtype=np.int32),
+                                np.zeros(0))  # fmt: skip
         self.pool = None
         self.done = self.total = 0
 
@@ -457,6 +485,9 @@ class _Solver:
         self.infeasible.update(_reason_texts(evaluation)[~feasible].tolist())
         self.summary.feasible += int(feasible.sum())
         self.summary.meeting += int(np.asarray(evaluation.meets)[feasible].sum())
+        breaking = np.flatnonzero(~feasible & np.isfinite(evaluation.error_v))
+        if breaking.size:
+            self.nearly.merge(batch_stacks[breaking], resistor[breaking], take_designs(evaluation, breaking))
         if feasible.any():
             rows = np.flatnonzero(feasible)
             self.shortlist.merge(batch_stacks[rows], resistor[rows], take_designs(evaluation, rows))
@@ -540,6 +571,11 @@ def search_library(
     summary.pruned = {reason: count for reason, count in pruned.items() if count}
     infeasible = solver.infeasible
     summary.infeasible = dict(infeasible)
+    conflicts = conflict_designs(summary, candidate_resistors(spec), spec.max_parts)
+    if solver.nearly.evaluation is not None:
+        conflicts = (np.concatenate([solver.nearly.stacks, conflicts[0]]), np.concatenate([solver.nearly.resistor_ohm,
+                                                                                           conflicts[1]]))
+    summary.nearly_feasible_designs = conflicts if len(conflicts[1]) else None
     summary.elapsed_s = time.perf_counter() - started
     return shortlist, usable, summary
 

@@ -71,3 +71,55 @@ def shortlist_frame(parts, stacks: np.ndarray, resistor_ohm: np.ndarray, evaluat
         "cautions": ["; ".join(c.text for c in found) for found in cautions],
         "statuses": statuses,
     })
+
+
+#: Limits a nearly feasible design is listed for breaking (the window is what fill rows miss anyway).
+BROKEN_LIMITS: tuple[str, ...] = ("least current", "most current", "part power", "resistor power", "no solution")
+
+
+def nearly_feasible_rows(parts, designs, spec, limit: int) -> list[dict]:
+    """Designs that break a limit, closest to the target first, each naming what it breaks.
+
+    Parameters
+    ----------
+    parts : PartSet
+        The parts the stack indices refer to.
+    designs : (stacks, resistor_ohm) or None
+        :attr:`selector.search.engine.SearchSummary.nearly_feasible_designs`.
+    spec : RailSpec
+    limit : int
+        Most rows.
+
+    Returns
+    -------
+    list of dict
+        ``stack, parts, resistor_ohm, vout_low_v, vout_high_v, error_v`` and, per broken
+        limit (:func:`selector.physics.design_failures.design_failures`, the window left
+        out), ``limits`` and ``breaks``; non-finite numbers as None. Each design is solved
+        again at every corner with per-element detail, so a part's power is named; a design
+        that breaks nothing there (a bound was not tight) is left out.
+    """
+    from selector.physics.corners import evaluate_designs
+    from selector.physics.design_failures import design_failures
+
+    if designs is None or len(designs[1]) == 0:
+        return []
+    stacks, resistor_ohm = designs
+    detailed = evaluate_designs(parts, stacks, resistor_ohm, spec, detail=True)
+    order = np.lexsort((resistor_ohm, np.where(np.isfinite(detailed.error_v), detailed.error_v, np.inf)))
+    finite = lambda value: float(value) if np.isfinite(value) else None  # noqa: E731
+    rows, seen = [], set()
+    for design in order:
+        stack = stacks[design]
+        broken = [f for f in design_failures(parts, stack, spec, detailed, design) if f.limit in BROKEN_LIMITS]
+        name = format_stack(parts.part[stack[stack >= 0]])
+        if not broken or (name, float(resistor_ohm[design])) in seen:
+            continue
+        seen.add((name, float(resistor_ohm[design])))
+        rows.append({
+            "stack": name, "parts": int((stack >= 0).sum()), "resistor_ohm": float(resistor_ohm[design]),
+            "vout_low_v": finite(detailed.vout_low_v[design]), "vout_high_v": finite(detailed.vout_high_v[design]),
+            "error_v": finite(detailed.error_v[design]), "limits": [f.limit for f in broken],
+            "breaks": [f.text for f in broken],
+        })  # fmt: skip
+    return rows[:limit]

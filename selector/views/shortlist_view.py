@@ -65,6 +65,9 @@ TABLE_LEGEND = ("window: tolerance minus worst-case error (negative: outside); P
                 "! a part or the resistor within {near:.0%} of its allowed power; * on the Pareto front of error, "
                 "margin and part count")
 
+#: Added to the legend when rows use parts with a condition or a status other than approved.
+LIST_LEGEND = "; #N lines under the table: the list's conditions of use and parts not approved on it (statuses)"
+
 
 def terminal_table(frame: pd.DataFrame, tolerance_v: float) -> str:
     """Aligned text table with units in the headers and engineering notation, and a
@@ -81,6 +84,8 @@ def terminal_table(frame: pd.DataFrame, tolerance_v: float) -> str:
         return "  ".join(v.rjust(w) if i in numeric else v.ljust(w) for i, (v, w) in enumerate(zip(values, widths, strict=True))).rstrip()
 
     legend = TABLE_LEGEND.format(near=NEAR_LIMIT_MARGIN)
+    if any(frame.get("statuses", ())) or any(frame.get("conditions", ())):
+        legend += LIST_LEGEND
     return "\n".join([line(headers), line(["-" * w for w in widths])] + [line(r) for r in cells] + [legend])
 
 
@@ -96,3 +101,37 @@ def summary_lines(summary) -> list[str]:
     if summary.closest_resistor_conflict and not summary.meeting:
         lines.append(f"  closest to having a resistor: {summary.closest_resistor_conflict}")
     return lines
+
+
+def nothing_meets_lines(frame: pd.DataFrame, summary, tolerance_v: float) -> list[str]:
+    """Why a search met nothing: whether any feasible design comes within twice the
+    tolerance, and the nearly feasible designs (closer to the target than any feasible one,
+    but breaking a limit), each with what it breaks. Empty when something meets."""
+    if summary.meeting:
+        return []
+    volts = lambda v: format_quantity(v, "V")  # noqa: E731
+    lines = []
+    if len(frame) and float(frame["error_v"].min()) > 2.0 * tolerance_v:
+        lines.append(f"Nothing meets, and no feasible design comes within twice the tolerance ({volts(2 * tolerance_v)}): "
+                     f"the closest is {volts(float(frame['error_v'].min()))} off where {volts(tolerance_v)} is allowed.")
+    near = getattr(summary, "nearly_feasible", None) or []
+    if near:
+        lines.append("Nearly feasible (closer to the target than any feasible design, but each breaks a limit; "
+                     "closest first):" if len(frame) else
+                     "Nearly feasible (each breaks a limit; closest first, those without a solution at every corner "
+                     "last):")  # fmt: skip
+        for row in near:
+            error = "—" if row["error_v"] is None else volts(row["error_v"])
+            lines.append(f"  {row['stack']} with {format_quantity(row['resistor_ohm'], 'Ω')}: error {error}")
+            lines += [f"    breaks: {text}" for text in row["breaks"]]
+    return lines
+
+
+def rejection_line(summary) -> str:
+    """The line of a search that found nothing feasible: the limit that rejected the most
+    candidates, and how many."""
+    reason = summary.main_rejection
+    if reason is None:
+        return "No feasible design. Most candidates were rejected because: no candidate."
+    count = summary.pruned.get(reason, 0) + summary.infeasible.get(reason, 0)
+    return f"No feasible design. Most candidates were rejected because: {reason} ({count} of {summary.considered} stacks)."
