@@ -123,3 +123,19 @@ def test_common_conditions_are_what_every_listed_corner_shares():
     assert common_conditions(labels, np.arange(8, 16)) == "Vin min, load most"
     assert common_conditions(labels, np.array([0, 31])) == ""
     assert common_conditions(labels, np.array([5])) == labels[5]
+
+
+def test_the_specs_least_current_is_one_stack_failure_with_digits_that_tell_it_apart(db):
+    arguments = ("--stack", "2*D-SIG1 + Z2V7-A", "--resistor", "270", "--min-current", "15mA")
+    result = check(db, *arguments)
+    assert result.exit_code == 3
+    assert ("  fails: stack current 12.5 mA below the spec's least current 15 mA at corners 9–12, 14–16 "
+            "(Vin min, load most)") in result.output.splitlines()
+    assert result.output.count("least current 15 mA") == 1  # once for the stack, not once per part
+    failure = next(f for f in json.loads(check(db, *arguments, "--json").output)["failures"]
+                   if f["limit"] == "least current")
+    assert failure["part"] is None and failure["allowed"] == pytest.approx(15e-3, rel=1e-12)
+    # A value that rounds to its limit is shown with more digits.
+    from selector.physics.design_failures import _apart
+
+    assert (_apart(14.98e-3, 15e-3, "A"), _apart(15e-3, 14.98e-3, "A")) == ("14.98 mA", "15 mA")
