@@ -168,6 +168,10 @@ def test_csv_gets_its_spec_sibling_and_json_its_context(tmp_path):
     context = document["context"]
     assert set(context) == {"spec", "library_sha256", "computed_at", "railwright_version", "pick"}
     assert len(context["library_sha256"]) == 64 and context["spec"]["target_v"] == 5.0
+    # The CSV keeps full precision: its numbers read back to the very floats of the JSON.
+    first = next(csv.DictReader(out.open(encoding="utf-8")))
+    for key in ("resistor_ohm", "vout_nom_v", "vout_low_v", "vout_high_v", "error_v", "margin", "i_min_a"):
+        assert float(first[key]) == document["shortlist"][0][key], key
 
 
 def test_a_search_that_finds_nothing_says_which_end_of_the_resistor_range_fails(tmp_path):
