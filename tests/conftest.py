@@ -106,6 +106,15 @@ def demo_library(library_path) -> Library:
     library.close()
 
 
+@pytest.fixture(scope="module")
+def demo_db_module(tmp_path_factory) -> str:
+    """A demo library made once per test module through ``init --demo``, for read-only
+    CLI tests (its path as ``--db`` takes it)."""
+    path = str(tmp_path_factory.mktemp("demo") / "lib.sqlite")
+    assert CliRunner().invoke(main, ["--db", path, "init", "--demo"]).exit_code == 0
+    return path
+
+
 @pytest.fixture
 def empty_library(library_path) -> Library:
     """A fresh, empty library at ``library_path``."""

@@ -17,10 +17,8 @@ EXAMPLE_SPEC = str(Path(__file__).parents[1] / "examples" / "rail-5v-from-12v.to
 
 
 @pytest.fixture(scope="module")
-def db(tmp_path_factory):
-    path = str(tmp_path_factory.mktemp("nothing") / "lib.sqlite")
-    assert CliRunner().invoke(main, ["--db", path, "init", "--demo"]).exit_code == 0
-    return path
+def db(demo_db_module):
+    return demo_db_module
 
 
 def seek(db, *arguments):
