@@ -14,6 +14,17 @@ from selector.views.check_view import check_json, check_lines, fix_json, range_l
 MAX_MONTE_CARLO_SAMPLES = 10_000_000
 
 
+#: The search's spec keys mean something else in ``check``: the stack is given, so they
+#: only bound the what-if variants.
+_CHECK_HELP = {
+    "search.max_parts": "Most elements a what-if variant may have (adding one forward element), 1 … 12 (default 3).",
+    "search.families": "Families a what-if variant may swap in or add, comma-separated, e.g. 'zener,signal' "
+                       "(default: all).",
+    "search.list": "Approved-parts list to check the stack against: a part it does not allow is warned about, "
+                   "conditions of use are shown, and what-if variants use only its usable parts.",
+}
+
+
 @click.command(
     "check",
     epilog="\b\nExamples:\n"
@@ -42,7 +53,7 @@ MAX_MONTE_CARLO_SAMPLES = 10_000_000
               "each solved at every corner; shown anyway when the design does not meet.")
 @click.option("--derating", type=float, default=1.0, show_default=True, metavar="FRACTION",
               help="Shop derating for the resistor rating advice: fraction of a rating that may be used, e.g. 0.5.")
-@spec_options
+@spec_options(help_for=_CHECK_HELP)
 @click.pass_obj
 def check(state, stack_text, as_json, samples, seed, pick, what_if, derating, spec):
     """Solve one stack and series resistor at all 32 worst-case corners and report.
@@ -80,18 +91,5 @@ def check(state, stack_text, as_json, samples, seed, pick, what_if, derating, sp
     if not design.meets:
         raise click.exceptions.Exit(NEGATIVE_VERDICT_EXIT)
 
-
-#: The spec options whose part in ``check`` is not the search's: the stack is given, so they
-#: only bound the what-if variants.
-_CHECK_HELP = {
-    "--max-parts": "Most elements a what-if variant may have (adding one forward element), 1 … 12 (default 3).",
-    "--families": "Families a what-if variant may swap in or add, comma-separated, e.g. 'zener,signal' "
-                  "(default: all).",
-    "--list": "Approved-parts list to check the stack against: a part it does not allow is warned about, "
-              "conditions of use are shown, and what-if variants use only its usable parts.",
-}
-for _parameter in check.params:
-    if _parameter.opts[0] in _CHECK_HELP:
-        _parameter.help = _CHECK_HELP[_parameter.opts[0]]
 
 COMMANDS = [check]

@@ -8,7 +8,7 @@
 from __future__ import annotations
 
 import functools
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 
 import click
 
@@ -65,14 +65,20 @@ def _parameter_name(dotted: str) -> str:
     return "spec_" + dotted.replace(".", "_")
 
 
-def spec_options(command: Callable) -> Callable:
+def spec_options(command: Callable | None = None, *, help_for: Mapping[str, str] | None = None) -> Callable:
     """Decorate a click command callback with ``--spec`` and every spec option.
 
     The command receives the validated :class:`RailSpec` as the keyword argument
     ``spec``; a bad value raises :class:`selector.errors.SpecError` naming the file and
     key or the option, which the ``railwright`` group reports as one ``Error:`` line.
+    ``help_for`` (``"section.key"`` → text) replaces an option's help where the key means
+    something else to the command, e.g. ``@spec_options(help_for={...})``.
     """
-    return _with_spec_options(command, lambda path, overrides: {"spec": _warned(load_spec(path, overrides))})
+    def decorate(callback: Callable) -> Callable:
+        return _with_spec_options(callback, lambda path, overrides: {"spec": _warned(load_spec(path, overrides))},
+                                  help_for or {})  # fmt: skip
+
+    return decorate if command is None else decorate(command)
 
 
 def _warned(spec):
@@ -91,10 +97,12 @@ def spec_source_options(command: Callable) -> Callable:
     take the spec from somewhere else.
     """
     return _with_spec_options(command, lambda path, overrides: {
-        "spec_path": path, "spec_overrides": {key: value for key, value in overrides.items() if value is not None}})
+        "spec_path": path, "spec_overrides": {key: value for key, value in overrides.items() if value is not None}},
+        {})
 
 
-def _with_spec_options(command: Callable, hand_over: Callable[[str | None, dict], dict]) -> Callable:
+def _with_spec_options(command: Callable, hand_over: Callable[[str | None, dict], dict],
+                       help_for: Mapping[str, str]) -> Callable:
     @functools.wraps(command)
     def with_spec(*args, **kwargs):
         spec_path = kwargs.pop("spec_path")
@@ -109,7 +117,7 @@ def _with_spec_options(command: Callable, hand_over: Callable[[str | None, dict]
             _parameter_name(dotted),
             metavar=metavar,
             default=None,
-            help=help_text,
+            help=help_for.get(dotted, help_text),
         )(with_spec)
     return click.option(
         "--spec",
